@@ -1,0 +1,3 @@
+from drivelint.cli import main
+
+main()

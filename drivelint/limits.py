@@ -1,0 +1,25 @@
+"""Bounds that keep hostile or runaway input from exhausting time or memory."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+
+
+@dataclass(frozen=True, slots=True)
+class Limits:
+    """Every bound the reader and elaborator enforce; each is configurable."""
+
+    max_file_bytes: int = 32 * 1024 * 1024
+    max_line_chars: int = 1_000_000
+    max_include_depth: int = 16
+    max_files: int = 2_000
+    max_subckt_nesting: int = 16
+    max_instance_depth: int = 32
+    max_expression_chars: int = 4_096
+    max_expression_depth: int = 64
+    max_param_recursion: int = 64
+    max_devices: int = 2_000_000
+
+    @classmethod
+    def names(cls) -> tuple[str, ...]:
+        return tuple(f.name for f in fields(cls))

@@ -1,0 +1,1 @@
+"""Reading: netlist files become a deck of statements with exact source positions."""

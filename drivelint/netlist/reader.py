@@ -1,0 +1,691 @@
+"""Read netlist files into a :class:`Deck`.
+
+Reading happens in two passes per file. The first pass is line-level: title, comments,
+``+`` continuations and inline comments, producing logical lines that remember where each
+of their characters came from. The second pass parses each logical line with the lark
+grammar in ``grammar/netlist.lark`` and turns it into a statement. Includes and library
+sections are expanded in place, so the deck is one stream of statements whose spans point
+into whichever file they came from.
+"""
+
+from __future__ import annotations
+
+import bisect
+import os
+import re
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from drivelint.diagnostics import Diagnostic, DiagnosticError, Severity, Span
+from drivelint.limits import Limits
+from drivelint.netlist.statements import (
+    Assign,
+    Deck,
+    Directive,
+    Element,
+    Expr,
+    Field,
+    GlobalCard,
+    Group,
+    ModelCard,
+    OptionCard,
+    ParamCard,
+    Statement,
+    Subckt,
+    TranCard,
+    Word,
+)
+
+DIRECTIVE_PREFIX = "drivelint:"
+ELEMENT_LETTERS = frozenset("rclkdqmjvieifghbswx")
+# Element kinds SPICE knows but drivelint does not model; they are skipped with a warning.
+UNSUPPORTED_LETTERS = frozenset("toupyzan")
+# Analysis, output and control cards: recognised and skipped without comment.
+IGNORED_CARDS = frozenset(
+    {
+        ".op", ".ac", ".dc", ".tf", ".noise", ".disto", ".sens", ".pz", ".four", ".meas",
+        ".measure", ".save", ".print", ".plot", ".probe", ".ic", ".nodeset", ".temp",
+        ".width", ".title", ".csparam", ".step", ".backanno", ".savebias", ".loadbias",
+        ".sp", ".pss", ".fft", ".net", ".wave", ".lin", ".options_end",
+    }
+)
+OPTION_CARDS = frozenset({".option", ".options", ".opt"})
+INCLUDE_CARDS = frozenset({".include", ".inc", ".incl"})
+
+_ASSIGN_START = re.compile(r"([A-Za-z_][A-Za-z0-9_.]*)\s*=(?!=)")
+# A flat line (no groups, no embedded expressions) is split by this pattern instead of the
+# grammar: same fields, a tenth of the time. tests/netlist/test_reader.py holds the two
+# paths to the same output.
+_FLAT_CHARS = frozenset("(),")
+_FLAT_FIELD = re.compile(
+    r"\s*(?:([^\s=(),{}']+)(?:\s*=\s*([^\s=(),{}']+|\{[^{}]*\}|'[^']*'))?|(\{[^{}]*\}|'[^']*'))\s*"
+)
+
+
+@dataclass(frozen=True, slots=True)
+class ReadOptions:
+    """How includes are resolved and bounded."""
+
+    root: Path | None = None
+    allow_outside_root: bool = False
+    search_path: tuple[Path, ...] = ()
+    limits: Limits = field(default_factory=Limits)
+
+
+@dataclass(slots=True)
+class LogicalLine:
+    """One statement's text, with a map back to physical positions."""
+
+    text: str
+    path: str
+    # (offset in text, physical line, physical column of that offset), sorted by offset.
+    segments: list[tuple[int, int, int]]
+
+    def span_at(self, offset: int) -> Span:
+        if len(self.segments) == 1:
+            _, line, column = self.segments[0]
+            return Span(self.path, line, column + offset)
+        index = bisect.bisect_right(self.segments, (offset, 1 << 62, 0)) - 1
+        start, line, column = self.segments[max(index, 0)]
+        return Span(self.path, line, column + max(offset - start, 0))
+
+    @property
+    def span(self) -> Span:
+        start, line, column = self.segments[0]
+        return Span(self.path, line, column)
+
+
+class _LineParser:
+    """The lark parser for one logical line, built once per process."""
+
+    _parser: Any = None
+
+    @classmethod
+    def get(cls) -> Any:
+        if cls._parser is None:
+            from lark import Lark
+
+            from drivelint.netlist.resources import grammar_path
+
+            cls._parser = Lark(
+                grammar_path("netlist.lark").read_text(encoding="utf-8"),
+                parser="lalr",
+                lexer="contextual",
+                maybe_placeholders=False,
+                cache=True,
+            )
+        return cls._parser
+
+
+def _convert(tree: Any, line: LogicalLine) -> list[Field]:
+    """Turn the parse tree of a logical line into fields with physical spans."""
+    out: list[Field] = []
+    for child in tree.children:
+        out.append(_convert_item(child, line))
+    return out
+
+
+def _convert_item(node: Any, line: LogicalLine) -> Field:
+    kind = node.data
+    if kind == "word":
+        token = node.children[0]
+        return Word(str(token).lower(), str(token), line.span_at(token.start_pos))
+    if kind == "expr":
+        token = node.children[0]
+        return Expr(str(token)[1:-1], line.span_at(token.start_pos + 1))
+    if kind == "assign":
+        key = node.children[0]
+        value = _convert_item(node.children[1], line)
+        return Assign(str(key).lower(), value, line.span_at(key.start_pos))
+    if kind == "group":
+        items = tuple(_convert_item(child, line) for child in node.children)
+        start = node.meta.start_pos if not node.meta.empty else 0
+        return Group(items, line.span_at(start))
+    raise AssertionError(f"grammar rule without a handler: {kind}")
+
+
+def split_flat(line: LogicalLine) -> list[Field] | None:
+    """Fields of a line without groups or expressions; None if the pattern does not cover it."""
+    text = line.text
+    out: list[Field] = []
+    position = 0
+    end = len(text)
+    span_at = line.span_at
+    for match in _FLAT_FIELD.finditer(text):
+        if match.start() != position:
+            return None
+        position = match.end()
+        key, value, bare = match.group(1, 2, 3)
+        if bare is not None:
+            out.append(Expr(bare[1:-1], span_at(match.start(3) + 1)))
+            continue
+        key_span = span_at(match.start(1))
+        if value is None:
+            out.append(Word(key.lower(), key, key_span))
+            continue
+        if value[0] in "{'":
+            field: Field = Expr(value[1:-1], span_at(match.start(2) + 1))
+        else:
+            field = Word(value.lower(), value, span_at(match.start(2)))
+        out.append(Assign(key.lower(), field, key_span))
+    return out if position == end else None
+
+
+def strip_inline_comment(text: str) -> str:
+    """Remove a ``;`` comment or a ``$ `` comment, outside quotes and braces."""
+    if ";" not in text and "$" not in text:
+        return text
+    depth = 0
+    quoted = False
+    for index, char in enumerate(text):
+        if char == "'" and depth == 0:
+            quoted = not quoted
+        elif quoted:
+            continue
+        elif char == "{":
+            depth += 1
+        elif char == "}":
+            depth = max(depth - 1, 0)
+        elif depth:
+            continue
+        elif char == ";":
+            return text[:index]
+        elif char == "$" and (index == 0 or text[index - 1] in " \t") and (
+            index + 1 == len(text) or text[index + 1] in " \t"
+        ):
+            return text[:index]
+    return text
+
+
+def _decode(data: bytes) -> tuple[str, bool]:
+    try:
+        return data.decode("utf-8-sig"), False
+    except UnicodeDecodeError:
+        return data.decode("latin-1"), True
+
+
+class _Reader:
+    def __init__(self, options: ReadOptions, cwd: Path) -> None:
+        self.options = options
+        self.limits = options.limits
+        self.cwd = cwd
+        self.diagnostics: list[Diagnostic] = []
+        self.directives: list[Directive] = []
+        self.files: list[str] = []
+        self.sources: dict[str, tuple[str, ...]] = {}
+        self.stack: list[tuple[Path, str | None]] = []
+        self.title = ""
+        # Open .subckt blocks: (header statement fields, body being collected).
+        self.blocks: list[tuple[Element, list[Statement]]] = []
+        self.top: list[Statement] = []
+
+    # -- diagnostics ---------------------------------------------------------------
+
+    def report(self, severity: Severity, span: Span, message: str, code: str = "syntax") -> None:
+        lines = self.sources.get(span.path, ())
+        text = lines[span.line - 1] if 0 < span.line <= len(lines) else ""
+        self.diagnostics.append(Diagnostic(severity, span, message, text, code))
+
+    def fail(self, span: Span, message: str, code: str = "syntax") -> DiagnosticError:
+        lines = self.sources.get(span.path, ())
+        text = lines[span.line - 1] if 0 < span.line <= len(lines) else ""
+        return DiagnosticError(Diagnostic(Severity.ERROR, span, message, text, code))
+
+    def display(self, path: Path) -> str:
+        try:
+            return os.path.relpath(path, self.cwd) if path.is_relative_to(self.cwd) else str(path)
+        except ValueError:
+            return str(path)
+
+    # -- files -----------------------------------------------------------------------
+
+    def load(self, path: Path, shown: str, origin: Span | None) -> tuple[str, ...] | None:
+        """Read a file's lines, or report why it cannot be read (at ``origin``)."""
+        where = origin or Span(shown, 1, 1)
+        code = "include" if origin else "file"
+        if len(self.files) >= self.limits.max_files:
+            self.report(
+                Severity.ERROR, where,
+                f"more than {self.limits.max_files} files read (limit max_files); "
+                f"'{shown}' not read", "limit",
+            )
+            return None
+        try:
+            if path.is_dir():
+                self.report(Severity.ERROR, where, f"'{shown}' is a directory, not a netlist", code)
+                return None
+            size = path.stat().st_size
+            if size > self.limits.max_file_bytes:
+                self.report(
+                    Severity.ERROR, where,
+                    f"'{shown}' is {size} bytes, over the limit of {self.limits.max_file_bytes} "
+                    "bytes (limit max_file_bytes)", "limit",
+                )
+                return None
+            data = path.read_bytes()
+        except FileNotFoundError:
+            self.report(Severity.ERROR, where, f"file '{shown}' not found", code)
+            return None
+        except OSError as exc:
+            self.report(Severity.ERROR, where, f"cannot read '{shown}': {exc.strerror}", code)
+            return None
+        if b"\x00" in data[:65536]:
+            self.report(Severity.ERROR, where, f"'{shown}' is a binary file, not a netlist", code)
+            return None
+        text, fallback = _decode(data)
+        lines = tuple(text.splitlines())
+        self.files.append(shown)
+        self.sources[shown] = lines
+        if fallback:
+            self.report(
+                Severity.NOTE, Span(shown, 1, 1),
+                "file is not valid UTF-8; read as Latin-1", "encoding",
+            )
+        return lines
+
+    def logical_lines(
+        self, lines: Sequence[str], shown: str, has_title: bool
+    ) -> Iterator[LogicalLine]:
+        current: LogicalLine | None = None
+        for number, raw in enumerate(lines, start=1):
+            if has_title and number == 1:
+                self.title = raw.strip()
+                continue
+            if len(raw) > self.limits.max_line_chars:
+                self.report(
+                    Severity.ERROR, Span(shown, number, 1),
+                    f"line is {len(raw)} characters long, over the limit of "
+                    f"{self.limits.max_line_chars} (limit max_line_chars)", "limit",
+                )
+                continue
+            stripped = raw.lstrip()
+            if not stripped:
+                continue
+            indent = len(raw) - len(stripped)
+            if stripped[0] == "*":
+                self.note_directive(stripped, shown, number, indent)
+                continue
+            if stripped[0] == "+":
+                if current is None:
+                    self.report(
+                        Severity.ERROR, Span(shown, number, indent + 1),
+                        "continuation line '+' has no statement before it to continue",
+                    )
+                    continue
+                piece = strip_inline_comment(stripped[1:])
+                if len(current.text) + len(piece) > self.limits.max_line_chars:
+                    self.report(
+                        Severity.ERROR, Span(shown, number, indent + 1),
+                        "statement is too long (limit max_line_chars)", "limit",
+                    )
+                    continue
+                current.segments.append((len(current.text) + 1, number, indent + 2))
+                current.text += " " + piece
+                continue
+            if current is not None:
+                yield current
+            current = LogicalLine(strip_inline_comment(stripped), shown, [(0, number, indent + 1)])
+        if current is not None:
+            yield current
+
+    def note_directive(self, comment: str, shown: str, number: int, indent: int) -> None:
+        body = comment[1:].lstrip()
+        if body[: len(DIRECTIVE_PREFIX)].lower() != DIRECTIVE_PREFIX:
+            return
+        text = body[len(DIRECTIVE_PREFIX):]
+        column = indent + 1 + (len(comment) - len(text))
+        self.directives.append(
+            Directive(text.strip(), Span(shown, number, column), column)
+        )
+
+    # -- statements ------------------------------------------------------------------
+
+    def emit(self, statement: Statement) -> None:
+        (self.blocks[-1][1] if self.blocks else self.top).append(statement)
+
+    def read_file(self, path: Path, section: str | None, origin: Span | None) -> bool:
+        """Read one file (or one library section of it); False if the section was absent."""
+        shown = self.display(path)
+        key = (path, section)
+        where = origin or Span(shown, 1, 1)
+        if key in self.stack:
+            chain = " -> ".join(self.display(p) for p, _ in self.stack) + f" -> {shown}"
+            self.report(Severity.ERROR, where, f"include cycle: {chain}", "include")
+            return True
+        if len(self.stack) > self.limits.max_include_depth:
+            self.report(
+                Severity.ERROR, where,
+                f"includes nested deeper than {self.limits.max_include_depth} "
+                "(limit max_include_depth)", "limit",
+            )
+            return True
+        lines = self.sources.get(shown)
+        if lines is None:
+            lines = self.load(path, shown, origin)
+            if lines is None:
+                return True
+        self.stack.append(key)
+        try:
+            return self.read_lines(lines, shown, path, section, has_title=origin is None)
+        finally:
+            self.stack.pop()
+
+    def read_lines(
+        self, lines: Sequence[str], shown: str, path: Path, section: str | None, has_title: bool
+    ) -> bool:
+        """Read statements from lines; with ``section``, only that ``.lib`` section's."""
+        in_control = False
+        skipping: str | None = None  # a library section that is not wanted
+        inside_wanted = False
+        found = section is None
+        last: LogicalLine | None = None
+        for line in self.logical_lines(lines, shown, has_title):
+            last = line
+            words = line.text.split()
+            card = words[0].lower().split("(", 1)[0] if words else ""
+            if in_control:
+                in_control = card != ".endc"
+                continue
+            if card == ".control":
+                in_control = True
+                continue
+            active = skipping is None and (section is None or inside_wanted)
+            if card == ".endl":
+                if skipping is not None:
+                    skipping = None
+                elif inside_wanted:
+                    return True
+                else:
+                    self.report(Severity.WARNING, line.span, "'.endl' without a '.lib' section")
+                continue
+            if card == ".lib" and len(words) == 2:
+                name = words[1].lower()
+                if skipping is None and section is not None and not inside_wanted and name == section:
+                    inside_wanted = found = True
+                elif skipping is None:
+                    # A section definition: read only when a `.lib FILE NAME` selects it.
+                    skipping = name
+                continue
+            if not active:
+                continue
+            if card == ".end":
+                break
+            try:
+                if card == ".lib":
+                    self.include(line, path, library=True)
+                else:
+                    self.statement(line, card, path)
+            except DiagnosticError as exc:
+                self.diagnostics.append(exc.diagnostic)
+        if skipping is not None and last is not None:
+            self.report(Severity.ERROR, last.span, f"library section '{skipping}' has no '.endl'")
+        if in_control and last is not None:
+            self.report(Severity.WARNING, last.span, "'.control' block has no '.endc'")
+        return found
+
+    def statement(self, line: LogicalLine, card: str, path: Path) -> None:
+        if card.startswith("."):
+            if card in INCLUDE_CARDS:
+                self.include(line, path, library=False)
+            elif card in IGNORED_CARDS:
+                return
+            elif card == ".param":
+                self.emit(ParamCard(tuple(self.assignments(line, len(card))), line.span))
+            elif card == ".subckt":
+                self.open_subckt(line)
+            elif card == ".ends":
+                self.close_subckt(line)
+            elif card == ".model":
+                self.model_card(line)
+            elif card == ".global":
+                fields = self.parse(line)[1:]
+                self.emit(GlobalCard(tuple(f for f in fields if isinstance(f, Word)), line.span))
+            elif card in OPTION_CARDS:
+                self.emit(OptionCard(tuple(self.parse(line)[1:]), line.span))
+            elif card == ".tran":
+                self.emit(TranCard(tuple(self.parse(line)[1:]), line.span))
+            elif card in (".func", ".if", ".elseif", ".else", ".endif", ".data", ".alter"):
+                self.report(
+                    Severity.WARNING, line.span,
+                    f"'{card}' is not supported by drivelint; the card is ignored", "unsupported",
+                )
+            else:
+                self.report(
+                    Severity.WARNING, line.span,
+                    f"unknown control card '{card}' ignored", "unknown-card",
+                )
+            return
+        letter = card[:1]
+        if letter in ELEMENT_LETTERS:
+            fields = self.parse(line)
+            name = fields[0]
+            if not isinstance(name, Word):
+                raise self.fail(line.span, "expected an element name at the start of the line")
+            self.emit(Element(name.text, tuple(fields[1:]), line.span))
+        elif letter in UNSUPPORTED_LETTERS:
+            self.report(
+                Severity.WARNING, line.span,
+                f"element '{card}': kind '{letter.upper()}' is not modelled by drivelint; "
+                "line ignored", "unsupported",
+            )
+        else:
+            raise self.fail(
+                line.span,
+                f"'{line.text.split()[0]}' does not start a statement: expected an element "
+                "name (R C L K D Q M J V I E F G H B S W X …) or a dot-card",
+            )
+
+    def parse(self, line: LogicalLine) -> list[Field]:
+        if _FLAT_CHARS.isdisjoint(line.text):
+            flat = split_flat(line)
+            if flat is not None:
+                return flat
+        return self.parse_with_grammar(line)
+
+    def parse_with_grammar(self, line: LogicalLine) -> list[Field]:
+        from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
+
+        try:
+            tree = _LineParser.get().parse(line.text)
+        except UnexpectedCharacters as exc:
+            char = line.text[exc.pos_in_stream] if exc.pos_in_stream < len(line.text) else ""
+            hint = {
+                "{": "an expression in braces that is never closed, or braces nested "
+                "(write the expression in one pair of braces)",
+                "'": "a quoted expression that is never closed",
+            }.get(char, f"unexpected character {char!r}")
+            raise self.fail(line.span_at(exc.pos_in_stream), hint) from None
+        except UnexpectedToken as exc:
+            token = exc.token
+            offset = getattr(token, "start_pos", None)
+            if token.type == "$END":
+                message = "unbalanced parenthesis: the line ends before ')'"
+                offset = len(line.text.rstrip()) - 1
+            elif token.type == "RPAR":
+                message = "unbalanced parenthesis: ')' without '('"
+            elif token.type == "EQUAL":
+                message = "'=' without a parameter name before it"
+            else:
+                message = f"unexpected {str(token)!r}: expected a value"
+            raise self.fail(line.span_at(offset or 0), message) from None
+        except UnexpectedInput as exc:  # pragma: no cover - lark has no other subclasses here
+            raise self.fail(line.span, f"cannot parse line: {exc}") from None
+        return _convert(tree, line)
+
+    def assignments(self, line: LogicalLine, start: int) -> Iterator[Assign]:
+        """``name = expression`` pairs, where an expression may contain spaces."""
+        text = line.text
+        matches = [m for m in _ASSIGN_START.finditer(text, start) if self._top_level(text, m)]
+        if not matches and text[start:].strip():
+            raise self.fail(
+                line.span_at(start + 1), "expected name=value after the card"
+            )
+        for index, match in enumerate(matches):
+            end = matches[index + 1].start() if index + 1 < len(matches) else len(text)
+            value = text[match.end():end].strip().rstrip(",").strip()
+            value_offset = text.index(value, match.end()) if value else match.end()
+            if not value:
+                raise self.fail(
+                    line.span_at(match.end()), f"parameter '{match.group(1)}' has no value"
+                )
+            if value[0] == "{" and value[-1] == "}" or value[0] == "'" and value[-1] == "'":
+                value, value_offset = value[1:-1], value_offset + 1
+            yield Assign(
+                match.group(1).lower(),
+                Expr(value, line.span_at(value_offset)),
+                line.span_at(match.start()),
+            )
+
+    @staticmethod
+    def _top_level(text: str, match: re.Match[str]) -> bool:
+        before = text[: match.start()]
+        return (
+            before.count("(") == before.count(")")
+            and before.count("{") == before.count("}")
+            and before.count("'") % 2 == 0
+            and (not before or not (before[-1].isalnum() or before[-1] in "_."))
+        )
+
+    def model_card(self, line: LogicalLine) -> None:
+        fields = self.parse(line)[1:]
+        if len(fields) < 2 or not isinstance(fields[0], Word) or not isinstance(fields[1], Word):
+            raise self.fail(line.span, "expected '.model NAME TYPE (PARAM=VALUE …)'")
+        params: list[Assign] = []
+        for item in fields[2:]:
+            items = item.items if isinstance(item, Group) else (item,)
+            for sub in items:
+                if isinstance(sub, Assign):
+                    params.append(sub)
+                elif isinstance(sub, Word) and sub.text in ("pchan", "nchan"):
+                    # VDMOS channel flags are bare words; keep them as flags set to 1.
+                    params.append(Assign(sub.text, Word("1", "1", sub.span), sub.span))
+                else:
+                    raise self.fail(
+                        sub.span, "expected PARAM=VALUE in the model's parameter list"
+                    )
+        self.emit(ModelCard(fields[0].text, fields[1].text, tuple(params), line.span))
+
+    def open_subckt(self, line: LogicalLine) -> None:
+        if len(self.blocks) >= self.limits.max_subckt_nesting:
+            raise self.fail(
+                line.span,
+                f"subcircuit definitions nested deeper than {self.limits.max_subckt_nesting} "
+                "(limit max_subckt_nesting)", "limit",
+            )
+        fields = self.parse(line)
+        if len(fields) < 2 or not isinstance(fields[1], Word):
+            raise self.fail(line.span, "expected '.subckt NAME PORT … [params: NAME=VALUE …]'")
+        self.blocks.append((Element(fields[1].text, tuple(fields[2:]), line.span), []))
+
+    def close_subckt(self, line: LogicalLine) -> None:
+        if not self.blocks:
+            raise self.fail(line.span, "'.ends' without a '.subckt' to close")
+        header, body = self.blocks.pop()
+        words = line.text.split()
+        if len(words) > 1 and words[1].lower() != header.name:
+            self.report(
+                Severity.WARNING, line.span,
+                f"'.ends {words[1]}' closes subcircuit '{header.name}'",
+            )
+        ports: list[Word] = []
+        params: list[Assign] = []
+        for item in header.fields:
+            if isinstance(item, Word) and item.text.startswith("params:"):
+                rest = item.text[len("params:"):]
+                if rest:
+                    raise self.fail(item.span, "expected 'params:' followed by NAME=VALUE")
+                continue
+            if isinstance(item, Word) and not params:
+                ports.append(item)
+            elif isinstance(item, Assign):
+                params.append(item)
+            else:
+                raise self.fail(item.span, "expected a port name or NAME=VALUE")
+        self.emit(Subckt(header.name, tuple(ports), tuple(params), tuple(body), header.span))
+
+    def include(self, line: LogicalLine, path: Path, library: bool) -> None:
+        parts = _split_path_args(line.text)
+        card = parts[0].lower() if parts else ""
+        args = parts[1:]
+        if not args or (library and len(args) > 2) or (not library and len(args) > 1):
+            form = "'.lib FILE SECTION'" if library else "'.include FILE'"
+            raise self.fail(line.span, f"expected {form}", "include")
+        name = args[0]
+        section = args[1].lower() if library else None
+        target = self.resolve(name, path, line.span_at(len(card) + 1))
+        if target is None:
+            return
+        if not self.read_file(target, section, line.span):
+            self.report(
+                Severity.ERROR, line.span,
+                f"library section '{section}' not found in '{self.display(target)}'", "include",
+            )
+
+    def resolve(self, name: str, including: Path, span: Span) -> Path | None:
+        candidate = Path(name).expanduser()
+        tries = (
+            [candidate]
+            if candidate.is_absolute()
+            else [including.parent / candidate, *(p / candidate for p in self.options.search_path)]
+        )
+        found = next((t for t in tries if t.exists()), tries[0])
+        resolved = found.resolve()
+        root = self.options.root
+        if root is not None and not self.options.allow_outside_root:
+            if not resolved.is_relative_to(root.resolve()):
+                self.report(
+                    Severity.ERROR, span,
+                    f"include '{name}' resolves outside the project root '{self.display(root)}'; "
+                    "refused (set allow_outside_root to permit it)", "include",
+                )
+                return None
+        return resolved
+
+
+def _split_path_args(text: str) -> list[str]:
+    """Split ``.include "a b.lib"`` style arguments, honouring quotes."""
+    out: list[str] = []
+    for match in re.finditer(r'"([^"]*)"|\'([^\']*)\'|(\S+)', text):
+        out.append(next(g for g in match.groups() if g is not None))
+    return out
+
+
+def read_deck(path: str | Path, options: ReadOptions | None = None, text: str | None = None) -> Deck:
+    """Read a top-level netlist and everything it includes. Never raises for bad input."""
+    options = options or ReadOptions()
+    cwd = Path.cwd()
+    reader = _Reader(options, cwd)
+    target = Path(path)
+    if text is not None:
+        shown = str(path)
+        lines = tuple(text.splitlines())
+        reader.files.append(shown)
+        reader.sources[shown] = lines
+        reader.stack.append((target.resolve(), None))
+        reader.read_lines(lines, shown, target.resolve(), None, has_title=True)
+        reader.stack.pop()
+    else:
+        shown = reader.display(target.absolute()) if target.is_absolute() else str(path)
+        absolute = target.resolve()
+        loaded = reader.load(absolute, shown, None)
+        if loaded is not None:
+            reader.stack.append((absolute, None))
+            try:
+                reader.read_lines(loaded, shown, absolute, None, has_title=True)
+            except DiagnosticError as exc:
+                reader.diagnostics.append(exc.diagnostic)
+            reader.stack.pop()
+    while reader.blocks:
+        header, _ = reader.blocks.pop()
+        reader.report(Severity.ERROR, header.span, f"subcircuit '{header.name}' has no '.ends'")
+    return Deck(
+        path=shown,
+        title=reader.title,
+        statements=tuple(reader.top),
+        files=tuple(reader.files),
+        directives=tuple(reader.directives),
+        diagnostics=tuple(reader.diagnostics),
+        sources=reader.sources,
+    )

@@ -1,0 +1,132 @@
+"""The reader's output: a deck of statements, each keeping the span it came from."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TypeAlias
+
+from drivelint.diagnostics import Diagnostic, Span
+
+
+@dataclass(frozen=True, slots=True)
+class Word:
+    """A bare token: a name, a node, a number with its suffix. ``text`` is lower-case."""
+
+    text: str
+    raw: str
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Expr:
+    """An embedded expression, ``{…}`` or ``'…'``; ``text`` is what is inside."""
+
+    text: str
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Group:
+    """A parenthesised list of fields, as in ``PULSE(0 5 1u)`` or ``D(IS=1e-14)``."""
+
+    items: tuple[Field, ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Assign:
+    """``key=value``; ``key`` is lower-case."""
+
+    key: str
+    value: Field
+    span: Span
+
+
+Field: TypeAlias = Word | Expr | Group | Assign
+
+
+@dataclass(frozen=True, slots=True)
+class Element:
+    """An element line: its name (lower-case, first letter is the kind) and its fields."""
+
+    name: str
+    fields: tuple[Field, ...]
+    span: Span
+
+    @property
+    def letter(self) -> str:
+        return self.name[0]
+
+
+@dataclass(frozen=True, slots=True)
+class ModelCard:
+    name: str
+    type: str
+    params: tuple[Assign, ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class ParamCard:
+    """``.param``: each assignment's value is kept as expression text."""
+
+    assigns: tuple[Assign, ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class GlobalCard:
+    nets: tuple[Word, ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class OptionCard:
+    fields: tuple[Field, ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class TranCard:
+    """``.tran TSTEP TSTOP …``: the reader keeps it because source defaults depend on it."""
+
+    fields: tuple[Field, ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Subckt:
+    name: str
+    ports: tuple[Word, ...]
+    params: tuple[Assign, ...]
+    body: tuple[Statement, ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Directive:
+    """A ``* drivelint: …`` comment; ``text`` is what follows the prefix."""
+
+    text: str
+    span: Span
+    column: int
+
+
+Statement: TypeAlias = Element | ModelCard | ParamCard | GlobalCard | OptionCard | TranCard | Subckt
+
+
+@dataclass(frozen=True, slots=True)
+class Deck:
+    """One top-level netlist with everything it included, in reading order."""
+
+    path: str
+    title: str
+    statements: tuple[Statement, ...]
+    files: tuple[str, ...]
+    directives: tuple[Directive, ...]
+    diagnostics: tuple[Diagnostic, ...]
+    sources: dict[str, tuple[str, ...]]
+
+    def line_text(self, span: Span) -> str:
+        lines = self.sources.get(span.path, ())
+        return lines[span.line - 1] if 0 < span.line <= len(lines) else ""
