@@ -1,0 +1,1 @@
+"""Elaboration: a deck of statements becomes a flat circuit with a graph."""

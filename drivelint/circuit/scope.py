@@ -1,0 +1,139 @@
+"""Parameter scopes: global ``.param``, subcircuit defaults, instance overrides, local ``.param``.
+
+Parameters are evaluated lazily and memoised per scope, so the order of definitions does
+not matter (as in SPICE) and each value is computed once per subcircuit instance.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+from drivelint.diagnostics import Diagnostic, DiagnosticError, Severity, Span
+from drivelint.limits import Limits
+from drivelint.netlist.statements import Expr, Field, Group, ModelCard, Subckt, Word
+
+
+@dataclass(slots=True)
+class ParamDef:
+    """A parameter's definition: either a number already known or an expression to evaluate."""
+
+    span: Span
+    text: str | None = None
+    value: float | None = None
+    scope: Scope | None = None  # where ``text`` is evaluated; defaults to the owning scope
+
+
+@dataclass(slots=True)
+class Scope:
+    """One level of the hierarchy: the top level, or one subcircuit instance."""
+
+    limits: Limits
+    line_text: object  # Callable[[Span], str], kept loose to avoid a cycle in typing
+    parent: Scope | None = None
+    params: dict[str, ParamDef] = field(default_factory=dict)
+    subckts: dict[str, Subckt] = field(default_factory=dict)
+    models: dict[str, ModelCard] = field(default_factory=dict)
+    _values: dict[str, float] = field(default_factory=dict)
+    _busy: list[str] = field(default_factory=list)
+
+    # -- look-ups through the hierarchy ---------------------------------------------
+
+    def find_subckt(self, name: str) -> Subckt | None:
+        scope: Scope | None = self
+        while scope is not None:
+            found = scope.subckts.get(name)
+            if found is not None:
+                return found
+            scope = scope.parent
+        return None
+
+    def find_model(self, name: str) -> tuple[ModelCard, Scope] | None:
+        scope: Scope | None = self
+        while scope is not None:
+            found = scope.models.get(name)
+            if found is not None:
+                return found, scope
+            scope = scope.parent
+        return None
+
+    def param(self, name: str, depth: int = 0) -> float | None:
+        scope: Scope | None = self
+        while scope is not None:
+            if name in scope._values:
+                return scope._values[name]
+            definition = scope.params.get(name)
+            if definition is not None:
+                return scope._evaluate_param(name, definition, depth)
+            scope = scope.parent
+        return None
+
+    def _evaluate_param(self, name: str, definition: ParamDef, depth: int) -> float:
+        if definition.value is not None:
+            self._values[name] = definition.value
+            return definition.value
+        if name in self._busy:
+            chain = " -> ".join([*self._busy[self._busy.index(name):], name])
+            raise self.error(definition.span, f"circular parameter definition: {chain}", "param")
+        if depth > self.limits.max_param_recursion:
+            raise self.error(
+                definition.span,
+                f"parameters refer to each other more than {self.limits.max_param_recursion} "
+                "levels deep (limit max_param_recursion)", "limit",
+            )
+        where = definition.scope or self
+        self._busy.append(name)
+        try:
+            assert definition.text is not None
+            value = where.evaluate_text(definition.text, definition.span, depth + 1)
+        finally:
+            self._busy.pop()
+        self._values[name] = value
+        return value
+
+    # -- evaluation ------------------------------------------------------------------
+
+    def error(self, span: Span, message: str, code: str = "value") -> DiagnosticError:
+        text = self.line_text(span) if callable(self.line_text) else ""
+        return DiagnosticError(Diagnostic(Severity.ERROR, span, message, text, code))
+
+    def evaluate_text(self, text: str, span: Span, depth: int = 0) -> float:
+        from drivelint.netlist.expressions import ExpressionError, compile_expression
+        from drivelint.netlist.values import parse_number
+
+        stripped = text.strip()
+        number = parse_number(stripped)
+        if number is not None and _is_plain_number(stripped):
+            return number
+        try:
+            expression = compile_expression(stripped, self.limits)
+            return expression.evaluate(lambda name: self.param(name, depth))
+        except ExpressionError as exc:
+            offset = max(exc.offset, 0) + (len(text) - len(text.lstrip()))
+            raise self.error(
+                Span(span.path, span.line, span.column + offset),
+                f"in expression '{stripped}': {exc.message}",
+            ) from None
+
+    def number(self, item: Field) -> float:
+        """The value of a field that must be a number: ``10u``, ``{2*x}``, ``'x/2'``, ``rval``."""
+        if isinstance(item, Word):
+            from drivelint.netlist.values import parse_number
+
+            value = parse_number(item.text)
+            if value is not None:
+                return value
+            return self.evaluate_text(item.text, item.span)
+        if isinstance(item, Expr):
+            return self.evaluate_text(item.text, item.span)
+        if isinstance(item, Group):
+            raise self.error(item.span, "expected a number, found a parenthesised list")
+        raise self.error(item.span, f"expected a number, found '{item.key}=…'")
+
+
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?[a-zA-Z]*")
+
+
+def _is_plain_number(text: str) -> bool:
+    """True for a number with an optional suffix (``4.7k``, ``10uF``), not ``2*x``."""
+    return _PLAIN_NUMBER.fullmatch(text) is not None

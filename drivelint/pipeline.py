@@ -1,0 +1,55 @@
+"""The pipeline's entry points: a path in, a circuit (and later findings) out.
+
+The command line and the tests go through these functions, so every way in reads,
+bounds and elaborates a netlist the same way.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from drivelint.circuit.elaborate import DEFAULT_GROUND_ALIASES, ElaborateOptions, elaborate
+from drivelint.circuit.model import Circuit
+from drivelint.limits import Limits
+from drivelint.netlist.reader import ReadOptions, read_deck
+
+ROOT_MARKERS = ("drivelint.toml", "pyproject.toml", ".git")
+
+
+@dataclass(frozen=True, slots=True)
+class LoadOptions:
+    root: Path | None = None  # None: found by walking up from the netlist
+    allow_outside_root: bool = False
+    search_path: tuple[Path, ...] = ()
+    ground_aliases: frozenset[str] = DEFAULT_GROUND_ALIASES
+    limits: Limits = field(default_factory=Limits)
+
+
+def find_project_root(path: Path) -> Path:
+    """The nearest folder above ``path`` holding a project marker, else the file's folder."""
+    start = path.resolve()
+    folder = start if start.is_dir() else start.parent
+    for candidate in (folder, *folder.parents):
+        if any((candidate / marker).exists() for marker in ROOT_MARKERS):
+            return candidate
+    return folder
+
+
+def load_circuit(
+    path: str | Path, options: LoadOptions | None = None, text: str | None = None
+) -> Circuit:
+    """Read and elaborate one netlist. Bad input becomes diagnostics, never an exception."""
+    from drivelint._gc import paused_gc
+
+    options = options or LoadOptions()
+    root = options.root or find_project_root(Path(path))
+    read = ReadOptions(
+        root=root,
+        allow_outside_root=options.allow_outside_root,
+        search_path=options.search_path,
+        limits=options.limits,
+    )
+    with paused_gc():
+        deck = read_deck(path, read, text=text)
+        return elaborate(deck, ElaborateOptions(options.ground_aliases, options.limits))

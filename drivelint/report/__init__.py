@@ -1,0 +1,1 @@
+"""Reporting: turn circuits, stages and findings into text and machine-readable formats."""
