@@ -1,0 +1,113 @@
+"""Bootstrap diode: reverse voltage, recovery charge and time, leakage and forward drop.
+
+Recovery follows the charge-control view of a PN diode: the stored charge in steady
+conduction is τ·I_F (Lauritzen and Ma, "A simple diode model with reverse recovery",
+IEEE Trans. Power Electronics, 1991), the same quasi-static charge Q = TT·I_D that the
+SPICE diode model uses.
+"""
+
+from __future__ import annotations
+
+import math
+
+from drivelint.physics._units import Amps, Coulombs, Kelvin, Ratio, Seconds, Volts, _coerce, _ratio
+
+# CODATA 2018 exact values (SI 2019 redefinition).
+BOLTZMANN = 1.380649e-23  # J/K
+ELEMENTARY_CHARGE = 1.602176634e-19  # C
+
+# SPICE's default nominal temperature (TNOM = 27 °C) and diode defaults for silicon:
+# EG = 1.11 eV and XTI = 3, as in the SPICE3 / ngspice manual's diode model table.
+SPICE_TNOM = 300.15  # K
+SPICE_EG = 1.11  # V (E_g/q)
+SPICE_XTI = 3.0
+
+
+def diode_reverse_voltage(
+    v_bus: Volts, v_boot: Volts, v_aux: Volts, ringing_margin: Volts = 0.0
+) -> Volts:
+    """Reverse voltage on the bootstrap diode with the switch node high.
+
+    V_R = V_bus + V_boot − V_aux + margin: the cathode rides at V_bus + V_boot while the
+    anode stays at the auxiliary rail.
+
+    v_bus: switch-node voltage when high [V]; v_boot: hold-capacitor voltage [V];
+    v_aux: rail feeding the anode [V]; ringing_margin: switch-node overshoot to add [V].
+    """
+    return v_bus + v_boot - v_aux + ringing_margin
+
+
+def recovery_charge(tau: Seconds, i_forward: Amps) -> Coulombs:
+    """Stored charge a diode gives back on reverse recovery: Q_rr ≈ τ·I_F.
+
+    This is all the charge stored in steady conduction (charge-control model); recombination
+    during a slow turn-off recovers less, so it is an upper bound for the budget.
+
+    tau: carrier lifetime, SPICE TT [s]; i_forward: forward current before turn-off [A].
+    """
+    return tau * i_forward
+
+
+def storage_time(tt: Seconds, i_forward: Amps, i_reverse: Amps) -> Seconds:
+    """Time a diode keeps conducting backwards after its current reverses.
+
+    t_s = TT·ln(1 + I_F/I_R): charge-control model, with the stored charge decaying as
+    dQ/dt = −I_R − Q/TT from TT·I_F to zero (standard semiconductor texts).
+
+    tt: transit time / carrier lifetime [s]; i_forward: forward current before the
+    reversal [A]; i_reverse: magnitude of the reverse current the circuit drives [A].
+    """
+    return tt * math.log1p(_ratio(i_forward, i_reverse))
+
+
+def thermal_voltage(t_kelvin: Kelvin) -> Volts:
+    """V_T = k·T/q.
+
+    t_kelvin: junction temperature [K].
+    """
+    k = _coerce(BOLTZMANN, BOLTZMANN, "J/K", t_kelvin)
+    q = _coerce(ELEMENTARY_CHARGE, ELEMENTARY_CHARGE, "C", t_kelvin)
+    return k * t_kelvin / q
+
+
+def reverse_leakage(
+    i_s: Amps,
+    t_kelvin: Kelvin | None = None,
+    n: Ratio = 1.0,
+    eg: Volts | None = None,
+    xti: Ratio = SPICE_XTI,
+    t_nom: Kelvin | None = None,
+) -> Amps:
+    """First-order reverse leakage of a diode model: its saturation current at temperature.
+
+    I_leak ≈ IS(T) = IS·exp((T/T_nom − 1)·E_G/(N·V_T(T)))·(T/T_nom)^(XTI/N), the SPICE3
+    temperature law, which is what a simulator draws from a diode reverse biased well beyond
+    N·V_T. Limits: it leaves out generation current in the depletion region, surface
+    leakage and the approach to breakdown (BV), all of which make real silicon PN diodes
+    leak far more than IS says; use a datasheet I_R where there is one. Schottky models,
+    with large IS, are closer.
+
+    i_s: SPICE IS at ``t_nom`` [A]; t_kelvin: junction temperature, None for ``t_nom`` [K];
+    n: emission coefficient; eg: activation energy E_G/q, None for 1.11 V [V];
+    xti: saturation-current temperature exponent; t_nom: model's nominal temperature,
+    None for 300.15 K [K].
+    """
+    t_ref = _coerce(t_nom, SPICE_TNOM, "K", i_s)
+    t = t_ref if t_kelvin is None else _coerce(t_kelvin, SPICE_TNOM, "K", i_s)
+    gap = _coerce(eg, SPICE_EG, "V", i_s)
+    warm = _ratio(t, t_ref)
+    activation = (warm - 1.0) * _ratio(gap, n * thermal_voltage(t))
+    power_law = float(warm ** (xti / n))
+    return i_s * math.exp(activation) * power_law
+
+
+def forward_voltage(i_f: Amps, i_s: Amps, n: Ratio, t_kelvin: Kelvin | None = None) -> Volts:
+    """Forward drop of the ideal diode equation: V_F = n·V_T·ln(1 + I_F/I_S).
+
+    Series resistance (SPICE RS) is not included; add I_F·RS for it.
+
+    i_f: forward current [A]; i_s: saturation current at the junction temperature [A];
+    n: emission coefficient; t_kelvin: junction temperature, None for 300.15 K [K].
+    """
+    t = _coerce(t_kelvin, SPICE_TNOM, "K", i_f)
+    return n * thermal_voltage(t) * math.log1p(_ratio(i_f, i_s))

@@ -1,0 +1,76 @@
+"""Gate current, transition times, hard-switching and conduction losses, junction temperature."""
+
+from __future__ import annotations
+
+from drivelint.physics._units import (
+    Amps,
+    Coulombs,
+    Hertz,
+    Kelvin,
+    KelvinPerWatt,
+    Ohms,
+    Ratio,
+    Seconds,
+    Volts,
+    Watts,
+    _coerce,
+)
+
+
+def transition_time(q_switching: Coulombs, i_gate: Amps) -> Seconds:
+    """Time to move the gate through a charge at a steady gate current: t = Q/I.
+
+    q_switching: charge of the transition (Q_gs2 + Q_gd for the switching interval) [C];
+    i_gate: gate current during it [A].
+    """
+    return q_switching / i_gate
+
+
+def gate_current_turn_on(v_drive: Volts, v_plateau: Volts, r_total: Ohms) -> Amps:
+    """Gate current on the Miller plateau at turn-on: (V_drive − V_plateau)/R_total.
+
+    v_drive: driver output high level, relative to the source [V]; v_plateau: Miller
+    plateau voltage [V]; r_total: driver pull-up + external + internal gate resistance [Ohm].
+    """
+    return (v_drive - v_plateau) / r_total
+
+
+def gate_current_turn_off(v_plateau: Volts, r_total: Ohms, v_off: Volts = 0.0) -> Amps:
+    """Gate current on the Miller plateau at turn-off: (V_plateau − V_off)/R_total.
+
+    v_plateau: Miller plateau voltage [V]; r_total: driver pull-down + external + internal
+    gate resistance [Ohm]; v_off: driver low level relative to the source (0, or negative
+    for a negative turn-off bias) [V].
+    """
+    return (v_plateau - v_off) / r_total
+
+
+def switching_loss(v: Volts, i: Amps, t_rise: Seconds, t_fall: Seconds, f: Hertz) -> Watts:
+    """Hard-switching loss with linear overlap: P_sw = ½·V·I·(t_r + t_f)·f.
+
+    Textbook relation (e.g. Erickson & Maksimović, Fundamentals of Power Electronics).
+    v: voltage switched [V]; i: current switched [A]; t_rise, t_fall: voltage/current
+    overlap times at turn-on and turn-off [s]; f: switching frequency [Hz].
+    """
+    return 0.5 * v * i * (t_rise + t_fall) * f
+
+
+def conduction_loss(i_rms: Amps, r_ds_on: Ohms, duty: Ratio) -> Watts:
+    """Conduction loss: P = I²·R_DS(on)·D.
+
+    i_rms: RMS current while the switch conducts [A]; r_ds_on: on-resistance at the
+    operating temperature [Ohm]; duty: fraction of the period the switch is on.
+    """
+    return i_rms * i_rms * r_ds_on * duty
+
+
+def junction_temperature(t_ambient: Kelvin, p: Watts, r_th_ja: KelvinPerWatt) -> Kelvin:
+    """Steady junction temperature: T_j = T_a + P·R_thJA.
+
+    t_ambient: ambient temperature [K]; p: dissipated power [W]; r_th_ja: junction-to-
+    ambient thermal resistance [K/W].
+    """
+    # A quantity in °C is moved to kelvin first: pint cannot add a temperature rise to an
+    # offset unit.
+    t_a = _coerce(t_ambient, t_ambient, "K", t_ambient)
+    return t_a + p * r_th_ja
