@@ -8,6 +8,7 @@ part maker's MOSFET model) becomes one transistor named after its instance.
 
 from __future__ import annotations
 
+import math
 from collections import deque
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
@@ -40,6 +41,7 @@ from drivelint.netlist.statements import (
     TranCard,
     Word,
 )
+from drivelint.netlist.values import format_si
 
 DEFAULT_GROUND_ALIASES = frozenset({"0", "gnd"})
 
@@ -216,10 +218,20 @@ class _Elaborator:
             if isinstance(item, Word) and item.text == "uic":
                 continue
             try:
-                numbers.append(scope.number(item))
+                number = scope.number(item)
             except DiagnosticError as exc:
                 self.record(exc)
                 return TransientSettings()
+            if len(numbers) < 2 and not (math.isfinite(number) and number > 0.0):
+                # Only TSTEP and TSTOP feed the source defaults, and both must be times.
+                name = ("TSTEP", "TSTOP")[len(numbers)]
+                self.report(
+                    Severity.ERROR, item.span,
+                    f".tran {name} is {format_si(number, 's')}; expected a finite time > 0 s",
+                    "tran",
+                )
+                return TransientSettings()
+            numbers.append(number)
         return TransientSettings(
             tstep=numbers[0] if numbers else None,
             tstop=numbers[1] if len(numbers) > 1 else None,
@@ -531,7 +543,8 @@ class _Elaborator:
                     f"expected '{USAGE[letter]}'",
                     "node-count",
                 )
-            guess = positional[counts[0]]
+            # The first place a model name could stand that the line reaches.
+            guess = next(positional[c] for c in counts if c < len(positional))
             raise self.fail(
                 guess.span, f"model '{_field_text(guess)}' is not defined", "undefined"
             )
@@ -625,7 +638,8 @@ class _Elaborator:
                     f"unexpected '{_field_text(item)}' in source: expected '{USAGE[element.letter]}'",
                     "syntax",
                 )
-        options = {k: v for k, v in base.params.items() if k in ("r", "td")}
+        # r= and td= belong to PWL; elsewhere they are instance parameters of no concern.
+        options = {k: v for k, v in base.params.items() if k in ("r", "td")} if kind == "pwl" else {}
         try:
             if kind is not None:
                 waveform = build_waveform(kind, args, options, self.transient)  # type: ignore[arg-type]

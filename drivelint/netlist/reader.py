@@ -59,6 +59,7 @@ _ASSIGN_START = re.compile(r"([A-Za-z_][A-Za-z0-9_.]*)\s*=(?!=)")
 # grammar: same fields, a tenth of the time. tests/netlist/test_reader.py holds the two
 # paths to the same output.
 _FLAT_CHARS = frozenset("(),")
+_BEHAVIOURAL = re.compile(r"\s(v|i|value|vol|cur)\s*=\s*", re.IGNORECASE)
 _FLAT_FIELD = re.compile(
     r"\s*(?:([^\s=(),{}']+)(?:\s*=\s*([^\s=(),{}']+|\{[^{}]*\}|'[^']*'))?|(\{[^{}]*\}|'[^']*'))\s*"
 )
@@ -199,6 +200,21 @@ def strip_inline_comment(text: str) -> str:
     return text
 
 
+_LINE_BREAK = re.compile(r"\r\n|\r|\n")
+
+
+def split_physical_lines(text: str) -> tuple[str, ...]:
+    """The file's lines as an editor numbers them: broken at LF, CRLF or CR only.
+
+    ``str.splitlines`` also breaks at form feeds, NEL and U+2028, which would number
+    every later line past what the file holds.
+    """
+    lines = _LINE_BREAK.split(text)
+    if lines[-1] == "":
+        lines.pop()
+    return tuple(lines)
+
+
 def _decode(data: bytes) -> tuple[str, bool]:
     try:
         return data.decode("utf-8-sig"), False
@@ -275,7 +291,7 @@ class _Reader:
             self.report(Severity.ERROR, where, f"'{shown}' is a binary file, not a netlist", code)
             return None
         text, fallback = _decode(data)
-        lines = tuple(text.splitlines())
+        lines = split_physical_lines(text)
         self.files.append(shown)
         self.sources[shown] = lines
         if fallback:
@@ -289,6 +305,10 @@ class _Reader:
         self, lines: Sequence[str], shown: str, has_title: bool
     ) -> Iterator[LogicalLine]:
         current: LogicalLine | None = None
+        comment_line: int | None = None  # the last ';' / '$' comment line, while it is open
+        # A statement refused for its length takes its '+' lines with it, so that they
+        # are not read as part of the statement before it.
+        dropped = False
         for number, raw in enumerate(lines, start=1):
             if has_title and number == 1:
                 self.title = raw.strip()
@@ -299,6 +319,9 @@ class _Reader:
                     f"line is {len(raw)} characters long, over the limit of "
                     f"{self.limits.max_line_chars} (limit max_line_chars)", "limit",
                 )
+                if current is not None and not raw.lstrip().startswith("+"):
+                    yield current
+                current, comment_line, dropped = None, None, True
                 continue
             stripped = raw.lstrip()
             if not stripped:
@@ -308,6 +331,15 @@ class _Reader:
                 self.note_directive(stripped, shown, number, indent)
                 continue
             if stripped[0] == "+":
+                if dropped:
+                    continue
+                if current is None and comment_line is not None:
+                    self.report(
+                        Severity.WARNING, Span(shown, number, indent + 1),
+                        f"continuation line '+' continues the comment on line {comment_line}; "
+                        "it is ignored, as ngspice ignores it",
+                    )
+                    continue
                 if current is None:
                     self.report(
                         Severity.ERROR, Span(shown, number, indent + 1),
@@ -320,13 +352,24 @@ class _Reader:
                         Severity.ERROR, Span(shown, number, indent + 1),
                         "statement is too long (limit max_line_chars)", "limit",
                     )
+                    current, dropped = None, True
                     continue
                 current.segments.append((len(current.text) + 1, number, indent + 2))
                 current.text += " " + piece
                 continue
+            text = strip_inline_comment(stripped)
+            dropped = False
             if current is not None:
                 yield current
-            current = LogicalLine(strip_inline_comment(stripped), shown, [(0, number, indent + 1)])
+                current = None
+            if not text.strip():
+                # A line of inline comment only (``; …``, ``$ …``). Unlike a '*' line it
+                # ends the statement before it, and '+' lines after it continue the
+                # comment: what ngspice 39 does (tests/netlist/test_hostile_input.py).
+                comment_line = number
+                continue
+            comment_line = None
+            current = LogicalLine(text, shown, [(0, number, indent + 1)])
         if current is not None:
             yield current
 
@@ -459,7 +502,9 @@ class _Reader:
             return
         letter = card[:1]
         if letter in ELEMENT_LETTERS:
-            fields = self.parse(line)
+            fields = self.behavioural(line) if letter in "beg" else None
+            if fields is None:
+                fields = self.parse(line)
             name = fields[0]
             if not isinstance(name, Word):
                 raise self.fail(line.span, "expected an element name at the start of the line")
@@ -477,6 +522,27 @@ class _Reader:
                 "name (R C L K D Q M J V I E F G H B S W X …) or a dot-card",
             )
 
+    def behavioural(self, line: LogicalLine) -> list[Field] | None:
+        """``B1 n 0 V = u(v(a)-1) * 5``: everything after ``V=`` is one expression.
+
+        Behavioural values are usually written without braces, so the field grammar
+        would cut them at the first parenthesis.
+        """
+        match = _BEHAVIOURAL.search(line.text)
+        if match is None:
+            return None
+        head = LogicalLine(line.text[: match.start()], line.path, line.segments)
+        fields = self.parse(head)
+        value = line.text[match.end():].strip()
+        offset = line.text.index(value, match.end()) if value else match.end()
+        if not value:
+            raise self.fail(line.span_at(match.end()), f"'{match.group(1)}=' has no expression")
+        if value[0] == "{" and value[-1] == "}" or value[0] == "'" and value[-1] == "'":
+            value, offset = value[1:-1], offset + 1
+        key = match.group(1).lower()
+        fields.append(Assign(key, Expr(value, line.span_at(offset)), line.span_at(match.start(1))))
+        return fields
+
     def parse(self, line: LogicalLine) -> list[Field]:
         if _FLAT_CHARS.isdisjoint(line.text):
             flat = split_flat(line)
@@ -487,6 +553,16 @@ class _Reader:
     def parse_with_grammar(self, line: LogicalLine) -> list[Field]:
         from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
 
+        limit = self.limits.max_expression_depth
+        too_deep = _group_too_deep(line.text, limit)
+        if too_deep is not None:
+            # Checked before lark: the tree of a line nested thousands deep would
+            # overflow the recursion of every walk over it.
+            raise self.fail(
+                line.span_at(too_deep),
+                f"parentheses nested more than {limit} levels deep (limit max_expression_depth)",
+                "limit",
+            )
         try:
             tree = _LineParser.get().parse(line.text)
         except UnexpectedCharacters as exc:
@@ -644,6 +720,31 @@ class _Reader:
         return resolved
 
 
+def _group_too_deep(text: str, limit: int) -> int | None:
+    """Offset of the first '(' nested deeper than ``limit``, outside braces and quotes."""
+    depth = 0
+    braces = 0
+    quoted = False
+    for offset, char in enumerate(text):
+        if char == "'" and not braces:
+            quoted = not quoted
+        elif quoted:
+            continue
+        elif char == "{":
+            braces += 1
+        elif char == "}":
+            braces = max(braces - 1, 0)
+        elif braces:
+            continue
+        elif char == "(":
+            depth += 1
+            if depth > limit:
+                return offset
+        elif char == ")":
+            depth = max(depth - 1, 0)
+    return None
+
+
 def _split_path_args(text: str) -> list[str]:
     """Split ``.include "a b.lib"`` style arguments, honouring quotes."""
     out: list[str] = []
@@ -660,7 +761,7 @@ def read_deck(path: str | Path, options: ReadOptions | None = None, text: str | 
     target = Path(path)
     if text is not None:
         shown = str(path)
-        lines = tuple(text.splitlines())
+        lines = split_physical_lines(text)
         reader.files.append(shown)
         reader.sources[shown] = lines
         reader.stack.append((target.resolve(), None))
