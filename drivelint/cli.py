@@ -53,3 +53,39 @@ def netlist_command(files: tuple[Path, ...], fmt: str, allow_outside_root: bool)
         click.echo("\n\n".join(netlist_text(c) for c in circuits))
     failed = any(d.severity is Severity.ERROR for c in circuits for d in c.diagnostics)
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
+
+
+@main.command("stages")
+@click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
+@click.option(
+    "--parts", "parts", multiple=True, type=click.Path(path_type=Path, dir_okay=False),
+    help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
+)
+@click.option("--all", "show_all", is_flag=True, help="Also show switches that do not float.")
+def stages_command(files: tuple[Path, ...], fmt: str, parts: tuple[Path, ...], show_all: bool) -> None:
+    """Show the gate-drive stages drivelint recognises, so you can see what it sees."""
+    from drivelint.diagnostics import Severity
+    from drivelint.pipeline import load_stages
+    from drivelint.ratings.parts import PartsError
+    from drivelint.report.stages import stages_text
+    from drivelint.stages.recognise import stages_json
+
+    results = []
+    failed = False
+    for path in files:
+        try:
+            circuit, stages = load_stages(path, parts=parts)
+        except PartsError as exc:
+            click.echo(f"drivelint: {exc}", err=True)
+            sys.exit(EXIT_ERROR)
+        failed |= any(d.severity is Severity.ERROR for d in circuit.diagnostics)
+        results.append((circuit, stages))
+    if fmt == "json":
+        import json
+
+        payload = stages_json([s for _, stages in results for s in stages])
+        click.echo(json.dumps(payload, indent=2))
+    else:
+        click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))
+    sys.exit(EXIT_ERROR if failed else EXIT_OK)

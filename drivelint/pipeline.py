@@ -8,11 +8,16 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from drivelint.circuit.elaborate import DEFAULT_GROUND_ALIASES, ElaborateOptions, elaborate
 from drivelint.circuit.model import Circuit
 from drivelint.limits import Limits
 from drivelint.netlist.reader import ReadOptions, read_deck
+
+if TYPE_CHECKING:
+    from drivelint.ratings.parts import PartsLibrary
+    from drivelint.stages.model import DriveStage
 
 ROOT_MARKERS = ("drivelint.toml", "pyproject.toml", ".git")
 
@@ -53,3 +58,22 @@ def load_circuit(
     with paused_gc():
         deck = read_deck(path, read, text=text)
         return elaborate(deck, ElaborateOptions(options.ground_aliases, options.limits))
+
+
+def parts_for(path: Path, extra: tuple[Path, ...] = ()) -> PartsLibrary:
+    """The parts library for a netlist: a ``parts.toml`` beside it, then ``extra`` files."""
+    from drivelint.ratings.parts import load_libraries
+
+    beside = path.resolve().parent / "parts.toml"
+    files = ([beside] if beside.is_file() else []) + list(extra)
+    return load_libraries(files)
+
+
+def load_stages(
+    path: str | Path, options: LoadOptions | None = None, parts: tuple[Path, ...] = ()
+) -> tuple[Circuit, tuple[DriveStage, ...]]:
+    """Read, elaborate and recognise one netlist."""
+    from drivelint.stages.recognise import recognise
+
+    circuit = load_circuit(path, options)
+    return circuit, recognise(circuit, parts_for(Path(path), parts))

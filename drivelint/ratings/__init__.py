@@ -1,0 +1,1 @@
+"""Ratings and operating conditions: parts library, model-derived values, their origins."""

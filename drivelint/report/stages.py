@@ -1,0 +1,89 @@
+"""What `drivelint stages` prints: a compact block per recognised switch."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from drivelint.circuit.model import Circuit
+from drivelint.stages.model import DriveStage
+
+
+def _waveform_text(stage: DriveStage) -> str:
+    from drivelint.netlist.values import format_si
+
+    control = stage.control
+    if control is None:
+        return "none recognised"
+    head = control.source or "no source found"
+    if control.waveform is None:
+        return head + (" (inverting)" if control.inverting else "")
+    wave = control.waveform
+    detail = wave.kind
+    frequency = wave.frequency()
+    if frequency:
+        duty = wave.duty_above((wave.high() + wave.low()) / 2)
+        detail += f" {format_si(frequency, 'Hz')}"
+        if duty is not None:
+            detail += f", duty {duty:.1%}"
+    elif wave.kind == "dc":
+        detail += f" {format_si(wave.dc_level(), 'V')}"
+    return f"{head}: {detail}" + (" (inverting)" if control.inverting else "")
+
+
+def stage_text(stage: DriveStage) -> str:
+    from drivelint.netlist.values import format_si
+
+    head = f"{stage.span}: {stage.switch} ({stage.channel})"
+    if not stage.floating:
+        return f"{head}: not floating: {stage.floating_reason}"
+    supply = stage.supply
+    lines = [f"{head}: floating, {stage.mode}", f"    why:      {stage.floating_reason}"]
+    bus = stage.bus
+    if bus is not None:
+        lines.append(f"    bus:      {bus.net} = {format_si(bus.volts or 0, 'V')}")
+    parts = [supply.kind]
+    if supply.boot_net:
+        parts.append(f"boot net {supply.boot_net}")
+    if supply.capacitor:
+        parts.append(f"hold {supply.capacitor}")
+    if supply.diode:
+        parts.append(f"diode {supply.diode} ({supply.diode_orientation})")
+    if supply.series_resistors:
+        parts.append(f"via {'+'.join(supply.series_resistors)}")
+    if supply.aux is not None:
+        volts = "" if supply.aux.volts is None else f" = {format_si(supply.aux.volts, 'V')}"
+        parts.append(f"from {supply.aux.net}{volts}")
+    if supply.source:
+        parts.append(f"source {supply.source}")
+    lines.append("    supply:   " + ", ".join(parts))
+    if stage.driver is not None:
+        pins = " ".join(f"{r}={n}" for r, n in sorted(stage.driver.pins.items()))
+        lines.append(f"    driver:   {stage.driver.device} ({stage.driver.subckt}, by {stage.driver.origin}) {pins}")
+    for path in stage.pullups:
+        lines.append(f"    pull-up:  {' -> '.join(path.devices)} from {path.returns_to}")
+    if not stage.pullups:
+        lines.append("    pull-up:  none recognised")
+    for path in stage.pulldowns:
+        lines.append(f"    pull-down: {' -> '.join(path.devices)} to {path.returns_to}")
+    if not stage.pulldowns:
+        lines.append("    pull-down: none recognised")
+    for clamp in stage.clamps:
+        volts = f" {format_si(clamp.voltage, 'V')}" if clamp.voltage else ""
+        lines.append(f"    clamp:    {clamp.device} {clamp.kind}{volts}, {clamp.orientation}")
+    if not stage.clamps:
+        lines.append("    clamp:    none")
+    for refresh in stage.refresh:
+        lines.append(f"    refresh:  {refresh.kind}: {', '.join(refresh.devices)}")
+    if not stage.refresh:
+        lines.append("    refresh:  none recognised")
+    lines.append(f"    control:  {_waveform_text(stage)}")
+    return "\n".join(lines)
+
+
+def stages_text(circuit: Circuit, stages: Sequence[DriveStage], show_all: bool = False) -> str:
+    shown = [s for s in stages if s.floating or show_all]
+    floating = sum(1 for s in stages if s.floating)
+    lines = [f"{circuit.path}: {len(stages)} switches, {floating} floating"]
+    lines.extend(stage_text(s) for s in shown)
+    lines.extend(d.render() for d in circuit.diagnostics)
+    return "\n".join(lines)

@@ -1,0 +1,173 @@
+"""What recognition produces: one :class:`DriveStage` per MOSFET switch."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+from drivelint.diagnostics import Span
+
+if TYPE_CHECKING:
+    from drivelint.netlist.waveforms import Waveform
+
+SUPPLY_KINDS = ("bootstrap", "isolated", "charge-pump", "none")
+
+
+@dataclass(frozen=True, slots=True)
+class Rail:
+    net: str
+    volts: float | None
+
+    def to_json(self) -> dict[str, Any]:
+        return {"net": self.net, "volts": self.volts}
+
+
+@dataclass(frozen=True, slots=True)
+class Supply:
+    """The floating supply of a gate drive, riding on the switch node."""
+
+    kind: str
+    boot_net: str | None = None
+    capacitor: str | None = None
+    diode: str | None = None
+    diode_orientation: str | None = None  # "forward" (aux -> boot) or "reversed"
+    series_resistors: tuple[str, ...] = ()
+    series_resistance: float | None = None
+    aux: Rail | None = None
+    source: str | None = None  # isolated: the source or winding; charge-pump: the pump capacitor
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "kind": self.kind,
+            "boot_net": self.boot_net,
+            "capacitor": self.capacitor,
+            "diode": self.diode,
+            "diode_orientation": self.diode_orientation,
+            "series_resistance": self.series_resistance,
+            "series_resistors": list(self.series_resistors),
+            "aux": self.aux.to_json() if self.aux else None,
+            "source": self.source,
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class GatePath:
+    """Devices in order: from the supply to the gate (pull-up) or from the gate onward."""
+
+    devices: tuple[str, ...]
+    end_net: str
+    returns_to: str  # pull-ups: "boot" or the rail's net; pull-downs: "source", "ground" or a net
+
+
+@dataclass(frozen=True, slots=True)
+class Clamp:
+    device: str
+    kind: str  # "zener" or "diode"
+    orientation: str  # "normal", "reversed" or "back-to-back"
+    devices: tuple[str, ...] = ()
+    voltage: float | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "device": self.device,
+            "orientation": self.orientation,
+            "kind": self.kind,
+            "devices": list(self.devices or (self.device,)),
+            "voltage": self.voltage,
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class Refresh:
+    kind: str  # "low-side switch", "freewheel diode", "load", "inductor-load"
+    devices: tuple[str, ...]
+    resistance: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Control:
+    source: str | None
+    inverting: bool
+    waveform: Waveform | None
+    path: tuple[str, ...] = ()
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "source": self.source,
+            "inverting": self.inverting,
+            "waveform": self.waveform.to_json() if self.waveform else None,
+            "path": list(self.path),
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class DriverInfo:
+    device: str
+    subckt: str
+    pins: Mapping[str, str]  # role -> net
+    origin: str  # "parts library" or "pin names"
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "device": self.device,
+            "subckt": self.subckt,
+            "pins": dict(sorted(self.pins.items())),
+            "origin": self.origin,
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class DriveStage:
+    switch: str
+    channel: str
+    gate: str
+    source: str
+    drain: str
+    floating: bool
+    floating_reason: str
+    span: Span
+    mode: str = "switching"  # "switching", "static" (DC control) or "linear"
+    bus: Rail | None = None
+    supply: Supply = field(default_factory=lambda: Supply("none"))
+    pullups: tuple[GatePath, ...] = ()
+    pulldowns: tuple[GatePath, ...] = ()
+    clamps: tuple[Clamp, ...] = ()
+    refresh: tuple[Refresh, ...] = ()
+    control: Control | None = None
+    driver: DriverInfo | None = None
+    related: tuple[str, ...] = ()  # every device recognised as part of the stage
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "switch": self.switch,
+            "channel": self.channel,
+            "gate": self.gate,
+            "source": self.source,
+            "drain": self.drain,
+            "floating": self.floating,
+            "floating_reason": self.floating_reason,
+            "mode": self.mode,
+            "bus": self.bus.to_json() if self.bus else None,
+            "supply": self.supply.to_json(),
+            "pullups": [list(p.devices) for p in self.pullups],
+            "pulldowns": [
+                {"devices": list(p.devices), "returns_to": p.returns_to} for p in self.pulldowns
+            ],
+            "clamps": [c.to_json() for c in self.clamps],
+            "refresh": [
+                {"kind": r.kind, "devices": list(r.devices), "resistance": _finite(r.resistance)}
+                for r in self.refresh
+            ],
+            "control": self.control.to_json() if self.control else None,
+            "driver": self.driver.to_json() if self.driver else None,
+            "path": self.span.path,
+            "line": self.span.line,
+        }
+
+
+def _finite(value: float | None) -> float | str | None:
+    if value is None or math.isfinite(value):
+        return value
+    return "inf"

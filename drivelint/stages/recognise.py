@@ -1,0 +1,755 @@
+"""Recognise gate-drive stages: for every MOSFET, what floats, what supplies and drives it.
+
+Every search starts at one switch and walks outward a bounded number of devices, so the
+cost grows with the number of switches, never with the size of the whole netlist.
+Where the circuit does not match a shape drivelint knows, the stage says so ("none",
+no path, no control) rather than guess: the rules then stay quiet about what they
+cannot see, and ``drivelint stages`` shows the user what was and was not recognised.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from drivelint.circuit.graph import DEVICE, NET
+from drivelint.circuit.model import GROUND, Circuit, Device
+from drivelint.ratings.parts import PartsLibrary
+from drivelint.stages.drivers import find_drivers
+from drivelint.stages.model import (
+    Clamp,
+    Control,
+    DriverInfo,
+    DriveStage,
+    GatePath,
+    Rail,
+    Refresh,
+    Supply,
+)
+
+MAX_PATH_DEVICES = 4  # devices in one pull-up or pull-down path
+MAX_CONTROL_HOPS = 8  # devices between a level shifter's input and its source
+MAX_SERIES_TO_RAIL = 2  # series R/L between a drain or diode and its rail
+# A diode between gate and source with a breakdown this low is a Zener/TVS clamp; rectifier
+# and fast diodes are rated for the bus, far above any gate rating (common practice).
+ZENER_MAX_BV = 60.0
+
+# Which terminals of a device conduct, and which way conventional current flows:
+# (from pin, to pin). Passive parts conduct both ways and are handled separately.
+_CONDUCTION: Mapping[str, tuple[str, str]] = {
+    "npn": ("c", "e"),
+    "pnp": ("e", "c"),
+    "nmos": ("d", "s"),
+    "pmos": ("s", "d"),
+    "d": ("a", "k"),
+}
+_CONTROL_PIN = {"npn": "b", "pnp": "b", "nmos": "g", "pmos": "g"}
+_V_REFERENCE = re.compile(r"\bv\(\s*([^,\s)]+)\s*(?:,\s*([^\s)]+)\s*)?\)", re.IGNORECASE)
+
+
+@dataclass(frozen=True, slots=True)
+class _Node:
+    """A terminal seen by recognition: a device, or a driver IC kept opaque."""
+
+    name: str
+    device: Device | None
+    driver: DriverInfo | None
+
+
+class _View:
+    """The circuit as recognition sees it: driver ICs opaque, terminals indexed by net."""
+
+    def __init__(self, circuit: Circuit, parts: PartsLibrary) -> None:
+        self.circuit = circuit
+        self.parts = parts
+        self.rails = dict(circuit.rails)
+        self.rails[GROUND] = 0.0
+        self.drivers = find_drivers(circuit, parts)
+        hidden = tuple(name + "." for name in self.drivers)
+        graph = circuit.graph()
+        if hidden:
+            graph.remove_nodes_from(
+                [n for n in graph if n[0] == DEVICE and n[1].startswith(hidden)]
+            )
+            for info in self.drivers.values():
+                node = (DEVICE, info.device)
+                graph.add_node(node, bipartite=DEVICE, kind="driver")
+                for role, net in info.pins.items():
+                    graph.add_edge(node, (NET, net), key=role, pin=role)
+        self.graph = graph
+        self.devices = {n: d for n, d in circuit.devices.items() if not n.startswith(hidden)} if hidden else circuit.devices
+
+    def at(self, net: str) -> Iterator[tuple[str, str]]:
+        """(device or driver name, pin) for each terminal on ``net``."""
+        node = (NET, net)
+        if node not in self.graph:
+            return
+        for neighbour, keys in self.graph.adj[node].items():
+            for role in keys:
+                yield neighbour[1], role
+
+    def device(self, name: str) -> Device | None:
+        return self.devices.get(name)
+
+    def kind(self, name: str) -> str:
+        if name in self.drivers:
+            return "driver"
+        device = self.devices.get(name)
+        return device.kind if device else "unknown"
+
+    def polarity(self, device: Device) -> str | None:
+        if device.kind == "diode":
+            return "d"
+        return device.model_type
+
+    def is_rail(self, net: str) -> bool:
+        return net in self.rails
+
+    def zener_voltage(self, device: Device) -> float | None:
+        part = self.parts.get(device.model_name)
+        if part is not None and part.kind == "zener":
+            raw = part.raw("vz")
+            if raw is not None:
+                from drivelint.ratings.units import parse_quantity
+
+                return parse_quantity(raw, "V")
+            return None
+        if part is not None and part.kind == "diode":
+            return None
+        bv = device.model.params.get("bv") if device.model else None
+        return bv if bv is not None and 0 < bv <= ZENER_MAX_BV else None
+
+    def is_zener(self, device: Device) -> bool:
+        part = self.parts.get(device.model_name)
+        if part is not None:
+            return part.kind == "zener"
+        return self.zener_voltage(device) is not None
+
+
+def _other_net(device: Device, net: str) -> str | None:
+    """The far terminal of a two-terminal part."""
+    if len(device.pins) != 2:
+        return None
+    (_, a), (_, b) = device.pins
+    if a == net:
+        return b
+    if b == net:
+        return a
+    return None
+
+
+class _StageBuilder:
+    def __init__(self, view: _View, switch: Device) -> None:
+        self.view = view
+        self.switch = switch
+        self.gate = switch.net("g") or ""
+        self.source = switch.net("s") or ""
+        self.drain = switch.net("d") or ""
+        self.boot_net = ""  # set once the floating supply is known
+
+    # -- floating or not ---------------------------------------------------------------
+
+    def bus(self) -> Rail | None:
+        """The positive rail the drain reaches directly or through series R/L."""
+        view = self.view
+        frontier = [(self.drain, 0)]
+        seen = {self.drain}
+        while frontier:
+            net, steps = frontier.pop(0)
+            volts = view.rails.get(net)
+            if volts is not None and net != GROUND:
+                return Rail(net, volts) if volts > 0 else None
+            if steps >= MAX_SERIES_TO_RAIL:
+                continue
+            for name, _ in view.at(net):
+                device = view.device(name)
+                if device is None or device.kind not in ("resistor", "inductor"):
+                    continue
+                far = _other_net(device, net)
+                if far is not None and far not in seen and far != self.source:
+                    seen.add(far)
+                    frontier.append((far, steps + 1))
+        return None
+
+    def floating(self) -> tuple[bool, str, Rail | None]:
+        rails = self.view.rails
+        name = self.switch.name
+        if self.switch.model_type == "pmos":
+            where = f"at rail '{self.source}'" if self.source in rails else f"at '{self.source}'"
+            return False, f"P-channel switch, source {where}: its gate is driven from ground-referenced rails", None
+        if self.source == GROUND:
+            return False, "source at ground (low-side switch)", None
+        if self.source in rails:
+            return False, f"source held at DC rail '{self.source}' ({rails[self.source]:g} V)", None
+        bus = self.bus()
+        if bus is None:
+            return False, (
+                f"source '{self.source}' is not a rail, but the drain '{self.drain}' reaches no "
+                "positive rail: not recognised as a high-side switch"
+            ), None
+        loads = self.source_loads()
+        what = ", ".join(loads) if loads else "nothing else recognised on it"
+        return True, (
+            f"source '{self.source}' is neither ground nor a DC rail; the drain at "
+            f"'{bus.net}' ({bus.volts:g} V) pulls it up when {name} conducts ({what})"
+        ), bus
+
+    def source_loads(self) -> list[str]:
+        out = []
+        for name, pin in self.view.at(self.source):
+            if name == self.switch.name:
+                continue
+            kind = self.view.kind(name)
+            device = self.view.device(name)
+            if device is not None and self.gate in device.nets:
+                continue
+            if kind == "mosfet" and pin == "d":
+                out.append(f"low-side switch {name}")
+            elif kind in ("inductor", "resistor"):
+                out.append(f"load {name}")
+            elif kind == "diode" and pin == "k":
+                out.append(f"diode {name}")
+        return out
+
+    # -- the floating supply ----------------------------------------------------------------
+
+    def driver(self) -> tuple[DriverInfo, str] | None:
+        """The driver IC whose high (or low) output reaches this gate."""
+        for info in self.view.drivers.values():
+            for out_role in ("high_out", "low_out"):
+                out = info.pins.get(out_role)
+                if out is None:
+                    continue
+                if out == self.gate or self.through_series(self.gate, out):
+                    return info, out_role
+        return None
+
+    def through_series(self, start: str, goal: str, limit: int = 2) -> bool:
+        """True when ``goal`` is reached from ``start`` through series resistors or diodes."""
+        frontier = [(start, 0)]
+        seen = {start}
+        while frontier:
+            net, steps = frontier.pop()
+            if net == goal:
+                return True
+            if steps >= limit:
+                continue
+            for name, _ in self.view.at(net):
+                device = self.view.device(name)
+                if device is None or device.kind not in ("resistor", "diode"):
+                    continue
+                far = _other_net(device, net)
+                if far is not None and far not in seen and far != self.source:
+                    seen.add(far)
+                    frontier.append((far, steps + 1))
+        return False
+
+    def boot_candidates(self) -> list[tuple[str, str]]:
+        """(boot net, device) for capacitors and sources between the switch node and a net."""
+        out = []
+        for name, _ in self.view.at(self.source):
+            device = self.view.device(name)
+            if device is None or device is self.switch:
+                continue
+            if device.kind == "capacitor" or (
+                device.kind == "vsource" and device.net("n") == self.source
+            ):
+                far = _other_net(device, self.source)
+                if far and far not in (self.gate, GROUND) and not self.view.is_rail(far):
+                    out.append((far, name))
+        return out
+
+    def supply(self, driver: DriverInfo | None) -> Supply:
+        if driver is not None and driver.pins.get("boot"):
+            boot = driver.pins["boot"]
+            hold = next(
+                (n for b, n in self.boot_candidates() if b == boot), None
+            )
+            return self.classify_boot(boot, hold)
+        candidates = self.boot_candidates()
+        # Prefer the candidate that actually feeds the gate.
+        for boot, device in candidates:
+            if self.pull_paths({boot}, up=True):
+                return self.classify_boot(boot, device)
+        for boot, device in candidates:
+            supply = self.classify_boot(boot, device)
+            if supply.kind != "none":
+                return supply
+        return Supply("none")
+
+    def classify_boot(self, boot: str, hold: str | None) -> Supply:
+        view = self.view
+        hold_device = view.device(hold) if hold else None
+        if hold_device is not None and hold_device.kind == "vsource":
+            volts = hold_device.waveform.dc_level() if hold_device.waveform else None
+            return Supply("isolated", boot, None, source=hold, aux=Rail(boot, volts))
+        capacitor = hold if hold_device is not None and hold_device.kind == "capacitor" else None
+        # A source between boot net and switch node, not found as the hold element.
+        for name, _ in view.at(boot):
+            device = view.device(name)
+            if device is not None and device.kind == "vsource" and {
+                device.net("p"), device.net("n")
+            } == {boot, self.source}:
+                volts = device.waveform.dc_level() if device.waveform else None
+                return Supply("isolated", boot, capacitor, source=name, aux=Rail(boot, volts))
+        winding = self.winding(boot)
+        if winding is not None:
+            return Supply("isolated", boot, capacitor, source=winding)
+        found = self.boot_diode(boot)
+        if found is not None:
+            diode, orientation, resistors, far = found
+            aux_volts = view.rails.get(far)
+            if aux_volts is not None:
+                ohms = sum((view.devices[r].value or 0.0) for r in resistors) if resistors else None
+                return Supply(
+                    "bootstrap", boot, capacitor, diode, orientation, tuple(resistors), ohms,
+                    Rail(far, aux_volts),
+                )
+            pump = self.pump_capacitor(far, diode)
+            if pump is not None and orientation == "forward":
+                return Supply(
+                    "charge-pump", boot, capacitor, diode, orientation, tuple(resistors), None,
+                    None, source=pump,
+                )
+        if capacitor is not None and self.pull_paths({boot}, up=True):
+            # A hold capacitor with no way to charge it: still a bootstrap, with no diode.
+            return Supply("bootstrap", boot, capacitor)
+        return Supply("none")
+
+    def boot_diode(self, boot: str) -> tuple[str, str, list[str], str] | None:
+        """(diode, orientation, series resistors, far net) of the boot net's charging path."""
+        view = self.view
+        starts: list[tuple[str, list[str]]] = [(boot, [])]
+        for name, _ in view.at(boot):
+            device = view.device(name)
+            if device is not None and device.kind == "resistor":
+                far = _other_net(device, boot)
+                if far and far not in (self.source, self.gate):
+                    starts.append((far, [name]))
+        for net, resistors in starts:
+            for name, pin in view.at(net):
+                device = view.device(name)
+                if device is None or device.kind != "diode":
+                    continue
+                far = _other_net(device, net)
+                if far is None or far in (self.source, self.gate, boot):
+                    continue
+                orientation = "forward" if pin == "k" else "reversed"
+                far_net, more = self.to_rail(far, exclude={boot, net})
+                return name, orientation, resistors + more, far_net
+        return None
+
+    def to_rail(self, net: str, exclude: set[str]) -> tuple[str, list[str]]:
+        """The rail reached from ``net`` through at most one series resistor (else ``net``)."""
+        if self.view.is_rail(net):
+            return net, []
+        for name, _ in self.view.at(net):
+            device = self.view.device(name)
+            if device is not None and device.kind == "resistor":
+                far = _other_net(device, net)
+                if far is not None and far not in exclude and self.view.is_rail(far) and far != GROUND:
+                    return far, [name]
+        return net, []
+
+    def pump_capacitor(self, net: str, diode: str) -> str | None:
+        """A capacitor from the diode's anode node to a clock node, fed by another diode."""
+        view = self.view
+        fed = any(
+            view.kind(n) == "diode" and n != diode and pin == "k" for n, pin in view.at(net)
+        )
+        if not fed:
+            return None
+        for name, _ in view.at(net):
+            device = view.device(name)
+            if device is not None and device.kind == "capacitor":
+                far = _other_net(device, net)
+                if far is not None and far not in (self.source, GROUND) and not view.is_rail(far):
+                    return name
+        return None
+
+    def winding(self, boot: str) -> str | None:
+        """A coupled inductor between the switch node and the boot net (or its rectifier)."""
+        view = self.view
+        coupled = {
+            name
+            for d in view.devices.values()
+            if d.kind == "coupling"
+            for name in d.controls
+        }
+        if not coupled:
+            return None
+        for name, _ in view.at(self.source):
+            device = view.device(name)
+            if device is None or device.kind != "inductor" or name not in coupled:
+                continue
+            far = _other_net(device, self.source)
+            if far == boot:
+                return name
+            for other, pin in view.at(far or ""):
+                diode = view.device(other)
+                if diode is not None and diode.kind == "diode" and pin == "a" and diode.net("k") == boot:
+                    return name
+        return None
+
+    # -- gate paths ----------------------------------------------------------------------------
+
+    def pull_paths(self, ends: set[str], up: bool) -> list[GatePath]:
+        """Paths from the gate to any of ``ends`` along which current can flow the right way.
+
+        Pull-up current flows from the end into the gate, pull-down current from the gate
+        to the end, so a transistor or diode on the path must conduct in that direction.
+        """
+        view = self.view
+        found: list[GatePath] = []
+        stop = ends | {self.source, GROUND, self.boot_net}
+        excluded = {self.switch.name}
+
+        def walk(net: str, path: list[str], visited: set[str]) -> None:
+            if len(path) >= MAX_PATH_DEVICES:
+                return
+            for name, pin in view.at(net):
+                if name in excluded or name in path:
+                    continue
+                far = self.step(name, pin, net, up)
+                if far is None or far in visited:
+                    continue
+                if far in ends:
+                    found.append(GatePath(tuple(path + [name]), far, far))
+                elif far not in stop and not view.is_rail(far):
+                    walk(far, path + [name], visited | {far})
+
+        walk(self.gate, [], {self.gate})
+        return found
+
+    def step(self, name: str, pin: str, net: str, up: bool) -> str | None:
+        """The net reached through device ``name`` entered at ``pin``, if it conducts that way."""
+        view = self.view
+        info = view.drivers.get(name)
+        if info is not None:
+            if pin == "high_out":
+                return info.pins.get("boot" if up else "switch")
+            if pin == "low_out":
+                return info.pins.get("supply" if up else "ground")
+            return None
+        device = view.device(name)
+        if device is None:
+            return None
+        if device.kind in ("resistor", "inductor"):
+            return _other_net(device, net)
+        if device.kind == "switch":  # a voltage-controlled switch conducts both ways
+            if pin == "p":
+                return device.net("n")
+            return device.net("p") if pin == "n" else None
+        polarity = view.polarity(device)
+        if polarity not in _CONDUCTION:
+            return None
+        if device.kind == "diode" and self.is_clamp_position(device):
+            return None
+        source_pin, sink_pin = _CONDUCTION[polarity]
+        # Pull-up: current arrives at the gate side, so the gate side is the sink pin.
+        near, far = (sink_pin, source_pin) if up else (source_pin, sink_pin)
+        if pin != near:
+            return None
+        return device.net(far)
+
+    def is_clamp_position(self, device: Device) -> bool:
+        return {device.net("a"), device.net("k")} == {self.gate, self.source}
+
+    # -- clamps and refresh ------------------------------------------------------------------
+
+    def clamps(self) -> list[Clamp]:
+        view = self.view
+        out: list[Clamp] = []
+        seen: set[str] = set()
+        for name, pin in view.at(self.gate):
+            device = view.device(name)
+            if device is None or device.kind != "diode" or name in seen:
+                continue
+            far = _other_net(device, self.gate)
+            zener = view.is_zener(device)
+            kind = "zener" if zener else "diode"
+            if far == self.source:
+                seen.add(name)
+                # Cathode at the gate: a Zener clamps +V_GS, a plain diode clamps -V_GS.
+                orientation = "normal" if pin == "k" else "reversed"
+                out.append(Clamp(name, kind, orientation, (name,), view.zener_voltage(device)))
+                continue
+            if far is None or far in (GROUND,) or view.is_rail(far):
+                continue
+            partner = self.series_partner(device, far)
+            if partner is not None:
+                seen.update({name, partner.name})
+                partner_pin = "k" if partner.net("k") == far else "a"
+                first_pin = "k" if device.net("k") == far else "a"
+                back_to_back = partner_pin == first_pin
+                orientation = "back-to-back" if back_to_back else ("normal" if pin == "k" else "reversed")
+                volts = [v for v in (view.zener_voltage(device), view.zener_voltage(partner)) if v]
+                out.append(
+                    Clamp(
+                        f"{name}+{partner.name}", kind, orientation, (name, partner.name),
+                        max(volts) if volts else None,
+                    )
+                )
+        return out
+
+    def series_partner(self, device: Device, middle: str) -> Device | None:
+        """The second diode of a gate-to-source pair through ``middle``, if that is all there is."""
+        terminals = list(self.view.at(middle))
+        if len(terminals) != 2:
+            return None
+        for name, _ in terminals:
+            other = self.view.device(name)
+            if other is not None and other is not device and other.kind == "diode":
+                if _other_net(other, middle) == self.source:
+                    return other
+        return None
+
+    def refresh(self) -> list[Refresh]:
+        view = self.view
+        out: list[Refresh] = []
+        for name, pin in view.at(self.source):
+            if name == self.switch.name:
+                continue
+            device = view.device(name)
+            if device is None:
+                continue
+            if device.kind == "mosfet" and pin == "d":
+                low = device.net("s")
+                if low == GROUND or (low in view.rails and view.rails[low] <= 0):
+                    out.append(Refresh("low-side switch", (name,)))
+            elif device.kind == "diode" and pin == "k":
+                anode = device.net("a")
+                if anode == GROUND or (anode in view.rails and view.rails[anode] <= 0):
+                    out.append(Refresh("freewheel diode", (name,)))
+            elif device.kind == "resistor":
+                far = _other_net(device, self.source)
+                if far == GROUND:
+                    out.append(Refresh("load", (name,), device.value))
+            elif device.kind == "inductor":
+                far = _other_net(device, self.source)
+                if far is None:
+                    continue
+                if far == GROUND or view.is_rail(far):
+                    out.append(Refresh("inductor-load", (name,)))
+                    continue
+                for other, _ in view.at(far):
+                    load = view.device(other)
+                    if load is None or other == name:
+                        continue
+                    if load.kind in ("resistor", "capacitor") and _other_net(load, far) == GROUND:
+                        ohms = load.value if load.kind == "resistor" else None
+                        out.append(Refresh("inductor-load", (name, other), ohms))
+        return out
+
+    # -- control -------------------------------------------------------------------------------
+
+    def control(
+        self, pullups: Sequence[GatePath], pulldowns: Sequence[GatePath], driver: tuple[DriverInfo, str] | None
+    ) -> Control | None:
+        if driver is not None:
+            info, out_role = driver
+            net = info.pins.get("high_in" if out_role == "high_out" else "low_in")
+            if net is None:
+                return Control(None, False, None, (info.device,))
+            return self.trace_source(net, inverting=False, path=[info.device])
+        # The transistor or switch on a gate path that is commanded from outside. A
+        # common-emitter (common-source) stage, with its collector (drain) toward the gate,
+        # inverts its input; an emitter follower or a switch does not.
+        candidates = [
+            *((name, False) for p in pulldowns for name in p.devices),
+            *((name, True) for p in pullups for name in p.devices),
+        ]
+        for name, up in candidates:
+            device = self.view.device(name)
+            if device is None or device.kind not in ("bjt", "mosfet", "switch"):
+                continue
+            if device.kind == "switch":
+                base, inverting = device.net("cp"), False
+            else:
+                polarity = device.model_type or ""
+                if polarity not in _CONDUCTION:
+                    continue
+                source_pin, sink_pin = _CONDUCTION[polarity]
+                gate_side = sink_pin if up else source_pin
+                base, inverting = device.net(_CONTROL_PIN[polarity]), gate_side in ("c", "d")
+            if base is None:
+                continue
+            return self.trace_source(base, inverting=inverting, path=[name])
+        for path in pullups:
+            if path.end_net != self.gate and self.view.is_rail(path.end_net):
+                return Control(path.end_net, False, None, path.devices)
+        return None
+
+    def trace_source(self, net: str, inverting: bool, path: list[str]) -> Control:
+        """Follow an input net back through resistors, inverters and logic buffers to its source.
+
+        A resistor to a DC rail is a pull-up, not the signal: it is followed only when
+        nothing else leads to a source.
+        """
+        view = self.view
+        frontier = [(net, inverting, path)]
+        fallback: list[tuple[str, bool, list[str]]] = []
+        blocked = {self.source, self.gate, self.boot_net}
+        seen = {net}
+        while frontier or fallback:
+            if not frontier:
+                frontier.append(fallback.pop(0))
+            current, invert, trail = frontier.pop(0)
+            for name, pin in view.at(current):
+                device = view.device(name)
+                if device is None or name in trail:
+                    continue
+                if device.kind == "vsource" and pin == "p":
+                    reference = device.net("n")
+                    if reference == GROUND or view.is_rail(reference or ""):
+                        return Control(name, invert, device.waveform, tuple([*trail, name]))
+            if len(trail) >= MAX_CONTROL_HOPS:
+                continue
+            for name, pin in view.at(current):
+                device = view.device(name)
+                if device is None or name in trail:
+                    continue
+                nexts: list[tuple[str, bool]] = []
+                later: list[tuple[str, bool]] = []
+                if device.kind == "resistor":
+                    far = _other_net(device, current)
+                    if far is not None and far != GROUND:
+                        (later if view.is_rail(far) else nexts).append((far, invert))
+                elif device.kind in ("vcvs", "behavioral") and pin == "p":
+                    nexts.extend(self.buffer_inputs(device, invert))
+                elif device.kind in ("bjt", "mosfet"):
+                    polarity = device.model_type or ""
+                    if polarity in ("npn", "nmos") and pin == _CONDUCTION[polarity][0]:
+                        # An inverter: collector (drain) here, input at its base (gate).
+                        base = device.net(_CONTROL_PIN[polarity])
+                        if base is not None:
+                            nexts.append((base, not invert))
+                for far, flip in nexts:
+                    if far not in seen and far not in blocked:
+                        seen.add(far)
+                        frontier.append((far, flip, [*trail, name]))
+                for far, flip in later:
+                    if far not in seen:
+                        fallback.append((far, flip, [*trail, name]))
+        if net in view.rails:
+            return Control(net, inverting, None, tuple(path))
+        return Control(None, inverting, None, tuple(path))
+
+    def buffer_inputs(self, device: Device, invert: bool) -> list[tuple[str, bool]]:
+        if device.kind == "vcvs" and device.net("cp"):
+            gain = device.value if device.value is not None else 1.0
+            return [(device.net("cp") or "", invert != (gain < 0))]
+        if device.expression:
+            ports = dict(self.view.circuit.instances[device.instance].ports) if device.instance else {}
+            nets = []
+            for match in _V_REFERENCE.finditer(device.expression):
+                name = match.group(1).lower()
+                if name in self.view.circuit.global_nets or name in ("0", "gnd"):
+                    nets.append((GROUND if name in ("0", "gnd") else name, invert))
+                elif name in ports:
+                    nets.append((ports[name], invert))
+                else:
+                    nets.append((f"{device.instance}.{name}" if device.instance else name, invert))
+            return nets
+        return []
+
+    # -- the whole stage -------------------------------------------------------------------------
+
+    def build(self) -> DriveStage:
+        floating, reason, bus = self.floating()
+        channel = self.switch.model_type or "unknown"
+        base = DriveStage(
+            switch=self.switch.name,
+            channel=channel,
+            gate=self.gate,
+            source=self.source,
+            drain=self.drain,
+            floating=floating,
+            floating_reason=reason,
+            span=self.switch.span,
+            bus=bus,
+        )
+        if not floating:
+            return base
+        driver = self.driver()
+        supply = self.supply(driver[0] if driver else None)
+        self.boot_net = supply.boot_net or ""
+        up_ends = {supply.boot_net} if supply.boot_net else set()
+        up_ends |= {n for n, v in self.view.rails.items() if v > 0}
+        pullups = self.pull_paths(up_ends, up=True)
+        down_ends = {self.source, GROUND} | {n for n, v in self.view.rails.items() if v < 0}
+        if driver is not None and driver[0].pins.get("switch"):
+            down_ends.add(driver[0].pins["switch"])
+        pulldowns = [
+            GatePath(p.devices, p.end_net, self.returns(p.end_net))
+            for p in self.pull_paths(down_ends, up=False)
+        ]
+        pullups = [
+            GatePath(p.devices[::-1], p.end_net, "boot" if p.end_net == supply.boot_net else p.end_net)
+            for p in pullups
+        ]
+        control = self.control(pullups, pulldowns, driver)
+        waveform = control.waveform if control else None
+        periodic = waveform is not None and waveform.period() is not None
+        if supply.kind == "none" and not periodic:
+            mode = "linear"
+        elif waveform is None or not periodic:
+            mode = "static"
+        else:
+            mode = "switching"
+        clamps = self.clamps()
+        refresh = self.refresh()
+        related = {
+            *(d for p in (*pullups, *pulldowns) for d in p.devices),
+            *(d for c in clamps for d in c.devices),
+            *(d for r in refresh for d in r.devices),
+            *(control.path if control else ()),
+            *(n for n in (supply.capacitor, supply.diode, supply.source) if n),
+            *supply.series_resistors,
+        }
+        related.discard(self.switch.name)
+        return DriveStage(
+            switch=self.switch.name,
+            channel=channel,
+            gate=self.gate,
+            source=self.source,
+            drain=self.drain,
+            floating=True,
+            floating_reason=reason,
+            span=self.switch.span,
+            mode=mode,
+            bus=bus,
+            supply=supply,
+            pullups=tuple(pullups),
+            pulldowns=tuple(pulldowns),
+            clamps=tuple(clamps),
+            refresh=tuple(refresh),
+            control=control,
+            driver=driver[0] if driver else None,
+            related=tuple(sorted(related)),
+        )
+
+    def returns(self, net: str) -> str:
+        if net == self.source:
+            return "source"
+        if net == GROUND:
+            return "ground"
+        return net
+
+
+def recognise(circuit: Circuit, parts: PartsLibrary | None = None) -> tuple[DriveStage, ...]:
+    """One stage per MOSFET switch; level shifters and totem-pole parts of a floating stage
+    are reported inside that stage, not as switches of their own."""
+    view = _View(circuit, parts or PartsLibrary())
+    switches = [
+        d for d in view.devices.values() if d.kind == "mosfet" and d.model_type in ("nmos", "pmos")
+    ]
+    stages = [_StageBuilder(view, s).build() for s in switches]
+    helpers = {name for stage in stages if stage.floating for name in stage.related}
+    return tuple(s for s in stages if s.floating or s.switch not in helpers)
+
+
+def stages_json(stages: Sequence[DriveStage]) -> dict[str, Any]:
+    return {"stages": [s.to_json() for s in stages]}
