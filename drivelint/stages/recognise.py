@@ -747,7 +747,13 @@ def recognise(circuit: Circuit, parts: PartsLibrary | None = None) -> tuple[Driv
         d for d in view.devices.values() if d.kind == "mosfet" and d.model_type in ("nmos", "pmos")
     ]
     stages = [_StageBuilder(view, s).build() for s in switches]
-    helpers = {name for stage in stages if stage.floating for name in stage.related}
+    helpers = {
+        name
+        for stage in stages
+        if stage.floating
+        for path in (*stage.pullups, *stage.pulldowns)
+        for name in path.devices
+    } | {name for stage in stages if stage.floating and stage.control for name in stage.control.path}
     return tuple(s for s in stages if s.floating or s.switch not in helpers)
 
 
