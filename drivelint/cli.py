@@ -33,13 +33,16 @@ def main() -> None:
     "--allow-outside-root", is_flag=True, help="Let includes leave the project root."
 )
 def netlist_command(files: tuple[Path, ...], fmt: str, allow_outside_root: bool) -> None:
-    """Show what was read: devices, nets, DC rails, sources and diagnostics."""
+    """Show what was read: devices, nets, DC rails, sources and diagnostics.
+
+    FILES are netlists or folders (searched for .cir .net .sp .spi .spice .ckt).
+    """
     from drivelint.diagnostics import Severity
-    from drivelint.pipeline import LoadOptions, load_circuit
+    from drivelint.pipeline import LoadOptions, collect_paths, load_circuit
     from drivelint.report.netlist import netlist_json, netlist_text
 
     options = LoadOptions(allow_outside_root=allow_outside_root)
-    circuits = [load_circuit(path, options) for path in files]
+    circuits = [load_circuit(path, options) for path in collect_paths(files)]
     if fmt == "json":
         import json
 
@@ -64,16 +67,19 @@ def netlist_command(files: tuple[Path, ...], fmt: str, allow_outside_root: bool)
 )
 @click.option("--all", "show_all", is_flag=True, help="Also show switches that do not float.")
 def stages_command(files: tuple[Path, ...], fmt: str, parts: tuple[Path, ...], show_all: bool) -> None:
-    """Show the gate-drive stages drivelint recognises, so you can see what it sees."""
+    """Show the gate-drive stages drivelint recognises, so you can see what it sees.
+
+    FILES are netlists or folders (searched for .cir .net .sp .spi .spice .ckt).
+    """
     from drivelint.diagnostics import Severity
-    from drivelint.pipeline import load_stages
+    from drivelint.pipeline import collect_paths, load_stages
     from drivelint.ratings.parts import PartsError
     from drivelint.report.stages import stages_text
     from drivelint.stages.recognise import stages_json
 
     results = []
     failed = False
-    for path in files:
+    for path in collect_paths(files):
         try:
             circuit, stages = load_stages(path, parts=parts)
         except PartsError as exc:

@@ -77,3 +77,19 @@ def load_stages(
 
     circuit = load_circuit(path, options)
     return circuit, recognise(circuit, parts_for(Path(path), parts))
+
+
+NETLIST_SUFFIXES = (".cir", ".net", ".sp", ".spi", ".spice", ".ckt")
+
+
+def collect_paths(paths: tuple[Path, ...], suffixes: tuple[str, ...] = NETLIST_SUFFIXES) -> list[Path]:
+    """Files as given, and folders searched recursively for netlist suffixes, sorted."""
+    out: list[Path] = []
+    for path in paths:
+        if path.is_dir():
+            out.extend(
+                sorted(p for p in path.rglob("*") if p.is_file() and p.suffix.lower() in suffixes)
+            )
+        else:
+            out.append(path)
+    return out

@@ -503,6 +503,7 @@ def _grammar() -> Lark:
             # skip position propagation.
             propagate_positions=False,
             maybe_placeholders=True,
+            cache=True,  # the compiled tables, so start-up skips grammar analysis
         )
     return _parser
 
