@@ -29,9 +29,7 @@ def main() -> None:
 @main.command("netlist")
 @click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
-@click.option(
-    "--allow-outside-root", is_flag=True, help="Let includes leave the project root."
-)
+@click.option("--allow-outside-root", is_flag=True, help="Let includes leave the project root.")
 def netlist_command(files: tuple[Path, ...], fmt: str, allow_outside_root: bool) -> None:
     """Show what was read: devices, nets, DC rails, sources and diagnostics.
 
@@ -62,11 +60,16 @@ def netlist_command(files: tuple[Path, ...], fmt: str, allow_outside_root: bool)
 @click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
 @click.option(
-    "--parts", "parts", multiple=True, type=click.Path(path_type=Path, dir_okay=False),
+    "--parts",
+    "parts",
+    multiple=True,
+    type=click.Path(path_type=Path, dir_okay=False),
     help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
 )
 @click.option("--all", "show_all", is_flag=True, help="Also show switches that do not float.")
-def stages_command(files: tuple[Path, ...], fmt: str, parts: tuple[Path, ...], show_all: bool) -> None:
+def stages_command(
+    files: tuple[Path, ...], fmt: str, parts: tuple[Path, ...], show_all: bool
+) -> None:
     """Show the gate-drive stages drivelint recognises, so you can see what it sees.
 
     FILES are netlists or folders (searched for .cir .net .sp .spi .spice .ckt).

@@ -82,7 +82,9 @@ def load_stages(
 NETLIST_SUFFIXES = (".cir", ".net", ".sp", ".spi", ".spice", ".ckt")
 
 
-def collect_paths(paths: tuple[Path, ...], suffixes: tuple[str, ...] = NETLIST_SUFFIXES) -> list[Path]:
+def collect_paths(
+    paths: tuple[Path, ...], suffixes: tuple[str, ...] = NETLIST_SUFFIXES
+) -> list[Path]:
     """Files as given, and folders searched recursively for netlist suffixes, sorted."""
     out: list[Path] = []
     for path in paths:

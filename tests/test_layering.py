@@ -9,14 +9,20 @@ PACKAGE = Path(__file__).resolve().parent.parent / "drivelint"
 
 # Rank of each top-level module or package; a module may import only ranks <= its own.
 RANKS = {
-    "diagnostics": 0, "limits": 0, "_gc": 0, "physics": 0,
+    "diagnostics": 0,
+    "limits": 0,
+    "_gc": 0,
+    "physics": 0,
     "netlist": 1,
-    "circuit": 2, "ratings": 2,
+    "circuit": 2,
+    "ratings": 2,
     "stages": 3,
     "checks": 4,
     "report": 5,
     "pipeline": 6,
-    "cli": 7, "__main__": 7, "__init__": 7,
+    "cli": 7,
+    "__main__": 7,
+    "__init__": 7,
 }
 
 

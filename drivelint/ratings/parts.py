@@ -71,10 +71,15 @@ def load_parts(path: Path, shown: str | None = None) -> PartsLibrary:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise PartsError(f"{shown}: not valid TOML: {exc}") from None
-    lines = {m.group(1).strip().lower(): text.count("\n", 0, m.start()) + 1 for m in _TABLE.finditer(text)}
+    lines = {
+        m.group(1).strip().lower(): text.count("\n", 0, m.start()) + 1
+        for m in _TABLE.finditer(text)
+    }
     unknown = set(data) - {"part"}
     if unknown:
-        raise PartsError(f"{shown}: unknown top-level key '{sorted(unknown)[0]}' (expected [part.NAME] tables)")
+        raise PartsError(
+            f"{shown}: unknown top-level key '{sorted(unknown)[0]}' (expected [part.NAME] tables)"
+        )
     parts: dict[str, Part] = {}
     for name, table in data.get("part", {}).items():
         key = name.lower()

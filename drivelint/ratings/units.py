@@ -10,15 +10,37 @@ from __future__ import annotations
 import re
 from collections.abc import Mapping
 from decimal import Decimal
+from typing import Any
 
 _PREFIX: Mapping[str, int] = {
-    "": 0, "T": 12, "G": 9, "M": 6, "k": 3, "m": -3, "u": -6, "µ": -6, "μ": -6, "n": -9,
-    "p": -12, "f": -15,
+    "": 0,
+    "T": 12,
+    "G": 9,
+    "M": 6,
+    "k": 3,
+    "m": -3,
+    "u": -6,
+    "µ": -6,
+    "μ": -6,
+    "n": -9,
+    "p": -12,
+    "f": -15,
 }
 # unit symbol -> the dimension name drivelint uses (SI base unit symbol)
 _UNITS: Mapping[str, str] = {
-    "V": "V", "A": "A", "F": "F", "C": "C", "s": "s", "Hz": "Hz", "Ohm": "Ohm", "ohm": "Ohm",
-    "Ω": "Ohm", "W": "W", "K": "K", "K/W": "K/W", "H": "H",
+    "V": "V",
+    "A": "A",
+    "F": "F",
+    "C": "C",
+    "s": "s",
+    "Hz": "Hz",
+    "Ohm": "Ohm",
+    "ohm": "Ohm",
+    "Ω": "Ohm",
+    "W": "W",
+    "K": "K",
+    "K/W": "K/W",
+    "H": "H",
 }
 _QUANTITY = re.compile(
     r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*"
@@ -26,8 +48,18 @@ _QUANTITY = re.compile(
 )
 _CELSIUS = re.compile(r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(?:degC|°C|celsius)\s*")
 _PINT_UNITS: Mapping[str, str] = {
-    "V": "volt", "A": "ampere", "F": "farad", "C": "coulomb", "s": "second", "Hz": "hertz",
-    "Ohm": "ohm", "W": "watt", "K": "kelvin", "K/W": "kelvin/watt", "H": "henry", "1": "",
+    "V": "volt",
+    "A": "ampere",
+    "F": "farad",
+    "C": "coulomb",
+    "s": "second",
+    "Hz": "hertz",
+    "Ohm": "ohm",
+    "W": "watt",
+    "K": "kelvin",
+    "K/W": "kelvin/watt",
+    "H": "henry",
+    "1": "",
 }
 
 
@@ -68,7 +100,12 @@ def _parse_with_pint(text: str, unit: str) -> float:
     registry = _registry()
     try:
         quantity = registry.Quantity(text)
-    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, ValueError, TypeError) as exc:
+    except (
+        pint.errors.UndefinedUnitError,
+        pint.errors.DefinitionSyntaxError,
+        ValueError,
+        TypeError,
+    ) as exc:
         raise UnitError(f"cannot read '{text}' as a quantity: {exc}") from None
     except Exception as exc:  # pint raises assorted parser errors for garbage input
         raise UnitError(f"cannot read '{text}' as a quantity ({type(exc).__name__})") from None
@@ -81,10 +118,10 @@ def _parse_with_pint(text: str, unit: str) -> float:
         raise UnitError(f"'{text}' has the wrong unit: expected {unit}") from None
 
 
-_REGISTRY = None
+_REGISTRY: Any = None
 
 
-def _registry():  # type: ignore[no-untyped-def]
+def _registry() -> Any:
     global _REGISTRY
     if _REGISTRY is None:
         import pint

@@ -61,7 +61,9 @@ def netlist_text(circuit: Circuit) -> str:
         pins = " ".join(f"{role}={net}" for role, net in device.pins)
         extra = []
         if device.model_name:
-            extra.append(device.model_name + (f" ({device.model_type})" if device.model_type else ""))
+            extra.append(
+                device.model_name + (f" ({device.model_type})" if device.model_type else "")
+            )
         if device.value is not None:
             extra.append(format_si(device.value))
         if device.waveform is not None and device.waveform.kind != "dc":

@@ -58,7 +58,10 @@ def stage_text(stage: DriveStage) -> str:
     lines.append("    supply:   " + ", ".join(parts))
     if stage.driver is not None:
         pins = " ".join(f"{r}={n}" for r, n in sorted(stage.driver.pins.items()))
-        lines.append(f"    driver:   {stage.driver.device} ({stage.driver.subckt}, by {stage.driver.origin}) {pins}")
+        lines.append(
+            f"    driver:   {stage.driver.device} ({stage.driver.subckt}, "
+            f"by {stage.driver.origin}) {pins}"
+        )
     for path in stage.pullups:
         lines.append(f"    pull-up:  {' -> '.join(path.devices)} from {path.returns_to}")
     if not stage.pullups:

@@ -17,7 +17,9 @@ from drivelint.stages.model import DriverInfo
 PIN_NAMES: Mapping[str, frozenset[str]] = {
     "boot": frozenset({"vb", "boot", "hb", "bst", "vboot", "cboot", "bs", "vbs", "bootstrap"}),
     "switch": frozenset({"vs", "hs", "sw", "ph", "lx", "phase", "sh", "vsw", "swn"}),
-    "high_out": frozenset({"ho", "gh", "hg", "dh", "ugate", "hdrv", "tg", "hout", "gate_h", "outh"}),
+    "high_out": frozenset(
+        {"ho", "gh", "hg", "dh", "ugate", "hdrv", "tg", "hout", "gate_h", "outh"}
+    ),
     "low_out": frozenset({"lo", "gl", "lg", "dl", "lgate", "ldrv", "bg", "lout", "gate_l", "outl"}),
     "high_in": frozenset({"hin", "inh", "hi", "in_h", "pwmh", "ina", "in"}),
     "low_in": frozenset({"lin", "inl", "li", "in_l", "pwml", "inb"}),

@@ -79,7 +79,11 @@ class _View:
                 for role, net in info.pins.items():
                     graph.add_edge(node, (NET, net), key=role, pin=role)
         self.graph = graph
-        self.devices = {n: d for n, d in circuit.devices.items() if not n.startswith(hidden)} if hidden else circuit.devices
+        self.devices = (
+            {n: d for n, d in circuit.devices.items() if not n.startswith(hidden)}
+            if hidden
+            else circuit.devices
+        )
 
     def at(self, net: str) -> Iterator[tuple[str, str]]:
         """(device or driver name, pin) for each terminal on ``net``."""
@@ -178,23 +182,37 @@ class _StageBuilder:
         name = self.switch.name
         if self.switch.model_type == "pmos":
             where = f"at rail '{self.source}'" if self.source in rails else f"at '{self.source}'"
-            return False, f"P-channel switch, source {where}: its gate is driven from ground-referenced rails", None
+            return (
+                False,
+                f"P-channel switch, source {where}: "
+                "its gate is driven from ground-referenced rails",
+                None,
+            )
         if self.source == GROUND:
             return False, "source at ground (low-side switch)", None
         if self.source in rails:
             return False, f"source held at DC rail '{self.source}' ({rails[self.source]:g} V)", None
         bus = self.bus()
         if bus is None:
-            return False, (
-                f"source '{self.source}' is not a rail, but the drain '{self.drain}' reaches no "
-                "positive rail: not recognised as a high-side switch"
-            ), None
+            return (
+                False,
+                (
+                    f"source '{self.source}' is not a rail, but the drain '{self.drain}' "
+                    "reaches no "
+                    "positive rail: not recognised as a high-side switch"
+                ),
+                None,
+            )
         loads = self.source_loads()
         what = ", ".join(loads) if loads else "nothing else recognised on it"
-        return True, (
-            f"source '{self.source}' is neither ground nor a DC rail; the drain at "
-            f"'{bus.net}' ({bus.volts:g} V) pulls it up when {name} conducts ({what})"
-        ), bus
+        return (
+            True,
+            (
+                f"source '{self.source}' is neither ground nor a DC rail; the drain at "
+                f"'{bus.net}' ({bus.volts:g} V) pulls it up when {name} conducts ({what})"
+            ),
+            bus,
+        )
 
     def source_loads(self) -> list[str]:
         out = []
@@ -264,9 +282,7 @@ class _StageBuilder:
     def supply(self, driver: DriverInfo | None) -> Supply:
         if driver is not None and driver.pins.get("boot"):
             boot = driver.pins["boot"]
-            hold = next(
-                (n for b, n in self.boot_candidates() if b == boot), None
-            )
+            hold = next((n for b, n in self.boot_candidates() if b == boot), None)
             return self.classify_boot(boot, hold)
         candidates = self.boot_candidates()
         # Prefer the candidate that actually feeds the gate.
@@ -289,9 +305,11 @@ class _StageBuilder:
         # A source between boot net and switch node, not found as the hold element.
         for name, _ in view.at(boot):
             device = view.device(name)
-            if device is not None and device.kind == "vsource" and {
-                device.net("p"), device.net("n")
-            } == {boot, self.source}:
+            if (
+                device is not None
+                and device.kind == "vsource"
+                and {device.net("p"), device.net("n")} == {boot, self.source}
+            ):
                 volts = device.waveform.dc_level() if device.waveform else None
                 return Supply("isolated", boot, capacitor, source=name, aux=Rail(boot, volts))
         winding = self.winding(boot)
@@ -304,14 +322,27 @@ class _StageBuilder:
             if aux_volts is not None:
                 ohms = sum((view.devices[r].value or 0.0) for r in resistors) if resistors else None
                 return Supply(
-                    "bootstrap", boot, capacitor, diode, orientation, tuple(resistors), ohms,
+                    "bootstrap",
+                    boot,
+                    capacitor,
+                    diode,
+                    orientation,
+                    tuple(resistors),
+                    ohms,
                     Rail(far, aux_volts),
                 )
             pump = self.pump_capacitor(far, diode)
             if pump is not None and orientation == "forward":
                 return Supply(
-                    "charge-pump", boot, capacitor, diode, orientation, tuple(resistors), None,
-                    None, source=pump,
+                    "charge-pump",
+                    boot,
+                    capacitor,
+                    diode,
+                    orientation,
+                    tuple(resistors),
+                    None,
+                    None,
+                    source=pump,
                 )
         if capacitor is not None and self.pull_paths({boot}, up=True):
             # A hold capacitor with no way to charge it: still a bootstrap, with no diode.
@@ -349,16 +380,19 @@ class _StageBuilder:
             device = self.view.device(name)
             if device is not None and device.kind == "resistor":
                 far = _other_net(device, net)
-                if far is not None and far not in exclude and self.view.is_rail(far) and far != GROUND:
+                if (
+                    far is not None
+                    and far not in exclude
+                    and self.view.is_rail(far)
+                    and far != GROUND
+                ):
                     return far, [name]
         return net, []
 
     def pump_capacitor(self, net: str, diode: str) -> str | None:
         """A capacitor from the diode's anode node to a clock node, fed by another diode."""
         view = self.view
-        fed = any(
-            view.kind(n) == "diode" and n != diode and pin == "k" for n, pin in view.at(net)
-        )
+        fed = any(view.kind(n) == "diode" and n != diode and pin == "k" for n, pin in view.at(net))
         if not fed:
             return None
         for name, _ in view.at(net):
@@ -373,10 +407,7 @@ class _StageBuilder:
         """A coupled inductor between the switch node and the boot net (or its rectifier)."""
         view = self.view
         coupled = {
-            name
-            for d in view.devices.values()
-            if d.kind == "coupling"
-            for name in d.controls
+            name for d in view.devices.values() if d.kind == "coupling" for name in d.controls
         }
         if not coupled:
             return None
@@ -389,7 +420,12 @@ class _StageBuilder:
                 return name
             for other, pin in view.at(far or ""):
                 diode = view.device(other)
-                if diode is not None and diode.kind == "diode" and pin == "a" and diode.net("k") == boot:
+                if (
+                    diode is not None
+                    and diode.kind == "diode"
+                    and pin == "a"
+                    and diode.net("k") == boot
+                ):
                     return name
         return None
 
@@ -443,7 +479,7 @@ class _StageBuilder:
                 return device.net("n")
             return device.net("p") if pin == "n" else None
         polarity = view.polarity(device)
-        if polarity not in _CONDUCTION:
+        if polarity is None or polarity not in _CONDUCTION:
             return None
         if device.kind == "diode" and self.is_clamp_position(device):
             return None
@@ -484,11 +520,16 @@ class _StageBuilder:
                 partner_pin = "k" if partner.net("k") == far else "a"
                 first_pin = "k" if device.net("k") == far else "a"
                 back_to_back = partner_pin == first_pin
-                orientation = "back-to-back" if back_to_back else ("normal" if pin == "k" else "reversed")
+                orientation = (
+                    "back-to-back" if back_to_back else ("normal" if pin == "k" else "reversed")
+                )
                 volts = [v for v in (view.zener_voltage(device), view.zener_voltage(partner)) if v]
                 out.append(
                     Clamp(
-                        f"{name}+{partner.name}", kind, orientation, (name, partner.name),
+                        f"{name}+{partner.name}",
+                        kind,
+                        orientation,
+                        (name, partner.name),
                         max(volts) if volts else None,
                     )
                 )
@@ -546,7 +587,10 @@ class _StageBuilder:
     # -- control -------------------------------------------------------------------------------
 
     def control(
-        self, pullups: Sequence[GatePath], pulldowns: Sequence[GatePath], driver: tuple[DriverInfo, str] | None
+        self,
+        pullups: Sequence[GatePath],
+        pulldowns: Sequence[GatePath],
+        driver: tuple[DriverInfo, str] | None,
     ) -> Control | None:
         if driver is not None:
             info, out_role = driver
@@ -642,7 +686,9 @@ class _StageBuilder:
             gain = device.value if device.value is not None else 1.0
             return [(device.net("cp") or "", invert != (gain < 0))]
         if device.expression:
-            ports = dict(self.view.circuit.instances[device.instance].ports) if device.instance else {}
+            ports = (
+                dict(self.view.circuit.instances[device.instance].ports) if device.instance else {}
+            )
             nets = []
             for match in _V_REFERENCE.finditer(device.expression):
                 name = match.group(1).lower()
@@ -687,7 +733,9 @@ class _StageBuilder:
             for p in self.pull_paths(down_ends, up=False)
         ]
         pullups = [
-            GatePath(p.devices[::-1], p.end_net, "boot" if p.end_net == supply.boot_net else p.end_net)
+            GatePath(
+                p.devices[::-1], p.end_net, "boot" if p.end_net == supply.boot_net else p.end_net
+            )
             for p in pullups
         ]
         control = self.control(pullups, pulldowns, driver)
@@ -753,7 +801,9 @@ def recognise(circuit: Circuit, parts: PartsLibrary | None = None) -> tuple[Driv
         if stage.floating
         for path in (*stage.pullups, *stage.pulldowns)
         for name in path.devices
-    } | {name for stage in stages if stage.floating and stage.control for name in stage.control.path}
+    } | {
+        name for stage in stages if stage.floating and stage.control for name in stage.control.path
+    }
     return tuple(s for s in stages if s.floating or s.switch not in helpers)
 
 

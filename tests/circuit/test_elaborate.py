@@ -136,10 +136,14 @@ def test_duplicate_names_and_self_instantiation() -> None:
 
 def test_instance_depth_and_device_bounds() -> None:
     nest = "".join(f".subckt s{i} a\nX1 a s{i + 1}\n.ends\n" for i in range(10))
-    c = circuit("t\n" + nest + ".subckt s10 a\nR1 a 0 1\n.ends\nX0 n s0\n",
-                limits=Limits(max_instance_depth=5))
+    c = circuit(
+        "t\n" + nest + ".subckt s10 a\nR1 a 0 1\n.ends\nX0 n s0\n",
+        limits=Limits(max_instance_depth=5),
+    )
     assert any("max_instance_depth" in m for m in errors(c))
-    many = circuit("t\n" + "".join(f"R{i} a 0 1\n" for i in range(50)), limits=Limits(max_devices=10))
+    many = circuit(
+        "t\n" + "".join(f"R{i} a 0 1\n" for i in range(50)), limits=Limits(max_devices=10)
+    )
     assert len(many.devices) == 10 and any("max_devices" in m for m in errors(many))
 
 

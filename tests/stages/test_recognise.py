@@ -23,7 +23,8 @@ MODELS = """
 """
 
 # A discrete high-side stage with deliberately meaningless net names.
-DISCRETE = """discrete stage, arbitrary names
+DISCRETE = (
+    """discrete stage, arbitrary names
 VB1 n7 0 DC 48
 VA1 n3 0 DC 12
 VC1 n9 0 PULSE(0 5 0 10n 10n 20u 50u)
@@ -40,7 +41,9 @@ Q1 n12 n10 n11 qn
 R5 n11 0 220
 R6 n9 n10 1k
 DZ1 n5 n12 dz
-""" + MODELS
+"""
+    + MODELS
+)
 
 
 def stages_of(text: str, parts: PartsLibrary | None = None, **options: object):
@@ -56,7 +59,10 @@ def test_discrete_bootstrap_with_arbitrary_net_names() -> None:
     assert stage.bus.volts == 48
     supply = stage.supply
     assert (supply.kind, supply.boot_net, supply.capacitor, supply.diode) == (
-        "bootstrap", "n8", "c1", "d1",
+        "bootstrap",
+        "n8",
+        "c1",
+        "d1",
     )
     assert supply.diode_orientation == "forward"
     assert supply.series_resistors == ("r2",) and supply.series_resistance == pytest.approx(4.7)
@@ -79,8 +85,14 @@ def test_low_side_switch_is_not_floating_and_shifter_is_not_a_stage() -> None:
 
 def test_ground_spelled_differently() -> None:
     text = DISCRETE
-    for old, new in [("n7 0 DC", "n7 GND DC"), ("n3 0 DC", "n3 Gnd DC"), ("n9 0 PULSE", "n9 gnd PULSE"),
-                     ("n13 0 nfet", "n13 GND nfet"), ("R5 n11 0", "R5 n11 gnd"), ("R9 n6 0", "R9 n6 GND")]:
+    for old, new in [
+        ("n7 0 DC", "n7 GND DC"),
+        ("n3 0 DC", "n3 Gnd DC"),
+        ("n9 0 PULSE", "n9 gnd PULSE"),
+        ("n13 0 nfet", "n13 GND nfet"),
+        ("R5 n11 0", "R5 n11 gnd"),
+        ("R9 n6 0", "R9 n6 GND"),
+    ]:
         assert old in text
         text = text.replace(old, new)
     stage = stages_of(text)["m1"]
@@ -125,7 +137,8 @@ def test_switch_inside_a_wrapper_subcircuit() -> None:
     assert stage.clamps[0].device == "dz1"
 
 
-DRIVER = """driver IC half bridge
+DRIVER = (
+    """driver IC half bridge
 VBUS bus 0 DC 300
 VCC vcc 0 DC 15
 VH hin 0 PULSE(0 5 1u 10n 10n 9u 20u)
@@ -144,7 +157,9 @@ RH ho1 HO 2
 BL lo1 COM V = V(LIN,COM) > 2.5 ? V(VCC,COM) : 0
 RL lo1 LO 2
 .ends GDRV
-""" + MODELS
+"""
+    + MODELS
+)
 
 
 def test_driver_ic_with_gate_resistor() -> None:
@@ -166,15 +181,24 @@ def test_driver_from_the_parts_library_with_odd_pin_names() -> None:
     renamed = renamed.replace("ho1 VS", "ho1 P7").replace("ho1 HO", "ho1 P6")
     renamed = renamed.replace("V(LIN,COM) > 2.5 ? V(VCC,COM)", "V(P3,P4) > 2.5 ? V(P1,P4)")
     renamed = renamed.replace("lo1 COM", "lo1 P4").replace("lo1 LO", "lo1 P8")
-    pins = {"p1": "supply", "p2": "high_in", "p3": "low_in", "p4": "ground", "p5": "boot",
-            "p6": "high_out", "p7": "switch", "p8": "low_out"}
+    pins = {
+        "p1": "supply",
+        "p2": "high_in",
+        "p3": "low_in",
+        "p4": "ground",
+        "p5": "boot",
+        "p6": "high_out",
+        "p7": "switch",
+        "p8": "low_out",
+    }
     parts = PartsLibrary({"gdrv": Part("gdrv", "driver", {}, pins, "parts.toml:1")})
     stage = stages_of(renamed, parts)["m1"]
     assert stage.driver is not None and stage.driver.origin.startswith("parts library")
     assert stage.supply.boot_net == "boot" and stage.control.source == "vh"
 
 
-HALF_BRIDGE_TWICE = """two legs from one subcircuit sharing the auxiliary rail
+HALF_BRIDGE_TWICE = (
+    """two legs from one subcircuit sharing the auxiliary rail
 VBUS bus 0 DC 60
 VAUX aux 0 DC 12
 VA ina 0 PULSE(0 5 0 10n 10n 10u 25u)
@@ -193,7 +217,9 @@ MH BUS g OUT nfet
 ML OUT gl GROUND nfet
 RGL gl GROUND 10k
 .ends LEG
-""" + MODELS
+"""
+    + MODELS
+)
 
 
 def test_half_bridge_subcircuit_used_twice_sharing_the_aux_rail() -> None:
@@ -207,7 +233,8 @@ def test_half_bridge_subcircuit_used_twice_sharing_the_aux_rail() -> None:
 
 
 def test_charge_pump_supply() -> None:
-    text = """charge pump
+    text = (
+        """charge pump
 VBUS bus 0 DC 24
 VAUX aux 0 DC 12
 VCLK clk 0 PULSE(0 12 0 10n 10n 1u 2u)
@@ -221,7 +248,9 @@ Q1 g b 0 qn
 RB en b 10k
 M1 bus g out nfet
 RL out 0 10
-""" + MODELS
+"""
+        + MODELS
+    )
     stage = stages_of(text)["m1"]
     assert stage.supply.kind == "charge-pump" and stage.supply.source == "cp"
     assert stage.mode == "static"
@@ -231,14 +260,17 @@ def test_isolated_supplies_source_and_winding() -> None:
     source = DISCRETE.replace("D1 n4 n8 dfast", "VISO n8 n5 DC 15").replace("R2 n3 n4 4.7\n", "")
     stage = stages_of(source)["m1"]
     assert stage.supply.kind == "isolated" and stage.supply.source == "viso"
-    winding = DISCRETE.replace("D1 n4 n8 dfast", "LS n30 n5 1m\nDW n30 n8 dfast\nLP n31 0 1m\n"
-                               "KT LP LS 0.99\nVP n31 0 SIN(0 10 100k)")
+    winding = DISCRETE.replace(
+        "D1 n4 n8 dfast",
+        "LS n30 n5 1m\nDW n30 n8 dfast\nLP n31 0 1m\nKT LP LS 0.99\nVP n31 0 SIN(0 10 100k)",
+    )
     stage = stages_of(winding)["m1"]
     assert stage.supply.kind == "isolated" and stage.supply.source == "ls"
 
 
 def test_push_pull_buffer_with_speed_up_capacitor() -> None:
-    text = """push-pull
+    text = (
+        """push-pull
 VBUS bus 0 DC 36
 VAUX aux 0 DC 12
 VIN in 0 PULSE(0 5 0 10n 10n 30u 62.5u)
@@ -255,7 +287,9 @@ RG te g 4.7
 M1 bus g sw nfet
 M2 sw gl 0 nfet
 VGL gl 0 DC 0
-""" + MODELS
+"""
+        + MODELS
+    )
     stage = stages_of(text)["m1"]
     assert [p.devices for p in stage.pullups] == [("qu", "rg")]
     assert [(p.devices, p.returns_to) for p in stage.pulldowns] == [(("rg", "qd"), "source")]
@@ -270,7 +304,8 @@ def test_pulldown_to_ground_is_reported_as_ground() -> None:
 
 
 def test_direct_resistor_from_a_ground_referenced_rail() -> None:
-    text = """no floating supply
+    text = (
+        """no floating supply
 VBUS bus 0 DC 24
 VG12 v12 0 DC 12
 VIN in 0 PULSE(0 5 0 10n 10n 5u 10u)
@@ -279,7 +314,9 @@ Q1 g b 0 qn
 RB in b 1k
 M1 bus g out nfet
 RL out 0 10
-""" + MODELS
+"""
+        + MODELS
+    )
     stage = stages_of(text)["m1"]
     assert stage.supply.kind == "none"
     assert [(p.devices, p.returns_to) for p in stage.pullups] == [(("rpu",), "v12")]
@@ -289,7 +326,8 @@ RL out 0 10
 
 
 def test_p_channel_high_side_switch_is_not_floating() -> None:
-    text = """p-channel high side
+    text = (
+        """p-channel high side
 VBUS bus 0 DC 12
 VIN in 0 PULSE(0 5 0 10n 10n 5u 10u)
 M1 out g bus pfet
@@ -297,19 +335,24 @@ RPU bus g 10k
 Q1 g b 0 qn
 RB in b 1k
 RL out 0 5
-""" + MODELS
+"""
+        + MODELS
+    )
     stages = stages_of(text)
     assert not stages["m1"].floating and "P-channel" in stages["m1"].floating_reason
 
 
 def test_source_follower_linear_regulator_is_not_a_bootstrap_stage() -> None:
-    text = """linear regulator
+    text = (
+        """linear regulator
 VIN vin 0 DC 24
 VREF ref 0 DC 5.6
 RG ref g 1k
 M1 vin g out nfet
 RL out 0 50
-""" + MODELS
+"""
+        + MODELS
+    )
     stage = stages_of(text)["m1"]
     assert stage.supply.kind == "none" and stage.mode == "linear"
 
