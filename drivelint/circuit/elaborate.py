@@ -103,6 +103,7 @@ class _Block:
     prefix: str
     ports: Mapping[str, str]
     chain: tuple[str, ...]  # subcircuit names from the top, for self-instantiation
+    multiplier: float = 1.0  # product of the m= of the instances above
 
 
 class _Elaborator:
@@ -147,7 +148,8 @@ class _Elaborator:
             if isinstance(statement, ParamCard):
                 for assign in statement.assigns:
                     assert isinstance(assign.value, Expr)
-                    scope.params[assign.key] = ParamDef(assign.span, text=assign.value.text)
+                    # The value's span, so an error's offset in the text lands on its column.
+                    scope.params[assign.key] = ParamDef(assign.value.span, text=assign.value.text)
             elif isinstance(statement, ModelCard):
                 if statement.name in scope.models:
                     self.report(
@@ -325,8 +327,13 @@ class _Elaborator:
         for assign in definition.params:
             scope.params.setdefault(assign.key, self.param_def(assign, scope))
         known = {a.key for a in definition.params} | set(scope.params)
+        multiplier = block.multiplier
         for assign in assigns:
-            if assign.key not in known and assign.key != "m":
+            if assign.key == "m" and "m" not in known:
+                # An instance multiplier parallels every device inside the instance.
+                multiplier *= block.scope.number(assign.value)
+                continue
+            if assign.key not in known:
                 self.report(
                     Severity.WARNING, assign.span,
                     f"subcircuit '{definition.name}' has no parameter '{assign.key}'",
@@ -336,7 +343,7 @@ class _Elaborator:
             name, definition.name, tuple((p.text, ports[p.text]) for p in definition.ports),
             element.span,
         )
-        inner = _Block(scope, name + ".", ports, (*block.chain, definition.name))
+        inner = _Block(scope, name + ".", ports, (*block.chain, definition.name), multiplier)
         before = len(self.devices)
         self.flatten(definition.body, inner)
         self.collapse_wrapper(name, definition, ports, before, element.span)
@@ -344,7 +351,7 @@ class _Elaborator:
     def param_def(self, assign: Assign, scope: Scope) -> ParamDef:
         value = assign.value
         if isinstance(value, Word):
-            return ParamDef(assign.span, text=value.text, scope=scope)
+            return ParamDef(value.span, text=value.text, scope=scope)
         if isinstance(value, Expr):
             return ParamDef(value.span, text=value.text, scope=scope)
         raise self.fail(assign.span, f"parameter '{assign.key}' needs a value")
@@ -402,7 +409,7 @@ class _Elaborator:
                 params[key] = scope.number(assign.value)
             except DiagnosticError as exc:
                 self.record(exc)
-        multiplier = params.pop("m", 1.0)
+        multiplier = params.pop("m", 1.0) * block.multiplier
         base = replace(base, params=params, multiplier=multiplier)
 
         if letter in "rcl":

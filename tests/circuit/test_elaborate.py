@@ -203,3 +203,14 @@ def test_graph_is_bipartite_with_pin_roles() -> None:
     assert g.number_of_edges(device_node("r2"), net_node("k")) == 2  # a shorted part
     for u, v in g.edges():
         assert {u[0], v[0]} == {"net", "device"}
+
+
+def test_instance_multiplier_parallels_the_devices_inside() -> None:
+    # ngspice builds every device of an `m=2` instance with m=2 (checked against ngspice in
+    # test_ngspice_crosscheck); nested instance multipliers multiply, as paralleled copies do.
+    c = circuit(
+        "t\n.subckt cell a\nR1 a 0 1k m=3\n.ends\n.subckt pair a\nX1 a cell m=2\n.ends\n"
+        "XP n pair m=5\n" + WRAPPED.split("\n", 1)[1].replace("X1 bus gate sw FETWRAP", "X2 bus g s FETWRAP m=2")
+    )
+    assert c.devices["xp.x1.r1"].multiplier == 30
+    assert c.devices["x2"].multiplier == 2
