@@ -64,7 +64,7 @@ def parts_for(path: Path, extra: tuple[Path, ...] = ()) -> PartsLibrary:
     """The parts library for a netlist: a ``parts.toml`` beside it, then ``extra`` files."""
     from drivelint.ratings.parts import load_libraries
 
-    beside = path.resolve().parent / "parts.toml"
+    beside = path.parent / "parts.toml"
     files = ([beside] if beside.is_file() else []) + list(extra)
     return load_libraries(files)
 

@@ -113,6 +113,7 @@ class _Elaborator:
         self.limits = options.limits
         self.grounds = frozenset(a.lower() for a in options.ground_aliases) | {GROUND}
         self.devices: dict[str, Device] = {}
+        self.order: list[str] = []  # names in insertion order, for cheap "added since"
         self.instances: dict[str, Instance] = {}
         self.diagnostics: list[Diagnostic] = []
         self.global_nets: set[str] = set()
@@ -268,6 +269,7 @@ class _Elaborator:
             )
             raise _LimitReached
         self.devices[device.name] = device
+        self.order.append(device.name)
 
     def net(self, word: Field, block: _Block) -> str:
         if not isinstance(word, Word):
@@ -344,7 +346,7 @@ class _Elaborator:
             element.span,
         )
         inner = _Block(scope, name + ".", ports, (*block.chain, definition.name), multiplier)
-        before = len(self.devices)
+        before = len(self.order)
         self.flatten(definition.body, inner)
         self.collapse_wrapper(name, definition, ports, before, element.span)
 
@@ -360,7 +362,9 @@ class _Elaborator:
         self, name: str, definition: Subckt, ports: Mapping[str, str], before: int, span: Span
     ) -> None:
         """Replace a one-MOSFET-plus-parasitics instance by one transistor device."""
-        added = list(self.devices.values())[before:]
+        if not _could_be_wrapper(definition):
+            return
+        added = [self.devices[n] for n in self.order[before:] if n in self.devices]
         transistors = [d for d in added if d.kind == "mosfet"]
         if len(transistors) != 1 or any(
             d.kind not in WRAPPER_PASSIVES for d in added if d is not transistors[0]
@@ -393,13 +397,6 @@ class _Elaborator:
         positional = [f for f in element.fields if not isinstance(f, Assign)]
         assigns = {f.key: f for f in element.fields if isinstance(f, Assign)}
         name = block.prefix + element.name
-        base = Device(
-            name=name,
-            kind=KIND_BY_LETTER[letter],
-            pins=(),
-            span=element.span,
-            instance=block.prefix[:-1],
-        )
         scope = block.scope
         params: dict[str, float] = {}
         for key, assign in assigns.items():
@@ -409,8 +406,15 @@ class _Elaborator:
                 params[key] = scope.number(assign.value)
             except DiagnosticError as exc:
                 self.record(exc)
-        multiplier = params.pop("m", 1.0) * block.multiplier
-        base = replace(base, params=params, multiplier=multiplier)
+        base = Device(
+            name=name,
+            kind=KIND_BY_LETTER[letter],
+            pins=(),
+            span=element.span,
+            instance=block.prefix[:-1],
+            params=params,
+            multiplier=params.pop("m", 1.0) * block.multiplier,
+        )
 
         if letter in "rcl":
             return self.passive(element, base, positional, block)
@@ -682,6 +686,12 @@ class _Elaborator:
         nodes = self.nodes(element, positional, 4, block)
         gain = self.optional_number(positional[4:5], block.scope)
         return replace(base, pins=tuple(zip(("p", "n", "cp", "cn"), nodes)), value=gain)
+
+
+def _could_be_wrapper(definition: Subckt) -> bool:
+    """The body's element letters allow the one-MOSFET-plus-parasitics shape."""
+    letters = [s.letter for s in definition.body if isinstance(s, Element)]
+    return letters.count("m") == 1 and all(letter in "mrlcd" for letter in letters)
 
 
 def _count_text(counts: Sequence[int]) -> str:

@@ -623,7 +623,8 @@ class _StageBuilder:
             return self.trace_source(base, inverting=inverting, path=[name])
         for path in pullups:
             if path.end_net != self.gate and self.view.is_rail(path.end_net):
-                return Control(path.end_net, False, None, path.devices)
+                held = self.trace_source(path.end_net, inverting=False, path=list(path.devices))
+                return held if held.source else Control(None, False, None, path.devices)
         return None
 
     def trace_source(self, net: str, inverting: bool, path: list[str]) -> Control:
