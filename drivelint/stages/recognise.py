@@ -10,11 +10,11 @@ cannot see, and ``drivelint stages`` shows the user what was and was not recogni
 from __future__ import annotations
 
 import re
-from collections.abc import Iterator, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from drivelint.circuit.graph import DEVICE, NET
+from drivelint._gc import paused_gc
 from drivelint.circuit.model import GROUND, Circuit, Device
 from drivelint.ratings.parts import PartsLibrary
 from drivelint.stages.drivers import find_drivers
@@ -68,31 +68,30 @@ class _View:
         self.rails[GROUND] = 0.0
         self.drivers = find_drivers(circuit, parts)
         hidden = tuple(name + "." for name in self.drivers)
-        graph = circuit.graph()
-        if hidden:
-            graph.remove_nodes_from(
-                [n for n in graph if n[0] == DEVICE and n[1].startswith(hidden)]
-            )
-            for info in self.drivers.values():
-                node = (DEVICE, info.device)
-                graph.add_node(node, bipartite=DEVICE, kind="driver")
-                for role, net in info.pins.items():
-                    graph.add_edge(node, (NET, net), key=role, pin=role)
-        self.graph = graph
-        self.devices = (
+        self.devices: Mapping[str, Device] = (
             {n: d for n, d in circuit.devices.items() if not n.startswith(hidden)}
             if hidden
             else circuit.devices
         )
+        # Terminals by net: the circuit graph's net-to-device adjacency, with each driver's
+        # internals replaced by one driver node. Kept as plain lists because recognition
+        # asks for little else and this is several times faster to build than a graph copy.
+        self._terminals: dict[str, list[tuple[str, str]]] = {}
+        for device in self.devices.values():
+            for role, net in device.pins:
+                self._terminals.setdefault(net, []).append((device.name, role))
+        for info in self.drivers.values():
+            for role, net in info.pins.items():
+                self._terminals.setdefault(net, []).append((info.device, role))
+        self.coupled_inductors = frozenset(
+            name for d in self.devices.values() if d.kind == "coupling" for name in d.controls
+        )
+        self.positive_rails = frozenset(n for n, v in self.rails.items() if v > 0)
+        self.negative_rails = frozenset(n for n, v in self.rails.items() if v < 0)
 
-    def at(self, net: str) -> Iterator[tuple[str, str]]:
+    def at(self, net: str) -> list[tuple[str, str]]:
         """(device or driver name, pin) for each terminal on ``net``."""
-        node = (NET, net)
-        if node not in self.graph:
-            return
-        for neighbour, keys in self.graph.adj[node].items():
-            for role in keys:
-                yield neighbour[1], role
+        return self._terminals.get(net, [])
 
     def device(self, name: str) -> Device | None:
         return self.devices.get(name)
@@ -406,9 +405,7 @@ class _StageBuilder:
     def winding(self, boot: str) -> str | None:
         """A coupled inductor between the switch node and the boot net (or its rectifier)."""
         view = self.view
-        coupled = {
-            name for d in view.devices.values() if d.kind == "coupling" for name in d.controls
-        }
+        coupled = view.coupled_inductors
         if not coupled:
             return None
         for name, _ in view.at(self.source):
@@ -601,16 +598,28 @@ class _StageBuilder:
         # The transistor or switch on a gate path that is commanded from outside. A
         # common-emitter (common-source) stage, with its collector (drain) toward the gate,
         # inverts its input; an emitter follower or a switch does not.
+        kind = self.view.kind
         candidates = [
-            *((name, False) for p in pulldowns for name in p.devices),
-            *((name, True) for p in pullups for name in p.devices),
+            *((n, False) for p in pulldowns for n in p.devices if kind(n) in ("bjt", "mosfet")),
+            *(
+                (n, True)
+                for p in pullups
+                for n in p.devices
+                if kind(n) in ("bjt", "mosfet", "switch")
+            ),
+            *((n, False) for p in pulldowns for n in p.devices if kind(n) == "switch"),
         ]
         for name, up in candidates:
             device = self.view.device(name)
-            if device is None or device.kind not in ("bjt", "mosfet", "switch"):
-                continue
+            assert device is not None
             if device.kind == "switch":
-                base, inverting = device.net("cp"), False
+                # On when V(cp) - V(cn) is high; the signal is whichever is not a rail.
+                base, on_low = device.net("cp"), False
+                if base is None or self.view.is_rail(base):
+                    base, on_low = device.net("cn"), True
+                if base is None or self.view.is_rail(base):
+                    continue
+                inverting = (not up) != on_low
             else:
                 polarity = device.model_type or ""
                 if polarity not in _CONDUCTION:
@@ -724,9 +733,9 @@ class _StageBuilder:
         supply = self.supply(driver[0] if driver else None)
         self.boot_net = supply.boot_net or ""
         up_ends = {supply.boot_net} if supply.boot_net else set()
-        up_ends |= {n for n, v in self.view.rails.items() if v > 0}
+        up_ends |= self.view.positive_rails
         pullups = self.pull_paths(up_ends, up=True)
-        down_ends = {self.source, GROUND} | {n for n, v in self.view.rails.items() if v < 0}
+        down_ends = {self.source, GROUND} | self.view.negative_rails
         if driver is not None and driver[0].pins.get("switch"):
             down_ends.add(driver[0].pins["switch"])
         pulldowns = [
@@ -791,11 +800,14 @@ class _StageBuilder:
 def recognise(circuit: Circuit, parts: PartsLibrary | None = None) -> tuple[DriveStage, ...]:
     """One stage per MOSFET switch; level shifters and totem-pole parts of a floating stage
     are reported inside that stage, not as switches of their own."""
-    view = _View(circuit, parts or PartsLibrary())
-    switches = [
-        d for d in view.devices.values() if d.kind == "mosfet" and d.model_type in ("nmos", "pmos")
-    ]
-    stages = [_StageBuilder(view, s).build() for s in switches]
+    with paused_gc():
+        view = _View(circuit, parts or PartsLibrary())
+        switches = [
+            d
+            for d in view.devices.values()
+            if d.kind == "mosfet" and d.model_type in ("nmos", "pmos")
+        ]
+        stages = [_StageBuilder(view, s).build() for s in switches]
     helpers = {
         name
         for stage in stages
