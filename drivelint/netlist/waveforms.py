@@ -37,6 +37,7 @@ lists these choices in ``notes`` and the parameters it filled in ``defaulted``.
 from __future__ import annotations
 
 import abc
+import dataclasses
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -126,6 +127,21 @@ class Waveform(abc.ABC):
         period = self.period()
         return None if period is None else 1.0 / period
 
+    def negated(self) -> Waveform:
+        """The same waveform with every value's sign flipped (timing unchanged)."""
+        if isinstance(self, Pwl):
+            return dataclasses.replace(self, points=tuple((t, -v) for t, v in self.points))
+        names = _VALUE_FIELDS[self.kind]
+        return dataclasses.replace(self, **{n: -getattr(self, n) for n in names})
+
+    def longest_time_below(self, threshold: float) -> float:
+        """Longest continuous interval with value < threshold (an active-low command's on-time)."""
+        return self.negated().longest_time_above(-threshold)
+
+    def duty_below(self, threshold: float) -> float | None:
+        """Fraction of a period below threshold (periodic waveforms only)."""
+        return self.negated().duty_above(-threshold)
+
     def to_json(self) -> dict[str, object]:
         record: dict[str, object] = {"kind": self.kind}
         record.update(self._parameters())
@@ -139,6 +155,15 @@ class Waveform(abc.ABC):
 
 
 # --------------------------------------------------------------------------- DC
+
+
+# The fields holding values (not times) of each kind, for ``negated``.
+_VALUE_FIELDS: Mapping[str, tuple[str, ...]] = {
+    "dc": ("value",),
+    "pulse": ("v1", "v2"),
+    "sin": ("vo", "va"),
+    "exp": ("v1", "v2"),
+}
 
 
 @dataclass(frozen=True, slots=True)

@@ -631,3 +631,14 @@ def test_ngspice_shows_the_wrap_dip_that_the_on_time_ignores(simulation: Simulat
     ]
     assert dips, "expected ngspice to show the dip at the period boundary"
     assert BY_NAME["pulse_wide"].wave().longest_time_above(2.5) == math.inf
+
+
+def test_below_threshold_mirrors_above() -> None:
+    # An active-low command is on while its input is low: time below a threshold of a
+    # waveform equals time above the mirrored threshold of the mirrored waveform.
+    pulse = build_waveform("pulse", [0, 5, 0, 1e-9, 1e-9, 7e-6, 10e-6])
+    assert pulse.longest_time_below(2.5) == pytest.approx(10e-6 - pulse.longest_time_above(2.5))
+    assert pulse.duty_below(2.5) == pytest.approx(1 - pulse.duty_above(2.5))
+    assert build_waveform("dc", [0.0]).longest_time_below(2.5) == math.inf
+    assert build_waveform("pwl", [0, 5, 1e-3, 0]).longest_time_below(2.5) == math.inf
+    assert build_waveform("sin", [0, 1, 1e3]).negated().high() == pytest.approx(1)
