@@ -98,3 +98,72 @@ def stages_command(
     else:
         click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
+
+
+@main.command("check")
+@click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
+@click.option(
+    "--parts", "parts", multiple=True, type=click.Path(path_type=Path, dir_okay=False),
+    help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
+)
+@click.option("--explain", is_flag=True, help="Show each finding's inputs, origins and formula.")
+@click.option(
+    "--fail-on", type=click.Choice(["error", "warning", "note"]), default="warning",
+    show_default=True, help="The lowest severity that makes the exit code 1.",
+)
+def check_command(
+    files: tuple[Path, ...], fmt: str, parts: tuple[Path, ...], explain: bool, fail_on: str
+) -> None:
+    """Check the floating gate drives in netlists and report what will fail."""
+    from drivelint.checks.registry import RuleError
+    from drivelint.diagnostics import Severity
+    from drivelint.pipeline import check_path, collect_paths
+    from drivelint.ratings.parts import PartsError
+    from drivelint.report.findings import results_json, results_text
+
+    results = []
+    try:
+        for path in collect_paths(files):
+            results.append(check_path(path, parts=parts))
+    except (PartsError, RuleError) as exc:
+        click.echo(f"drivelint: {exc}", err=True)
+        sys.exit(EXIT_ERROR)
+    if fmt == "json":
+        import json
+
+        click.echo(json.dumps(results_json(results), indent=2))
+    else:
+        click.echo(results_text(results, explain))
+    threshold = Severity.parse(fail_on)
+    if any(d.severity is Severity.ERROR for r in results for d in r.diagnostics):
+        sys.exit(EXIT_ERROR)
+    if any(f.severity >= threshold for r in results for f in r.findings):
+        sys.exit(EXIT_FINDINGS)
+    sys.exit(EXIT_OK)
+
+
+@main.command("rules")
+def rules_command() -> None:
+    """List the rules: id, default severity, title."""
+    from drivelint.checks.registry import registry
+
+    for rule in registry().values():
+        click.echo(f"{rule.id:<28} {rule.severity.label:<8} {rule.title}")
+
+
+@main.command("explain")
+@click.argument("rule_id")
+def explain_command(rule_id: str) -> None:
+    """Print a rule's card: what it checks, why, how, how to fix, options, references."""
+    from drivelint.checks.registry import registry
+    from drivelint.report.cards import card_text
+
+    rules = registry()
+    rule = rules.get(rule_id)
+    if rule is None:
+        click.echo(
+            f"drivelint: unknown rule '{rule_id}'; known rules: {', '.join(rules)}", err=True
+        )
+        sys.exit(EXIT_ERROR)
+    click.echo(card_text(rule))

@@ -16,6 +16,9 @@ from drivelint.limits import Limits
 from drivelint.netlist.reader import ReadOptions, read_deck
 
 if TYPE_CHECKING:
+    from collections.abc import Mapping
+
+    from drivelint.checks.runner import CheckResult, RuleSetting
     from drivelint.ratings.parts import PartsLibrary
     from drivelint.stages.model import DriveStage
 
@@ -95,3 +98,36 @@ def collect_paths(
         else:
             out.append(path)
     return out
+
+
+def check_path(
+    path: str | Path,
+    options: LoadOptions | None = None,
+    parts: tuple[Path, ...] = (),
+    settings: Mapping[str, RuleSetting] | None = None,
+) -> CheckResult:
+    """The whole job for one netlist: read, elaborate, recognise, check."""
+    from drivelint.checks.runner import check_circuit
+    from drivelint.stages.recognise import recognise
+
+    circuit = load_circuit(path, options)
+    library = parts_for(Path(path), parts)
+    stages = recognise(circuit, library)
+    return check_circuit(circuit, stages, library, settings)
+
+
+def check_text(
+    text: str,
+    path: str = "deck.cir",
+    parts: PartsLibrary | None = None,
+    settings: Mapping[str, RuleSetting] | None = None,
+    options: LoadOptions | None = None,
+) -> CheckResult:
+    """The whole job on netlist text (tests and tools): no files needed."""
+    from drivelint.checks.runner import check_circuit
+    from drivelint.ratings.parts import PartsLibrary as Library
+    from drivelint.stages.recognise import recognise
+
+    circuit = load_circuit(path, options, text=text)
+    library = parts or Library()
+    return check_circuit(circuit, recognise(circuit, library), library, settings)

@@ -208,6 +208,7 @@ class _Elaborator:
             files=self.deck.files,
             diagnostics=(*self.deck.diagnostics, *self.diagnostics),
             sources=self.deck.sources,
+            directives=self.deck.directives,
         )
 
     def transient_settings(self, scope: Scope) -> object:

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 from drivelint.diagnostics import Diagnostic, Span
+from drivelint.netlist.statements import Directive
 
 if TYPE_CHECKING:
     import networkx
@@ -149,6 +150,7 @@ class Circuit:
     files: tuple[str, ...]
     diagnostics: tuple[Diagnostic, ...]
     sources: Mapping[str, tuple[str, ...]] = field(default_factory=dict)
+    directives: tuple[Directive, ...] = ()
     ground: str = GROUND
 
     def graph(self) -> networkx.MultiGraph[Any]:

@@ -6,6 +6,7 @@ not matter (as in SPICE) and each value is computed once per subcircuit instance
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass, field
 
@@ -103,7 +104,9 @@ class Scope:
 
         stripped = text.strip()
         number = parse_number(stripped)
-        if number is not None and _is_plain_number(stripped):
+        # A literal too large for a float (1e400) goes on to the expression compiler,
+        # which reports it: in braces or a .param, ngspice 39 refuses it as well.
+        if number is not None and math.isfinite(number) and _is_plain_number(stripped):
             return number
         try:
             expression = compile_expression(stripped, self.limits)
@@ -112,7 +115,7 @@ class Scope:
             offset = max(exc.offset, 0) + (len(text) - len(text.lstrip()))
             raise self.error(
                 Span(span.path, span.line, span.column + offset),
-                f"in expression '{stripped}': {exc.message}",
+                f"in expression '{_excerpt(stripped)}': {exc.message}",
             ) from None
 
     def number(self, item: Field) -> float:
@@ -129,6 +132,14 @@ class Scope:
         if isinstance(item, Group):
             raise self.error(item.span, "expected a number, found a parenthesised list")
         raise self.error(item.span, f"expected a number, found '{item.key}=…'")
+
+
+_EXCERPT_CHARS = 60
+
+
+def _excerpt(text: str) -> str:
+    """The expression as quoted in a message: a hostile 20 kB one is cut, the caret shows where."""
+    return text if len(text) <= _EXCERPT_CHARS else text[: _EXCERPT_CHARS - 1] + "…"
 
 
 _PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?[a-zA-Z]*")

@@ -1,0 +1,90 @@
+"""Findings, and what a check is given."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator, Mapping
+from dataclasses import dataclass, field
+
+from drivelint.checks.facts import StageFacts
+from drivelint.diagnostics import Severity, Span
+from drivelint.ratings.values import Value
+from drivelint.stages.model import DriveStage
+
+
+@dataclass(frozen=True, slots=True)
+class Finding:
+    """One problem with a design, with the numbers behind it and a fix."""
+
+    rule: str
+    severity: Severity
+    message: str
+    span: Span
+    switch: str
+    device: str
+    values: Mapping[str, Value]
+    fix: str
+    related: tuple[Span, ...] = ()
+    derivation: tuple[str, ...] = ()
+
+    def sort_key(self) -> tuple[str, int, int, str, str]:
+        return (self.span.path, self.span.line, self.span.column, self.rule, self.device)
+
+    def to_json(self) -> dict[str, object]:
+        return {
+            "rule": self.rule,
+            "severity": self.severity.label,
+            "path": self.span.path,
+            "line": self.span.line,
+            "column": self.span.column,
+            "message": self.message,
+            "device": self.device,
+            "switch": self.switch,
+            "values": {k: v.to_json() for k, v in sorted(self.values.items())},
+            "fix": self.fix,
+            "related": [
+                {"path": s.path, "line": s.line, "column": s.column} for s in self.related
+            ],
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class CheckContext:
+    """What a check gets besides the stage: the shared facts and its rule's settings."""
+
+    rule: str
+    severity: Severity
+    facts: StageFacts
+    options: Mapping[str, float] = field(default_factory=dict)
+
+    def finding(
+        self,
+        device: str,
+        message: str,
+        values: Mapping[str, Value],
+        fix: str,
+        derivation: tuple[str, ...] = (),
+        severity: Severity | None = None,
+    ) -> Finding:
+        """A finding on ``device``, with the other devices of the stage as related spans."""
+        facts = self.facts
+        stage = facts.stage
+        related = tuple(
+            sorted(
+                {facts.span_of(name) for name in (stage.switch, *stage.related) if name != device}
+            )
+        )
+        return Finding(
+            rule=self.rule,
+            severity=severity or self.severity,
+            message=message,
+            span=facts.span_of(device),
+            switch=stage.switch,
+            device=device,
+            values=dict(values),
+            fix=fix,
+            related=related,
+            derivation=derivation,
+        )
+
+
+Check = Callable[[DriveStage, CheckContext], Iterator[Finding]]

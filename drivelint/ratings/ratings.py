@@ -1,0 +1,87 @@
+"""Ratings of one device, by precedence: directive, parts library, model card, default.
+
+Every value carries its origin, so a finding can say where each input came from.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+from drivelint.circuit.model import Device
+from drivelint.ratings.directives import PART_KEYS, DirectiveSet
+from drivelint.ratings.parts import PartsLibrary
+from drivelint.ratings.units import UnitError, parse_quantity
+from drivelint.ratings.values import Value
+
+# Documented defaults, used when nothing else gives a value.
+DEFAULTS: Mapping[str, tuple[float, str]] = {
+    # Power MOSFETs are typically rated V_GS(max) = ±20 V (common practice).
+    "vgs_max": (20.0, "default: typical power MOSFET rating (common practice)"),
+    # R_DS(on) is usually specified at V_GS = 10 V (common practice).
+    "vgs_on": (10.0, "default: V_GS at which R_DS(on) is usually rated (common practice)"),
+    # A silicon junction conducts about 0.7 V (textbook).
+    "vf": (0.7, "default: silicon junction forward drop (common practice)"),
+}
+
+
+class RatingError(ValueError):
+    """A parts-library value that cannot be read; names the part and key."""
+
+
+@dataclass(frozen=True, slots=True)
+class Ratings:
+    parts: PartsLibrary
+    directives: DirectiveSet
+
+    def get(self, device: Device | None, key: str) -> Value | None:
+        """The rating ``key`` of ``device`` from the first source that has it."""
+        if device is None:
+            return None
+        unit = PART_KEYS[key]
+        given = self.directives.parts.get(device.name, {}).get(key)
+        if given is not None:
+            value, span = given
+            return Value(value, unit, f"directive ({span.path}:{span.line})")
+        part = self.parts.get(device.model_name)
+        if part is not None:
+            raw = part.raw(key)
+            if raw is not None:
+                try:
+                    number = parse_quantity(raw, unit)
+                except UnitError as exc:
+                    raise RatingError(f"{part.origin}: part.{part.name}.{key}: {exc}") from None
+                return Value(number, unit, f"{part.origin} (part {part.name} {key})")
+        return self.from_model(device, key)
+
+    def from_model(self, device: Device, key: str) -> Value | None:
+        model = device.model
+        if model is None:
+            return None
+        where = f"model {model.name} ({model.span.path}:{model.span.line})"
+        params = model.params
+        if device.kind == "diode":
+            if key in ("vrrm", "vz") and params.get("bv"):
+                return Value(params["bv"], "V", f"{where} BV")
+            if key == "trr" and params.get("tt"):
+                # The charge-control model stores TT·I_F; recovery lasts about TT when the
+                # reverse current equals the forward current (t_s = TT·ln 2 ≈ 0.7·TT), so TT is
+                # the estimate used (charge-control model, standard semiconductor texts).
+                return Value(params["tt"], "s", f"{where} TT (estimate)")
+            if key == "ir_leak" and params.get("is"):
+                return Value(params["is"], "A", f"{where} IS (reverse saturation, a lower bound)")
+        if device.kind == "mosfet":
+            if key == "vth" and "vto" in params:
+                return Value(abs(params["vto"]), "V", f"{where} VTO")
+        return None
+
+    def get_or_default(self, device: Device | None, key: str) -> Value | None:
+        found = self.get(device, key)
+        if found is not None:
+            return found
+        default = DEFAULTS.get(key)
+        return Value(default[0], PART_KEYS[key], default[1]) if default else None
+
+    def part_kind(self, device: Device | None) -> str | None:
+        part = self.parts.get(device.model_name) if device else None
+        return part.kind if part else None
