@@ -8,10 +8,14 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import click
 
 from drivelint import __version__
+
+if TYPE_CHECKING:
+    from drivelint.config import Config
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -104,29 +108,55 @@ def stages_command(
 @click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
 @click.option(
-    "--parts", "parts", multiple=True, type=click.Path(path_type=Path, dir_okay=False),
+    "--parts",
+    "parts",
+    multiple=True,
+    type=click.Path(path_type=Path, dir_okay=False),
     help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
 )
 @click.option("--explain", is_flag=True, help="Show each finding's inputs, origins and formula.")
 @click.option(
-    "--fail-on", type=click.Choice(["error", "warning", "note"]), default="warning",
-    show_default=True, help="The lowest severity that makes the exit code 1.",
+    "--fail-on",
+    type=click.Choice(["error", "warning", "note"]),
+    default=None,
+    help="The lowest severity that makes the exit code 1 (default: the config's, else warning).",
+)
+@click.option(
+    "--config",
+    "config_file",
+    type=click.Path(path_type=Path, dir_okay=False, exists=True),
+    help="Use this configuration file instead of discovering one.",
 )
 def check_command(
-    files: tuple[Path, ...], fmt: str, parts: tuple[Path, ...], explain: bool, fail_on: str
+    files: tuple[Path, ...],
+    fmt: str,
+    parts: tuple[Path, ...],
+    explain: bool,
+    fail_on: str | None,
+    config_file: Path | None,
 ) -> None:
     """Check the floating gate drives in netlists and report what will fail."""
     from drivelint.checks.registry import RuleError
+    from drivelint.config import ConfigError, find_config, load_config
     from drivelint.diagnostics import Severity
     from drivelint.pipeline import check_path, collect_paths
     from drivelint.ratings.parts import PartsError
     from drivelint.report.findings import results_json, results_text
 
     results = []
+    configs: dict[Path | None, Config] = {}
+    threshold = Severity.parse(fail_on) if fail_on else None
     try:
         for path in collect_paths(files):
-            results.append(check_path(path, parts=parts))
-    except (PartsError, RuleError) as exc:
+            where = config_file or find_config(path)
+            if where not in configs:
+                configs[where] = load_config(where)
+            config = configs[where]
+            if config.excluded(path):
+                continue
+            threshold = threshold or config.fail_on
+            results.append(check_path(path, config, parts))
+    except (PartsError, RuleError, ConfigError) as exc:
         click.echo(f"drivelint: {exc}", err=True)
         sys.exit(EXIT_ERROR)
     if fmt == "json":
@@ -135,7 +165,7 @@ def check_command(
         click.echo(json.dumps(results_json(results), indent=2))
     else:
         click.echo(results_text(results, explain))
-    threshold = Severity.parse(fail_on)
+    threshold = threshold or Severity.WARNING
     if any(d.severity is Severity.ERROR for r in results for d in r.diagnostics):
         sys.exit(EXIT_ERROR)
     if any(f.severity >= threshold for r in results for f in r.findings):
@@ -167,3 +197,24 @@ def explain_command(rule_id: str) -> None:
         )
         sys.exit(EXIT_ERROR)
     click.echo(card_text(rule))
+
+
+@main.command("config")
+@click.argument("path", type=click.Path(path_type=Path), default=Path("."))
+@click.option(
+    "--config",
+    "config_file",
+    type=click.Path(path_type=Path, dir_okay=False, exists=True),
+    help="Show this configuration file instead of the one discovered for PATH.",
+)
+def config_command(path: Path, config_file: Path | None) -> None:
+    """Print the effective configuration for PATH and where each value came from."""
+    from drivelint.config import ConfigError, describe, find_config, load_config
+
+    where = config_file or find_config(path)
+    try:
+        config = load_config(where)
+    except ConfigError as exc:
+        click.echo(f"drivelint: {exc}", err=True)
+        sys.exit(EXIT_ERROR)
+    click.echo(describe(config))

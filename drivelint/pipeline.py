@@ -19,6 +19,7 @@ if TYPE_CHECKING:
     from collections.abc import Mapping
 
     from drivelint.checks.runner import CheckResult, RuleSetting
+    from drivelint.config import Config
     from drivelint.ratings.parts import PartsLibrary
     from drivelint.stages.model import DriveStage
 
@@ -100,20 +101,44 @@ def collect_paths(
     return out
 
 
+def options_from(config: Config) -> LoadOptions:
+    return LoadOptions(
+        root=config.root,
+        allow_outside_root=config.allow_outside_root,
+        search_path=config.include_paths,
+        ground_aliases=config.ground,
+        limits=config.limits,
+    )
+
+
 def check_path(
     path: str | Path,
-    options: LoadOptions | None = None,
+    config: Config | None = None,
     parts: tuple[Path, ...] = (),
-    settings: Mapping[str, RuleSetting] | None = None,
+    text: str | None = None,
 ) -> CheckResult:
-    """The whole job for one netlist: read, elaborate, recognise, check."""
+    """The whole job for one netlist: read, elaborate, recognise, check.
+
+    ``config`` None means: discover it by walking up from ``path``.
+    """
     from drivelint.checks.runner import check_circuit
+    from drivelint.config import find_config, load_config
+    from drivelint.ratings.values import Value
     from drivelint.stages.recognise import recognise
 
-    circuit = load_circuit(path, options)
-    library = parts_for(Path(path), parts)
+    target = Path(path)
+    if config is None:
+        config = load_config(find_config(target))
+    circuit = load_circuit(target, options_from(config), text=text)
+    library = parts_for(target, (*config.parts, *parts))
     stages = recognise(circuit, library)
-    return check_circuit(circuit, stages, library, settings)
+    from drivelint.ratings.directives import CONDITION_KEYS
+
+    conditions = {
+        key: Value(value, CONDITION_KEYS[key], origin)
+        for key, (value, origin) in config.conditions_for_file(target).items()
+    }
+    return check_circuit(circuit, stages, library, config.rules, conditions)
 
 
 def check_text(

@@ -41,9 +41,7 @@ class Finding:
             "switch": self.switch,
             "values": {k: v.to_json() for k, v in sorted(self.values.items())},
             "fix": self.fix,
-            "related": [
-                {"path": s.path, "line": s.line, "column": s.column} for s in self.related
-            ],
+            "related": [{"path": s.path, "line": s.line, "column": s.column} for s in self.related],
         }
 
 

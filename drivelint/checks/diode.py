@@ -47,7 +47,8 @@ def check_diode_voltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
     yield ctx.finding(
         diode.name,
         f"{diode.name} blocks {format_si(v_reverse, 'V')} while {stage.switch} is on, "
-        f"above {format_si(limit, 'V')} ({factor:.0%} of its {format_si(rating.value, 'V')} rating)",
+        f"above {format_si(limit, 'V')} "
+        f"({factor:.0%} of its {format_si(rating.value, 'V')} rating)",
         values,
         fix=f"use a bootstrap diode rated at least {format_si(needed, 'V')} "
         f"(so that {format_si(v_reverse, 'V')} is within {factor:.0%} of its rating)",

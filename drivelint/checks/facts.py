@@ -94,8 +94,13 @@ class StageFacts:
         given = self.directives.conditions.get(key)
         if given is not None:
             value, span = given
-            unit = {"fsw": "Hz", "duty_max": "1", "on_time_max": "s", "ambient": "K",
-                    "load_current": "A"}.get(key, "V")
+            unit = {
+                "fsw": "Hz",
+                "duty_max": "1",
+                "on_time_max": "s",
+                "ambient": "K",
+                "load_current": "A",
+            }.get(key, "V")
             return Value(value, unit, f"directive ({span.path}:{span.line})")
         return self.configured.get(key)
 
@@ -180,9 +185,7 @@ class StageFacts:
         """The shortest off-time per cycle, when the control is periodic."""
         if self.fsw is None or self.duty_max is None:
             return None
-        return Value(
-            (1 - self.duty_max.value) / self.fsw.value, "s", "computed: (1 − D)/f_sw"
-        )
+        return Value((1 - self.duty_max.value) / self.fsw.value, "s", "computed: (1 − D)/f_sw")
 
     # -- the floating supply --------------------------------------------------------------
 
@@ -197,7 +200,8 @@ class StageFacts:
             drop = diode_physics.forward_voltage(DIODE_VF_CURRENT, model.params["is"], n)
             drop += DIODE_VF_CURRENT * model.params.get("rs", 0.0)
             return Value(
-                drop, "V",
+                drop,
+                "V",
                 f"model {model.name} IS/N/RS at {DIODE_VF_CURRENT:g} A "
                 f"({model.span.path}:{model.span.line})",
             )
@@ -271,7 +275,8 @@ class StageFacts:
             return None
         charge = gate_physics.gate_charge_estimate(c_gs, c_gd, drive, bus) * multiplier
         return Value(
-            charge, "C",
+            charge,
+            "C",
             f"estimate from model {model.name} capacitances: C_gs·V_drive + C_gd·(V_bus + V_drive)",
         )
 
@@ -342,7 +347,8 @@ class StageFacts:
                 Drain(
                     names,
                     Value(current, "A", f"computed: through {names}"),
-                    f"{names} from {'/'.join(sorted(start))} to {far if not chain else 'a lower net'}",
+                    f"{names} from {'/'.join(sorted(start))} "
+                    f"to {far if not chain else 'a lower net'}",
                 )
             )
         return tuple(out)
@@ -353,8 +359,7 @@ class StageFacts:
         if known is not None:
             return known, 0.0, set()
         others = [
-            d for d in self.by_net.get(net, ())
-            if d is not via and d.kind == "resistor" and d.value
+            d for d in self.by_net.get(net, ()) if d is not via and d.kind == "resistor" and d.value
         ]
         for other in others:
             far = next((n for n in other.nets if n != net), None)

@@ -58,24 +58,31 @@ def check_circuit(
             if not setting.enabled:
                 continue
             context = CheckContext(
-                rule.id, setting.severity or rule.severity, facts, rule.option_values(setting.options)
+                rule.id,
+                setting.severity or rule.severity,
+                facts,
+                rule.option_values(setting.options),
             )
             try:
                 produced = list(rule.check(stage, context))
             except RatingError as exc:
                 diagnostics.append(
-                    Diagnostic(Severity.ERROR, stage.span, str(exc), circuit.line_text(stage.span), "parts")
+                    Diagnostic(
+                        Severity.ERROR, stage.span, str(exc), circuit.line_text(stage.span), "parts"
+                    )
                 )
                 continue
             except Exception as exc:  # a bug in a rule must not lose the rest of the run
                 where = traceback.extract_tb(exc.__traceback__)[-1]
                 diagnostics.append(
                     Diagnostic(
-                        Severity.ERROR, stage.span,
+                        Severity.ERROR,
+                        stage.span,
                         f"internal error in rule {rule.id} on {stage.switch}: "
                         f"{type(exc).__name__}: {exc} ({where.filename}:{where.lineno}); "
                         "please report it",
-                        circuit.line_text(stage.span), "internal-error",
+                        circuit.line_text(stage.span),
+                        "internal-error",
                     )
                 )
                 continue
@@ -86,9 +93,12 @@ def check_circuit(
     for acceptance in unused:
         diagnostics.append(
             Diagnostic(
-                Severity.WARNING, acceptance.span,
+                Severity.WARNING,
+                acceptance.span,
                 f"'accept {acceptance.rule} {acceptance.device}' matches no finding; "
-                "remove the stale acceptance", circuit.line_text(acceptance.span), "directive",
+                "remove the stale acceptance",
+                circuit.line_text(acceptance.span),
+                "directive",
             )
         )
     return CheckResult(
@@ -128,4 +138,3 @@ def _apply_acceptances(
             accepted.append(finding)
     unused = [a for index, a in enumerate(directives.accepts) if index not in used]
     return kept, accepted, unused
-

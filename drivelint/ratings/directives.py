@@ -20,15 +20,42 @@ from drivelint.netlist.statements import Directive
 
 # Keys a `part` directive may set, with their units (the parts library uses the same keys).
 PART_KEYS: Mapping[str, str] = {
-    "vds_max": "V", "vgs_max": "V", "vgs_min": "V", "qg": "C", "vgs_qg": "V", "qgd": "C",
-    "rds_on": "Ohm", "vgs_plateau": "V", "vgs_on": "V", "vth": "V", "rg_internal": "Ohm",
-    "rth_ja": "K/W", "tj_max": "K", "vceo_max": "V", "vrrm": "V", "trr": "s", "qrr": "C",
-    "ir_leak": "A", "vf": "V", "vz": "V", "iq_boot": "A", "uvlo_boot": "V",
-    "q_levelshift": "C", "i_source": "A", "i_sink": "A", "v_max": "V", "c": "F",
+    "vds_max": "V",
+    "vgs_max": "V",
+    "vgs_min": "V",
+    "qg": "C",
+    "vgs_qg": "V",
+    "qgd": "C",
+    "rds_on": "Ohm",
+    "vgs_plateau": "V",
+    "vgs_on": "V",
+    "vth": "V",
+    "rg_internal": "Ohm",
+    "rth_ja": "K/W",
+    "tj_max": "K",
+    "vceo_max": "V",
+    "vrrm": "V",
+    "trr": "s",
+    "qrr": "C",
+    "ir_leak": "A",
+    "vf": "V",
+    "vz": "V",
+    "iq_boot": "A",
+    "uvlo_boot": "V",
+    "q_levelshift": "C",
+    "i_source": "A",
+    "i_sink": "A",
+    "v_max": "V",
+    "c": "F",
 }
 CONDITION_KEYS: Mapping[str, str] = {
-    "fsw": "Hz", "duty_max": "1", "on_time_max": "s", "v_bus": "V", "v_aux": "V",
-    "ambient": "K", "load_current": "A",
+    "fsw": "Hz",
+    "duty_max": "1",
+    "on_time_max": "s",
+    "v_bus": "V",
+    "v_aux": "V",
+    "ambient": "K",
+    "load_current": "A",
 }
 _CELSIUS_KEYS = frozenset({"tj_max", "ambient"})
 
@@ -114,7 +141,8 @@ def parse_directives(
                     continue
                 if key not in allowed:
                     problem(
-                        directive, offset,
+                        directive,
+                        offset,
                         f"unknown key '{key}' for '{verb}'; expected one of "
                         + ", ".join(sorted(allowed)),
                     )
@@ -125,6 +153,9 @@ def parse_directives(
                     continue
                 target[key] = (value, directive.span)
         else:
-            problem(directive, 0, f"unknown directive '{words[0]}': expected 'part', "
-                    "'conditions' or 'accept'")
+            problem(
+                directive,
+                0,
+                f"unknown directive '{words[0]}': expected 'part', 'conditions' or 'accept'",
+            )
     return DirectiveSet(parts, conditions, tuple(accepts), tuple(problems))

@@ -14,9 +14,7 @@ JSON_VERSION = 1
 
 
 def finding_text(finding: Finding, explain: bool = False) -> str:
-    lines = [
-        f"{finding.span}: {finding.severity.label}: {finding.message} [{finding.rule}]"
-    ]
+    lines = [f"{finding.span}: {finding.severity.label}: {finding.message} [{finding.rule}]"]
     if explain:
         lines.append(f"    switch: {finding.switch}")
         for name, value in sorted(finding.values.items()):

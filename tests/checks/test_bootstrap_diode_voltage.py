@@ -26,7 +26,11 @@ VGL gl 0 PULSE(12 0 0 10n 10n 21u 50u)
 
 
 def findings(bv: float, **parts: str):
-    library = PartsLibrary({"dboot": Part("dboot", "diode", parts, {}, "parts.toml:1")}) if parts else None
+    library = (
+        PartsLibrary({"dboot": Part("dboot", "diode", parts, {}, "parts.toml:1")})
+        if parts
+        else None
+    )
     result = check_text(STAGE.replace("{bv}", str(bv)), parts=library)
     return [f for f in result.findings if f.rule == "bootstrap-diode-voltage"]
 
@@ -65,8 +69,12 @@ def test_example_boot_diode_under_rated_for_the_bus() -> None:
 
 @pytest.mark.parametrize(
     "example",
-    ["lev48_phase_leg_npn_shifter.cir", "induction325_half_bridge_driver.cir",
-     "heater96v_isolated_supply.cir", "buck12v_5v_400k_sync.cir"],
+    [
+        "lev48_phase_leg_npn_shifter.cir",
+        "induction325_half_bridge_driver.cir",
+        "heater96v_isolated_supply.cir",
+        "buck12v_5v_400k_sync.cir",
+    ],
 )
 def test_examples_with_adequate_diodes_are_quiet(example: str) -> None:
     result = check_path(f"examples/{example}")

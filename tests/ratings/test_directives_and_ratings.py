@@ -35,7 +35,9 @@ def test_part_conditions_and_accept_directives() -> None:
     assert parsed.conditions["ambient"][0] == pytest.approx(313.15)  # °C in, kelvin kept
     (accept,) = parsed.accepts
     assert (accept.rule, accept.device, accept.reason) == (
-        "dc-hold", "m1", "charge pump fitted on the real board",
+        "dc-hold",
+        "m1",
+        "charge pump fitted on the real board",
     )
 
 
@@ -62,8 +64,14 @@ def test_malformed_directives_are_diagnostics(text: str, message: str, column: i
 
 
 def _device(model: Model | None, name: str = "d1") -> Device:
-    return Device(name, "diode", (("a", "x"), ("k", "y")), Span("deck.cir", 9), model=model,
-                  model_name=model.name if model else None)
+    return Device(
+        name,
+        "diode",
+        (("a", "x"), ("k", "y")),
+        Span("deck.cir", 9),
+        model=model,
+        model_name=model.name if model else None,
+    )
 
 
 def test_rating_precedence_directive_parts_model_default() -> None:
@@ -89,10 +97,18 @@ def test_rating_precedence_directive_parts_model_default() -> None:
 @pytest.mark.parametrize(
     "text, unit, expected",
     [
-        ("38 nC", "C", 38e-9), ("20 V", "V", 20.0), ("9 mOhm", "Ohm", 9e-3),
-        ("62 K/W", "K/W", 62.0), ("175 degC", "K", 448.15), ("30 ns", "s", 30e-9),
-        ("0.29 A", "A", 0.29), ("120 uA", "A", 120e-6), ("100 kHz", "Hz", 1e5),
-        ("4.7 uF", "F", 4.7e-6), ("2 microfarad", "F", 2e-6), (12, "V", 12.0),
+        ("38 nC", "C", 38e-9),
+        ("20 V", "V", 20.0),
+        ("9 mOhm", "Ohm", 9e-3),
+        ("62 K/W", "K/W", 62.0),
+        ("175 degC", "K", 448.15),
+        ("30 ns", "s", 30e-9),
+        ("0.29 A", "A", 0.29),
+        ("120 uA", "A", 120e-6),
+        ("100 kHz", "Hz", 1e5),
+        ("4.7 uF", "F", 4.7e-6),
+        ("2 microfarad", "F", 2e-6),
+        (12, "V", 12.0),
         ("1.2 kV", "V", 1200.0),
     ],
 )
@@ -121,7 +137,9 @@ def test_parts_file_errors_name_file_and_key(tmp_path) -> None:  # type: ignore[
 
 
 def test_examples_parts_file_loads_with_units() -> None:
-    library = load_parts(__import__("pathlib").Path(__file__).resolve().parents[2] / "examples" / "parts.toml")
+    library = load_parts(
+        __import__("pathlib").Path(__file__).resolve().parents[2] / "examples" / "parts.toml"
+    )
     for part in library.parts.values():
         for key, raw in part.values.items():
             from drivelint.ratings.directives import PART_KEYS
