@@ -8,14 +8,10 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
-from typing import TYPE_CHECKING
 
 import click
 
 from drivelint import __version__
-
-if TYPE_CHECKING:
-    from drivelint.config import Config
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -104,9 +100,60 @@ def stages_command(
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
 
 
+def _expand(paths: tuple[str, ...], suffixes: tuple[str, ...]) -> tuple[list[Path], bool]:
+    """Files, folders (recursively, by suffix) and glob patterns; and whether '-' was given."""
+    import glob
+
+    from drivelint.pipeline import collect_paths
+
+    out: list[Path] = []
+    stdin = False
+    for raw in paths:
+        if raw == "-":
+            stdin = True
+        elif not Path(raw).exists() and any(c in raw for c in "*?["):
+            matches = sorted(glob.glob(raw, recursive=True))
+            if not matches:
+                raise click.UsageError(f"no file matches '{raw}'")
+            out.extend(collect_paths(tuple(Path(m) for m in matches), suffixes))
+        else:
+            out.extend(collect_paths((Path(raw),), suffixes))
+    return out, stdin
+
+
+def _write_output(text: str, output: Path | None) -> None:
+    """Print, or write ``output`` atomically: a temporary file, then a rename."""
+    if output is None:
+        click.echo(text)
+        return
+    import os
+    import tempfile
+
+    folder = output.resolve().parent
+    fd, temporary = tempfile.mkstemp(dir=folder, prefix=f".{output.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as handle:
+            handle.write(text if text.endswith("\n") else text + "\n")
+        os.replace(temporary, output)
+    except BaseException:
+        Path(temporary).unlink(missing_ok=True)
+        raise
+
+
 @main.command("check")
-@click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
-@click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
+@click.argument("paths", nargs=-1, required=True)
+@click.option(
+    "--format",
+    "fmt",
+    default="text",
+    show_default=True,
+    type=click.Choice(["text", "json", "sarif", "junit", "github", "html"]),
+)
+@click.option(
+    "--output",
+    type=click.Path(path_type=Path, dir_okay=False),
+    help="Write the report here (atomically).",
+)
 @click.option(
     "--parts",
     "parts",
@@ -122,53 +169,119 @@ def stages_command(
     help="The lowest severity that makes the exit code 1 (default: the config's, else warning).",
 )
 @click.option(
+    "--exit-zero", is_flag=True, help="Exit 0 even with findings (usage errors still exit 2)."
+)
+@click.option("--strict", is_flag=True, help="Exit 2 when any file could not be checked.")
+@click.option(
     "--config",
     "config_file",
     type=click.Path(path_type=Path, dir_okay=False, exists=True),
-    help="Use this configuration file instead of discovering one.",
+    help="Use this configuration file instead of discovering one per file.",
 )
+@click.option(
+    "--jobs",
+    "-j",
+    type=click.IntRange(min=1),
+    default=None,
+    help="Worker processes (default: cores).",
+)
+@click.option("--no-cache", is_flag=True, help="Neither read nor write the result cache.")
+@click.option("--shard", default=None, metavar="I/N", help="Check only slice I of N (1-based).")
+@click.option(
+    "--stdin-name", default="stdin.cir", show_default=True, help="Name for '-' (standard input)."
+)
+@click.option("--no-color", is_flag=True, help="Plain text even on a terminal.")
 def check_command(
-    files: tuple[Path, ...],
+    paths: tuple[str, ...],
     fmt: str,
+    output: Path | None,
     parts: tuple[Path, ...],
     explain: bool,
     fail_on: str | None,
+    exit_zero: bool,
+    strict: bool,
     config_file: Path | None,
+    jobs: int | None,
+    no_cache: bool,
+    shard: str | None,
+    stdin_name: str,
+    no_color: bool,
 ) -> None:
-    """Check the floating gate drives in netlists and report what will fail."""
-    from drivelint.checks.registry import RuleError
-    from drivelint.config import ConfigError, find_config, load_config
-    from drivelint.diagnostics import Severity
-    from drivelint.pipeline import check_path, collect_paths
-    from drivelint.ratings.parts import PartsError
-    from drivelint.report.findings import results_json, results_text
+    """Check the floating gate drives in netlists and report what will fail.
 
-    results = []
-    configs: dict[Path | None, Config] = {}
-    threshold = Severity.parse(fail_on) if fail_on else None
+    PATHS are netlists, folders (searched for .cir .net .sp .spi .spice .ckt), glob
+    patterns, or - for standard input. Exit 0: nothing at or above the failing severity;
+    1: findings (or a file that could not be checked); 2: usage or configuration errors
+    (and, with --strict, any file that could not be checked).
+    """
+    import os
+
+    from drivelint.batch import BatchOptions, default_cache_dir, plan, run_batch, select_shard
+    from drivelint.checks.registry import RuleError
+    from drivelint.config import DEFAULT_SUFFIXES, ConfigError, load_config
+    from drivelint.diagnostics import Severity
+    from drivelint.ratings.parts import PartsError
+    from drivelint.report.formats import ReportOptions, formatter
+
     try:
-        for path in collect_paths(files):
-            where = config_file or find_config(path)
-            if where not in configs:
-                configs[where] = load_config(where)
-            config = configs[where]
-            if config.excluded(path):
-                continue
-            threshold = threshold or config.fail_on
-            results.append(check_path(path, config, parts))
+        suffixes = load_config(config_file).suffixes if config_file else DEFAULT_SUFFIXES
+    except ConfigError as exc:
+        click.echo(f"drivelint: {exc}", err=True)
+        sys.exit(EXIT_ERROR)
+    files, use_stdin = _expand(paths, suffixes)
+    if shard is not None:
+        try:
+            index, count = (int(x) for x in shard.split("/"))
+            if not 1 <= index <= count:
+                raise ValueError
+        except ValueError:
+            raise click.BadParameter(
+                "expected I/N with 1 <= I <= N", param_hint="--shard"
+            ) from None
+        files = select_shard(files, index, count)
+    options = BatchOptions(
+        jobs=jobs or os.cpu_count() or 1,
+        cache_dir=None if no_cache else default_cache_dir(),
+        config_file=config_file,
+        parts=parts,
+    )
+    stdin = (stdin_name, click.get_text_stream("stdin").read()) if use_stdin else None
+    try:
+        planned = plan(files, options, stdin)
+        show_progress = (
+            len(planned) > 5 and sys.stderr.isatty() and fmt == "text" and output is None
+        )
+        if show_progress:
+            with click.progressbar(length=len(planned), label="checking", file=sys.stderr) as bar:
+                results, stats = run_batch(planned, options, bar.update)
+        else:
+            results, stats = run_batch(planned, options)
     except (PartsError, RuleError, ConfigError) as exc:
         click.echo(f"drivelint: {exc}", err=True)
         sys.exit(EXIT_ERROR)
-    if fmt == "json":
-        import json
+    color = (
+        fmt == "text"
+        and output is None
+        and not no_color
+        and "NO_COLOR" not in os.environ
+        and sys.stdout.isatty()
+    )
+    report = formatter(fmt)(results, ReportOptions(explain=explain, color=color))
+    _write_output(report, output)
+    if fmt != "text" or output is not None:
+        from drivelint.report.findings import summary_text
 
-        click.echo(json.dumps(results_json(results), indent=2))
+        click.echo(summary_text(results, stats), err=True)
+    if fail_on:
+        threshold = Severity.parse(fail_on)
     else:
-        click.echo(results_text(results, explain))
-    threshold = threshold or Severity.WARNING
-    if any(d.severity is Severity.ERROR for r in results for d in r.diagnostics):
+        configured = {job.config.fail_on for job in planned}
+        threshold = min(configured) if configured else Severity.WARNING
+    if strict and stats.failed:
         sys.exit(EXIT_ERROR)
-    if any(f.severity >= threshold for r in results for f in r.findings):
+    if exit_zero:
+        sys.exit(EXIT_OK)
+    if stats.failed or any(f.severity >= threshold for r in results for f in r.findings):
         sys.exit(EXIT_FINDINGS)
     sys.exit(EXIT_OK)
 

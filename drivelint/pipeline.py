@@ -6,6 +6,7 @@ bounds and elaborates a netlist the same way.
 
 from __future__ import annotations
 
+from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -24,6 +25,9 @@ if TYPE_CHECKING:
     from drivelint.stages.model import DriveStage
 
 ROOT_MARKERS = ("drivelint.toml", "pyproject.toml", ".git")
+
+# Netlists read by this process, by path: lets tests see that the cache avoided a read.
+READS: Counter[str] = Counter()
 
 
 @dataclass(frozen=True, slots=True)
@@ -52,6 +56,7 @@ def load_circuit(
     from drivelint._gc import paused_gc
 
     options = options or LoadOptions()
+    READS[str(path)] += 1
     root = options.root or find_project_root(Path(path))
     read = ReadOptions(
         root=root,

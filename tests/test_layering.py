@@ -19,7 +19,7 @@ RANKS = {
     "stages": 3,
     "checks": 4,
     "report": 5,
-    "pipeline": 6, "config": 6,
+    "pipeline": 6, "config": 6, "batch": 6,
     "cli": 7,
     "__main__": 7,
     "__init__": 7,

@@ -3,18 +3,36 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from drivelint import __version__
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
 from drivelint.diagnostics import Severity
 
+if TYPE_CHECKING:
+    from drivelint.batch import BatchStats
+    from drivelint.report.formats import ReportOptions
+
 JSON_VERSION = 1
 
 
-def finding_text(finding: Finding, explain: bool = False) -> str:
-    lines = [f"{finding.span}: {finding.severity.label}: {finding.message} [{finding.rule}]"]
+_COLORS = {Severity.ERROR: "red", Severity.WARNING: "yellow", Severity.NOTE: "cyan"}
+
+
+def finding_text(
+    finding: Finding, explain: bool = False, color: bool = False, source_line: str = ""
+) -> str:
+    label = finding.severity.label
+    if color:
+        import click
+
+        label = click.style(label, fg=_COLORS[finding.severity], bold=True)
+    lines = [f"{finding.span}: {label}: {finding.message} [{finding.rule}]"]
+    if source_line:
+        text = source_line.rstrip().expandtabs(1)
+        lines.append(f"    {text}")
+        lines.append("    " + " " * (finding.span.column - 1) + "^")
     if explain:
         lines.append(f"    switch: {finding.switch}")
         for name, value in sorted(finding.values.items()):
@@ -25,20 +43,52 @@ def finding_text(finding: Finding, explain: bool = False) -> str:
     return "\n".join(lines)
 
 
-def results_text(results: Sequence[CheckResult], explain: bool = False) -> str:
+def results_text(results: Sequence[CheckResult], explain: bool = False, color: bool = False) -> str:
     blocks: list[str] = []
     for result in results:
         for diagnostic in result.diagnostics:
             if diagnostic.severity >= Severity.WARNING:
                 blocks.append(diagnostic.render())
-        blocks.extend(finding_text(f, explain) for f in result.findings)
-    findings = sum(len(r.findings) for r in results)
-    stages = sum(sum(1 for s in r.stages if s.floating) for r in results)
-    blocks.append(
-        f"{len(results)} file{'s' * (len(results) != 1)}, {stages} floating "
-        f"stage{'s' * (stages != 1)}, {findings} finding{'s' * (findings != 1)}"
-    )
+        for finding in result.findings:
+            source = result.circuit.line_text(finding.span) if color else ""
+            blocks.append(finding_text(finding, explain, color, source))
+    blocks.append(summary_text(results))
     return "\n".join(blocks)
+
+
+def summary_text(results: Sequence[CheckResult], stats: BatchStats | None = None) -> str:
+    """Files, stages, findings by rule and severity, files that could not be checked."""
+    from collections import Counter
+
+    findings = [f for r in results for f in r.findings]
+    stages = sum(sum(1 for s in r.stages if s.floating) for r in results)
+    files = len(results)
+    head = f"{files} file{'s' * (files != 1)}"
+    if stats is not None and stats.from_cache:
+        head += f" ({stats.from_cache} from cache)"
+    head += f", {stages} floating stage{'s' * (stages != 1)}, "
+    head += f"{len(findings)} finding{'s' * (len(findings) != 1)}"
+    by_severity = Counter(f.severity for f in findings)
+    if findings:
+        head += (
+            " ("
+            + ", ".join(f"{by_severity[s]} {s.label}" for s in sorted(by_severity, reverse=True))
+            + ")"
+        )
+    lines = [head]
+    by_rule = Counter(f.rule for f in findings)
+    for rule, count in sorted(by_rule.items()):
+        lines.append(f"  {rule}: {count}")
+    failed = [
+        r.circuit.path for r in results if any(d.severity is Severity.ERROR for d in r.diagnostics)
+    ]
+    if failed:
+        lines.append(
+            f"  files with errors: {len(failed)} ({', '.join(failed[:5])}"
+            + (", …" if len(failed) > 5 else "")
+            + ")"
+        )
+    return "\n".join(lines)
 
 
 def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:
@@ -61,3 +111,13 @@ def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:
         "files": files,
         "findings": [f.to_json() for f in sorted(findings, key=Finding.sort_key)],
     }
+
+
+def format_text(results: Sequence[CheckResult], options: ReportOptions) -> str:
+    return results_text(results, options.explain, options.color)
+
+
+def format_json(results: Sequence[CheckResult], options: ReportOptions) -> str:
+    import json
+
+    return json.dumps(results_json(results), indent=2, sort_keys=True)

@@ -46,7 +46,7 @@ def test_rule_table_changes_severity_and_options(tmp_path: Path) -> None:
     result = CliRunner().invoke(main, ["check", str(root / "designs"), "--format", "json"])
     import json
 
-    payload = json.loads(result.output)
+    payload = json.loads(result.stdout)
     found = [f for f in payload["findings"] if f["rule"] == "bootstrap-diode-voltage"]
     assert found and {f["severity"] for f in found} == {"warning"}
     assert {f["values"]["derating"]["value"] for f in found} == {0.5}

@@ -1,0 +1,249 @@
+"""Checking many netlists: a process pool, per-file isolation, a content-hash cache, shards.
+
+Each file is checked on its own: a rule that crashes or a file that runs past the time
+bound becomes a diagnostic for that file, and the batch goes on. Results come back in
+the order of the input list whatever the number of workers, so output is deterministic.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import pickle
+import signal
+import tempfile
+from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import ProcessPoolExecutor
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from drivelint import __version__
+from drivelint.checks.runner import CheckResult
+from drivelint.circuit.model import Circuit
+from drivelint.config import Config, find_config, load_config
+from drivelint.diagnostics import Diagnostic, Severity, Span
+
+CACHE_FORMAT = 1
+DEFAULT_SECONDS_PER_FILE = 60.0
+
+
+@dataclass(frozen=True, slots=True)
+class BatchOptions:
+    jobs: int = 1
+    cache_dir: Path | None = None  # None: no cache
+    config_file: Path | None = None  # None: discovered per file
+    parts: tuple[Path, ...] = ()
+    seconds_per_file: float = DEFAULT_SECONDS_PER_FILE
+
+
+@dataclass(frozen=True, slots=True)
+class Job:
+    path: Path
+    config: Config
+    text: str | None = None  # standard input
+
+
+@dataclass(slots=True)
+class BatchStats:
+    files: int = 0
+    from_cache: int = 0
+    failed: list[str] = field(default_factory=list)
+
+
+def default_cache_dir() -> Path:
+    """The user cache directory (XDG base directory convention), drivelint's folder in it."""
+    base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
+    return Path(base) / "drivelint"
+
+
+def shard_of(path: Path, count: int) -> int:
+    """A stable shard number in 0..count-1 for a path (by its POSIX form)."""
+    digest = hashlib.sha256(path.as_posix().encode("utf-8")).digest()
+    return int.from_bytes(digest[:8], "big") % count
+
+
+def select_shard(paths: Sequence[Path], index: int, count: int) -> list[Path]:
+    """The ``index``-th (1-based) of ``count`` slices; the slices cover ``paths`` exactly once."""
+    return [p for p in paths if shard_of(p, count) == index - 1]
+
+
+def plan(
+    paths: Sequence[Path], options: BatchOptions, stdin: tuple[str, str] | None = None
+) -> list[Job]:
+    """One job per file not excluded by its configuration; configurations read once."""
+    configs: dict[Path | None, Config] = {}
+
+    def config_for(path: Path) -> Config:
+        where = options.config_file or find_config(path)
+        if where not in configs:
+            configs[where] = load_config(where)
+        return configs[where]
+
+    jobs = [Job(p, config_for(p)) for p in paths if not config_for(p).excluded(p)]
+    if stdin is not None:
+        name, text = stdin
+        jobs.append(Job(Path(name), config_for(Path(name)), text))
+    return jobs
+
+
+class _TimeLimit(Exception):
+    pass
+
+
+@contextmanager
+def _time_limit(seconds: float) -> Iterator[None]:
+    """Interrupt the work after ``seconds`` (POSIX interval timer; main thread only)."""
+    if seconds <= 0 or not hasattr(signal, "setitimer"):
+        yield
+        return
+
+    def expire(signum: int, frame: object) -> None:
+        raise _TimeLimit
+
+    previous = signal.signal(signal.SIGALRM, expire)
+    signal.setitimer(signal.ITIMER_REAL, seconds)
+    try:
+        yield
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
+
+
+def _failure(path: Path, message: str, code: str) -> CheckResult:
+    span = Span(str(path), 1, 1)
+    diagnostic = Diagnostic(Severity.ERROR, span, message, "", code)
+    circuit = Circuit(str(path), "", {}, (), {}, {}, frozenset(), (), (diagnostic,))
+    return CheckResult(circuit, (), (), (diagnostic,))
+
+
+def check_job(job: Job, options: BatchOptions) -> CheckResult:
+    """Check one file; never raises for anything the file or a rule does."""
+    from drivelint.pipeline import check_path
+
+    try:
+        with _time_limit(options.seconds_per_file):
+            return check_path(job.path, job.config, options.parts, text=job.text)
+    except _TimeLimit:
+        return _failure(
+            job.path,
+            f"checking took longer than {options.seconds_per_file:g} s (limit seconds_per_file); "
+            "file skipped",
+            "limit",
+        )
+    except RecursionError:
+        return _failure(job.path, "input nested too deeply to check (recursion limit)", "limit")
+    except MemoryError:
+        return _failure(job.path, "ran out of memory checking this file", "limit")
+    except Exception as exc:  # a bug must cost one file, not the batch
+        import traceback
+
+        where = traceback.extract_tb(exc.__traceback__)[-1]
+        return _failure(
+            job.path,
+            f"internal error: {type(exc).__name__}: {exc} ({Path(where.filename).name}:"
+            f"{where.lineno}); please report it",
+            "internal-error",
+        )
+
+
+# -- the cache ------------------------------------------------------------------------------
+
+
+def _digest(*parts: bytes) -> str:
+    h = hashlib.sha256()
+    for part in parts:
+        h.update(len(part).to_bytes(8, "big"))
+        h.update(part)
+    return h.hexdigest()
+
+
+def _file_digest(path: Path) -> str:
+    try:
+        return _digest(path.read_bytes())
+    except OSError:
+        return "missing"
+
+
+def _config_digest(job: Job, options: BatchOptions) -> bytes:
+    config = job.config
+    text = b""
+    if config.path is not None:
+        text = config.path.read_bytes() if config.path.is_file() else b""
+    parts = [str(p).encode() + _file_digest(p).encode() for p in (*config.parts, *options.parts)]
+    beside = job.path.parent / "parts.toml"
+    parts.append(_file_digest(beside).encode())
+    return _digest(__version__.encode(), str(CACHE_FORMAT).encode(), text, *parts).encode()
+
+
+def _cache_key(job: Job, options: BatchOptions, content: bytes) -> str:
+    return _digest(str(job.path).encode(), content, _config_digest(job, options))
+
+
+def cached_check(job: Job, options: BatchOptions) -> tuple[CheckResult, bool]:
+    """Check through the cache: (result, came from cache)."""
+    if options.cache_dir is None or job.text is not None:
+        return check_job(job, options), False
+    try:
+        content = job.path.read_bytes()
+    except OSError:
+        return check_job(job, options), False
+    key = _cache_key(job, options, content)
+    entry = options.cache_dir / key[:2] / f"{key}.pickle"
+    try:
+        with entry.open("rb") as handle:
+            dependencies, result = pickle.load(handle)
+        if all(_file_digest(Path(p)) == d for p, d in dependencies):
+            return result, True
+    except (OSError, pickle.UnpicklingError, EOFError, ValueError, TypeError, AttributeError):
+        pass
+    result = check_job(job, options)
+    if any(d.code in ("internal-error", "limit") for d in result.diagnostics):
+        return result, False  # not worth keeping: the next run should try again
+    dependencies = [(p, _file_digest(Path(p))) for p in result.circuit.files[1:]]
+    _write_atomically(entry, pickle.dumps((dependencies, result), protocol=pickle.HIGHEST_PROTOCOL))
+    return result, False
+
+
+def _write_atomically(path: Path, data: bytes) -> None:
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, temporary = tempfile.mkstemp(dir=path.parent, prefix=".tmp-")
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+        os.replace(temporary, path)
+    except OSError:
+        pass  # a cache that cannot be written only costs speed
+
+
+def _worker(args: tuple[Job, BatchOptions]) -> tuple[CheckResult, bool]:
+    return cached_check(*args)
+
+
+def run_batch(
+    jobs: Sequence[Job],
+    options: BatchOptions,
+    progress: Callable[[int], None] | None = None,
+) -> tuple[list[CheckResult], BatchStats]:
+    """Check every job; results in the order of ``jobs``."""
+    stats = BatchStats(files=len(jobs))
+    results: list[CheckResult] = []
+    if options.jobs <= 1 or len(jobs) <= 1:
+        outcomes: Iterator[tuple[CheckResult, bool]] = (cached_check(j, options) for j in jobs)
+        for result, hit in outcomes:
+            results.append(result)
+            stats.from_cache += hit
+            if progress:
+                progress(1)
+    else:
+        chunk = max(1, min(32, len(jobs) // (options.jobs * 8) or 1))
+        with ProcessPoolExecutor(max_workers=options.jobs) as pool:
+            for result, hit in pool.map(_worker, [(j, options) for j in jobs], chunksize=chunk):
+                results.append(result)
+                stats.from_cache += hit
+                if progress:
+                    progress(1)
+    stats.failed = [
+        r.circuit.path for r in results if any(d.severity is Severity.ERROR for d in r.diagnostics)
+    ]
+    return results, stats

@@ -1,0 +1,35 @@
+"""Output formats, registered by name: each is a function from check results to text.
+
+A format is a small function, not a branch in the command: add one by writing the
+function in its own module and listing it in ``FORMATS`` (imported lazily, so the start
+of a run pays only for the format it uses).
+"""
+
+from __future__ import annotations
+
+import importlib
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+from drivelint.checks.runner import CheckResult
+
+
+@dataclass(frozen=True, slots=True)
+class ReportOptions:
+    explain: bool = False
+    color: bool = False
+
+
+Formatter = Callable[[Sequence[CheckResult], ReportOptions], str]
+
+# name -> "module:function" under drivelint.report
+FORMATS: dict[str, str] = {
+    "text": "findings:format_text",
+    "json": "findings:format_json",
+}
+
+
+def formatter(name: str) -> Formatter:
+    module, function = FORMATS[name].split(":")
+    found: Formatter = getattr(importlib.import_module(f"drivelint.report.{module}"), function)
+    return found
