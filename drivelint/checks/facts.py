@@ -22,9 +22,14 @@ from drivelint.ratings.ratings import Ratings
 from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
 
-# Forward current at which a model card's forward drop is evaluated: a bootstrap diode
-# recharges its capacitor with pulses of some hundreds of milliamperes (common practice).
-DIODE_VF_CURRENT = 0.1
+# The smallest current at which a model card's forward drop is evaluated: a boot supply
+# at rest still feeds about a microampere of capacitor and board leakage (common
+# practice), and the ideal Shockley law would otherwise give a drop of zero.
+DIODE_VF_MIN_CURRENT = 1e-6
+# Junction drop of a conducting base-emitter junction, and a saturated collector (common
+# practice).
+V_BE = 0.7
+V_CE_SAT = 0.1
 
 
 def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
@@ -196,14 +201,19 @@ class StageFacts:
             return rated
         model = self.diode.model if self.diode else None
         if model is not None and model.params.get("is"):
+            # At the end of a recharge the diode carries only what the boot supply draws,
+            # so its drop is taken at that current (Shockley relation), not at a rated one.
+            current = max(self.recharge_end_current, DIODE_VF_MIN_CURRENT)
             n = model.params.get("n", 1.0)
-            drop = diode_physics.forward_voltage(DIODE_VF_CURRENT, model.params["is"], n)
-            drop += DIODE_VF_CURRENT * model.params.get("rs", 0.0)
+            drop = diode_physics.forward_voltage(current, model.params["is"], n)
+            drop += current * model.params.get("rs", 0.0)
+            from drivelint.netlist.values import format_si
+
             return Value(
                 drop,
                 "V",
-                f"model {model.name} IS/N/RS at {DIODE_VF_CURRENT:g} A "
-                f"({model.span.path}:{model.span.line})",
+                f"model {model.name} IS/N/RS at the end-of-recharge current "
+                f"{format_si(current, 'A')} ({model.span.path}:{model.span.line})",
             )
         return Value(0.7, "V", "default: silicon junction forward drop (common practice)")
 
@@ -255,7 +265,8 @@ class StageFacts:
     # -- charge and current ---------------------------------------------------------------------
 
     @cached_property
-    def qg(self) -> Value | None:
+    def qg_switch(self) -> Value | None:
+        """The switch's own gate charge: rated, or estimated from its model's capacitances."""
         rated = self.ratings.get(self.switch, "qg")
         multiplier = self.switch.multiplier
         if rated is not None:
@@ -278,6 +289,41 @@ class StageFacts:
             charge,
             "C",
             f"estimate from model {model.name} capacitances: C_gs·V_drive + C_gd·(V_bus + V_drive)",
+        )
+
+    @cached_property
+    def qg_external(self) -> Value:
+        """Charge taken by capacitors on the gate: to the source C·V_boot, elsewhere
+        C·(V_bus + V_boot), as the gate rises from off to V_bus + V_boot."""
+        stage = self.stage
+        drive = self.v_boot0.value if self.v_boot0 else 0.0
+        bus = self.v_bus.value if self.v_bus else 0.0
+        total = 0.0
+        names = []
+        for device in self.by_net.get(stage.gate, ()):
+            if device.kind != "capacitor" or device.value is None or device.name in stage.related:
+                continue
+            far = next((n for n in device.nets if n != stage.gate), None)
+            if far is None:
+                continue
+            swing = drive if far == stage.source else bus + drive
+            total += device.value * device.multiplier * swing
+            names.append(device.name)
+        how = f"computed: capacitors on the gate ({', '.join(names)})" if names else "none"
+        return Value(total, "C", how)
+
+    @cached_property
+    def qg(self) -> Value | None:
+        """Charge the boot supply gives the gate at each turn-on (switch plus external)."""
+        own = self.qg_switch
+        if own is None:
+            return None
+        if self.qg_external.value == 0:
+            return own
+        return Value(
+            own.value + self.qg_external.value,
+            "C",
+            f"{own.origin}; plus {self.qg_external.text()} {self.qg_external.origin}",
         )
 
     def _driver_value(self, key: str, unit: str) -> Value | None:
@@ -309,24 +355,46 @@ class StageFacts:
 
     @cached_property
     def drains(self) -> tuple[Drain, ...]:
-        """Resistive currents out of the boot and gate nets while the switch is on.
-
-        With the switch on, the switch node sits at V_bus and the boot and gate nets at
-        V_bus + V_boot; a resistor from either to the source draws V_boot/R, one to ground
-        (V_bus + V_boot)/R, one to a rail at V_r (V_bus + V_boot − V_r)/R. A resistor whose
-        far end feeds only another resistor is followed one step, as a divider.
-        """
-        stage = self.stage
+        """Resistive currents out of the boot and gate nets while the switch is on."""
         if self.v_boot0 is None:
             return ()
-        v_boot = self.v_boot0.value
+        return self._drains_at(self.v_boot0.value)
+
+    @cached_property
+    def recharge_end_current(self) -> float:
+        """What the boot supply draws at the end of a recharge, with the switch off: the
+        driver's quiescent current and the leakage it supplies (the gate is low, so gate and
+        level-shift resistors carry next to nothing)."""
+        return self.i_quiescent.value + self.i_leak.value
+
+    def _hidden(self, device: Device) -> bool:
+        """Inside a driver IC whose boot current the parts library already gives."""
+        driver = self.stage.driver
+        return (
+            driver is not None
+            and device.name.startswith(driver.device + ".")
+            and self.i_quiescent.value > 0
+        )
+
+    def _drains_at(self, v_boot: float) -> tuple[Drain, ...]:
+        """With the switch on, the switch node sits at V_bus and the boot and gate nets at
+        V_bus + V_boot. A resistor from either to the source draws V_boot/R, one to ground
+        (V_bus + V_boot)/R, one to a rail at V_r (V_bus + V_boot − V_r)/R; a resistor whose
+        far end feeds only another resistor is followed one step, as a divider. The base of
+        a PNP whose emitter is on the boot net sits V_BE below it while the PNP conducts,
+        and what leaves that base through resistors (its drive) comes from the boot supply.
+        """
+        stage = self.stage
         v_bus = self.v_bus.value if self.v_bus else 0.0
+        v_high = v_bus + v_boot
         high = {n for n in (stage.supply.boot_net, stage.gate) if n}
         out: list[Drain] = []
         seen: set[str] = set()
         candidates = {d.name: d for net in high for d in self.by_net.get(net, ())}
         for device in candidates.values():
             if device.kind != "resistor" or device.value is None or device.name in seen:
+                continue
+            if self._hidden(device):
                 continue
             nets = set(device.nets)
             start = nets & high
@@ -335,10 +403,10 @@ class StageFacts:
             (far,) = nets - high if len(nets - high) == 1 else (None,)
             if far is None:
                 continue
-            volts, resistance, chain = self._far_end(far, device, v_bus)
+            volts, resistance, chain = self._far_end(far, device, v_bus, v_high, high)
             if volts is None:
                 continue
-            current = (v_bus + v_boot - volts) / (resistance + device.value / device.multiplier)
+            current = (v_high - volts) / (resistance + device.value / device.multiplier)
             if current <= 0:
                 continue
             seen.update(chain | {device.name})
@@ -351,11 +419,53 @@ class StageFacts:
                     f"to {far if not chain else 'a lower net'}",
                 )
             )
+        out.extend(self._base_drive_drains(high, v_bus, v_high, seen))
         return tuple(out)
 
-    def _far_end(self, net: str, via: Device, v_bus: float) -> tuple[float | None, float, set[str]]:
+    def _base_drive_drains(
+        self, high: set[str], v_bus: float, v_high: float, seen: set[str]
+    ) -> list[Drain]:
+        out: list[Drain] = []
+        for net in high:
+            for device in self.by_net.get(net, ()):
+                if device.kind != "bjt" or device.model_type != "pnp" or device.net("e") != net:
+                    continue
+                base = device.net("b")
+                if base is None or base in high:
+                    continue
+                v_base = v_high - V_BE
+                for resistor in self.by_net.get(base, ()):
+                    if resistor.kind != "resistor" or not resistor.value or resistor.name in seen:
+                        continue
+                    far = next((n for n in resistor.nets if n != base), None)
+                    if far is None or far in high:
+                        continue
+                    volts = self._known_voltage(far, v_bus, v_high, high)
+                    if volts is None:
+                        continue
+                    current = (v_base - volts) / (resistor.value / resistor.multiplier)
+                    if current <= 0:
+                        continue
+                    seen.add(resistor.name)
+                    out.append(
+                        Drain(
+                            resistor.name,
+                            Value(
+                                current,
+                                "A",
+                                f"computed: base drive of {device.name} through {resistor.name}",
+                            ),
+                            f"{resistor.name} carries {device.name}'s base current from "
+                            f"{net} (V_high − V_BE to {far})",
+                        )
+                    )
+        return out
+
+    def _far_end(
+        self, net: str, via: Device, v_bus: float, v_high: float, high: set[str]
+    ) -> tuple[float | None, float, set[str]]:
         """The on-time voltage of ``net``, or of the net one more resistor away."""
-        known = self._known_voltage(net, v_bus)
+        known = self._known_voltage(net, v_bus, v_high, high)
         if known is not None:
             return known, 0.0, set()
         others = [
@@ -363,17 +473,29 @@ class StageFacts:
         ]
         for other in others:
             far = next((n for n in other.nets if n != net), None)
-            volts = self._known_voltage(far, v_bus) if far else None
+            volts = self._known_voltage(far, v_bus, v_high, high) if far else None
             if volts is not None:
                 return volts, other.value / other.multiplier, {other.name}  # type: ignore[operator]
         return None, 0.0, set()
 
-    def _known_voltage(self, net: str, v_bus: float) -> float | None:
+    def _known_voltage(self, net: str, v_bus: float, v_high: float, high: set[str]) -> float | None:
+        """A net's voltage while the switch is on, where the circuit fixes it."""
         if net == self.stage.source:
             return v_bus
         if net == GROUND:
             return 0.0
-        return self.circuit.rails.get(net)
+        if net in self.circuit.rails:
+            return self.circuit.rails[net]
+        for device in self.by_net.get(net, ()):
+            if device.kind != "bjt":
+                continue
+            if device.model_type == "pnp" and device.net("b") == net and device.net("e") in high:
+                return v_high - V_BE  # the base of a conducting high-side PNP
+            if device.model_type == "npn" and device.net("c") == net and device.net("e") == GROUND:
+                # A level-shift transistor pulling this net down; taken as on (the worst case
+                # for the boot supply, and the state that turns a high-side PNP on).
+                return V_CE_SAT
+        return None
 
     @cached_property
     def i_resistive(self) -> Value:
