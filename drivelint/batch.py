@@ -183,11 +183,11 @@ def _cache_key(job: Job, options: BatchOptions, content: bytes) -> str:
 def cached_check(job: Job, options: BatchOptions) -> tuple[CheckResult, bool]:
     """Check through the cache: (result, came from cache)."""
     if options.cache_dir is None or job.text is not None:
-        return check_job(job, options), False
+        return slim(check_job(job, options)), False
     try:
         content = job.path.read_bytes()
     except OSError:
-        return check_job(job, options), False
+        return slim(check_job(job, options)), False
     key = _cache_key(job, options, content)
     entry = options.cache_dir / key[:2] / f"{key}.pickle"
     try:
@@ -197,7 +197,7 @@ def cached_check(job: Job, options: BatchOptions) -> tuple[CheckResult, bool]:
             return result, True
     except (OSError, pickle.UnpicklingError, EOFError, ValueError, TypeError, AttributeError):
         pass
-    result = check_job(job, options)
+    result = slim(check_job(job, options))
     if any(d.code in ("internal-error", "limit") for d in result.diagnostics):
         return result, False  # not worth keeping: the next run should try again
     dependencies = [(p, _file_digest(Path(p))) for p in result.circuit.files[1:]]
@@ -216,8 +216,25 @@ def _write_atomically(path: Path, data: bytes) -> None:
         pass  # a cache that cannot be written only costs speed
 
 
+def slim(result: CheckResult) -> CheckResult:
+    """The result without the parts of the circuit no report uses: only the devices and
+    instances the stages and findings name are kept. Cheaper to cache and to send back
+    from a worker process."""
+    from dataclasses import replace
+
+    circuit = result.circuit
+    names = {n for s in result.stages for n in (s.switch, *s.related)}
+    names |= {n for f in (*result.findings, *result.accepted) for n in (f.device, f.switch)}
+    if s_driver := {s.driver.device for s in result.stages if s.driver}:
+        names |= s_driver
+    devices = {n: circuit.devices[n] for n in sorted(names) if n in circuit.devices}
+    instances = {n: circuit.instances[n] for n in sorted(names) if n in circuit.instances}
+    return replace(result, circuit=replace(circuit, devices=devices, instances=instances, nets=()))
+
+
 def _worker(args: tuple[Job, BatchOptions]) -> tuple[CheckResult, bool]:
-    return cached_check(*args)
+    result, hit = cached_check(*args)
+    return result, hit
 
 
 def run_batch(

@@ -271,7 +271,7 @@ def check_command(
     if fmt != "text" or output is not None:
         from drivelint.report.findings import summary_text
 
-        click.echo(summary_text(results, stats), err=True)
+        click.echo(summary_text(results, stats.from_cache), err=True)
     if fail_on:
         threshold = Severity.parse(fail_on)
     else:

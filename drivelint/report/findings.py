@@ -11,7 +11,6 @@ from drivelint.checks.runner import CheckResult
 from drivelint.diagnostics import Severity
 
 if TYPE_CHECKING:
-    from drivelint.batch import BatchStats
     from drivelint.report.formats import ReportOptions
 
 JSON_VERSION = 1
@@ -56,7 +55,7 @@ def results_text(results: Sequence[CheckResult], explain: bool = False, color: b
     return "\n".join(blocks)
 
 
-def summary_text(results: Sequence[CheckResult], stats: BatchStats | None = None) -> str:
+def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
     """Files, stages, findings by rule and severity, files that could not be checked."""
     from collections import Counter
 
@@ -64,8 +63,8 @@ def summary_text(results: Sequence[CheckResult], stats: BatchStats | None = None
     stages = sum(sum(1 for s in r.stages if s.floating) for r in results)
     files = len(results)
     head = f"{files} file{'s' * (files != 1)}"
-    if stats is not None and stats.from_cache:
-        head += f" ({stats.from_cache} from cache)"
+    if from_cache:
+        head += f" ({from_cache} from cache)"
     head += f", {stages} floating stage{'s' * (stages != 1)}, "
     head += f"{len(findings)} finding{'s' * (len(findings) != 1)}"
     by_severity = Counter(f.severity for f in findings)

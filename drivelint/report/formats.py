@@ -26,6 +26,10 @@ Formatter = Callable[[Sequence[CheckResult], ReportOptions], str]
 FORMATS: dict[str, str] = {
     "text": "findings:format_text",
     "json": "findings:format_json",
+    "sarif": "sarif:format_sarif",
+    "junit": "junit:format_junit",
+    "github": "github:format_github",
+    "html": "html:format_html",
 }
 
 

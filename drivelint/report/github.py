@@ -1,0 +1,75 @@
+"""Findings as GitHub Actions workflow commands, so they show as annotations on the diff.
+
+One line per finding and per input problem (warnings and errors), in path and line order:
+``::error file=PATH,line=L,col=C,title=RULE::MESSAGE``. Values are escaped as the workflow
+command syntax requires, so a message can never end the command early or start another.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from typing import TYPE_CHECKING
+
+from drivelint.checks.base import Finding
+from drivelint.checks.runner import CheckResult
+from drivelint.diagnostics import Diagnostic, Severity, Span
+from drivelint.report.findings import finding_text
+from drivelint.report.sarif import portable_path
+
+if TYPE_CHECKING:
+    from drivelint.report.formats import ReportOptions
+
+COMMANDS: Mapping[Severity, str] = {
+    Severity.ERROR: "error",
+    Severity.WARNING: "warning",
+    Severity.NOTE: "notice",
+}
+
+
+def escape_data(text: str) -> str:
+    """A command's message: ``%`` first, so the escapes it adds are not escaped again."""
+    return text.replace("%", "%25").replace("\r", "%0D").replace("\n", "%0A")
+
+
+def escape_property(text: str) -> str:
+    """A property value: as a message, and ``:`` and ``,`` which end a property."""
+    return escape_data(text).replace(":", "%3A").replace(",", "%2C")
+
+
+def annotation(severity: Severity, span: Span, title: str, message: str) -> str:
+    properties = {
+        "file": portable_path(span.path),
+        "line": str(max(span.line, 1)),
+        "col": str(max(span.column, 1)),
+        "title": title,
+    }
+    listed = ",".join(f"{key}={escape_property(value)}" for key, value in properties.items())
+    return f"::{COMMANDS[severity]} {listed}::{escape_data(message)}"
+
+
+def finding_annotation(finding: Finding, explain: bool = False) -> str:
+    # The message, then the text format's indented detail (values, derivation, fix).
+    detail = [line.strip() for line in finding_text(finding, explain).split("\n")[1:]]
+    message = "\n".join([finding.message, *detail])
+    return annotation(finding.severity, finding.span, finding.rule, message)
+
+
+def diagnostic_annotation(diagnostic: Diagnostic) -> str:
+    return annotation(
+        diagnostic.severity, diagnostic.span, f"input ({diagnostic.code})", diagnostic.message
+    )
+
+
+def format_github(results: Sequence[CheckResult], options: ReportOptions) -> str:
+    keyed: list[tuple[tuple[str, int, int, str, str], str]] = []
+    for result in results:
+        for diagnostic in result.diagnostics:
+            if diagnostic.severity >= Severity.WARNING:
+                span = diagnostic.span
+                key = (portable_path(span.path), span.line, span.column, "", diagnostic.message)
+                keyed.append((key, diagnostic_annotation(diagnostic)))
+        for finding in result.findings:
+            span = finding.span
+            key = (portable_path(span.path), span.line, span.column, finding.rule, finding.device)
+            keyed.append((key, finding_annotation(finding, options.explain)))
+    return "".join(line + "\n" for _, line in sorted(keyed))

@@ -1,0 +1,92 @@
+"""Findings as JUnit XML, for the test-report pages of CI services.
+
+Each checked netlist is one test case: it passes when clean, fails with one ``<failure>``
+per finding, and is in error when its input could not be read as written. The suite's
+counts are of test cases, so ``tests − failures − errors`` is the number of clean files.
+"""
+
+from __future__ import annotations
+
+import re
+import xml.etree.ElementTree as ET
+from collections.abc import Sequence
+from typing import TYPE_CHECKING
+
+from drivelint.checks.runner import CheckResult
+from drivelint.diagnostics import Severity
+from drivelint.report.findings import finding_text
+from drivelint.report.sarif import portable_path
+
+if TYPE_CHECKING:
+    from drivelint.report.formats import ReportOptions
+
+SUITE = "drivelint"
+
+# XML 1.0 cannot carry these characters even as references; a hostile netlist line may hold
+# them, and one such byte would make the whole report unreadable.
+_NOT_XML = re.compile("[^\t\n\r\x20-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
+
+
+def _xml_safe(text: str) -> str:
+    return _NOT_XML.sub(lambda m: f"\\x{ord(m.group()):02x}", text)
+
+
+def file_status(result: CheckResult) -> str:
+    """``error`` (input errors), ``failure`` (findings) or ``passed``."""
+    if any(d.severity is Severity.ERROR for d in result.diagnostics):
+        return "error"
+    return "failure" if result.findings else "passed"
+
+
+def _testcase(result: CheckResult, explain: bool) -> ET.Element:
+    name = _xml_safe(portable_path(result.circuit.path))
+    case = ET.Element("testcase", {"classname": SUITE, "name": name})
+    errors = [d for d in result.diagnostics if d.severity is Severity.ERROR]
+    if errors:
+        first = errors[0]
+        error = ET.SubElement(
+            case,
+            "error",
+            {
+                "message": _xml_safe(
+                    first.message
+                    if len(errors) == 1
+                    else f"{first.message} (and {len(errors) - 1} more input errors)"
+                ),
+                "type": first.code,
+            },
+        )
+        error.text = _xml_safe("\n".join(d.render() for d in errors))
+    for finding in result.findings:
+        failure = ET.SubElement(
+            case, "failure", {"message": _xml_safe(finding.message), "type": finding.rule}
+        )
+        failure.text = _xml_safe(finding_text(finding, explain))
+    # What does not fail the file is still worth seeing beside it.
+    notes = [d.render() for d in result.diagnostics if d.severity is Severity.WARNING]
+    notes += [f"accepted: {finding_text(f)}" for f in result.accepted]
+    if notes:
+        ET.SubElement(case, "system-out").text = _xml_safe("\n".join(notes))
+    return case
+
+
+def junit_tree(results: Sequence[CheckResult], explain: bool = False) -> ET.Element:
+    """The ``<testsuites>`` element holding the one ``drivelint`` suite."""
+    ordered = sorted(results, key=lambda r: portable_path(r.circuit.path))
+    statuses = [file_status(r) for r in ordered]
+    counts = {
+        "tests": str(len(ordered)),
+        "failures": str(statuses.count("failure")),
+        "errors": str(statuses.count("error")),
+    }
+    root = ET.Element("testsuites", {"name": SUITE, **counts})
+    suite = ET.SubElement(root, "testsuite", {"name": SUITE, **counts, "skipped": "0"})
+    suite.extend(_testcase(r, explain) for r in ordered)
+    return root
+
+
+def format_junit(results: Sequence[CheckResult], options: ReportOptions) -> str:
+    root = junit_tree(results, options.explain)
+    ET.indent(root)
+    body = ET.tostring(root, encoding="unicode")
+    return f'<?xml version="1.0" encoding="UTF-8"?>\n{body}\n'
