@@ -165,6 +165,23 @@ def _file_digest(path: Path) -> str:
         return "missing"
 
 
+_CODE_DIGEST: list[str] = []
+
+
+def code_digest() -> str:
+    """A digest of drivelint's own code, grammar and rule cards: a changed rule or check
+    must not be answered from a cache filled by the old one."""
+    if not _CODE_DIGEST:
+        package = Path(__file__).resolve().parent
+        roots = [package, package.parent / "rules", package.parent / "grammar"]
+        files = sorted(
+            p for root in roots if root.is_dir() for p in root.rglob("*")
+            if p.suffix in (".py", ".toml", ".lark")
+        )
+        _CODE_DIGEST.append(_digest(*(p.read_bytes() for p in files)))
+    return _CODE_DIGEST[0]
+
+
 def _config_digest(job: Job, options: BatchOptions) -> bytes:
     config = job.config
     text = b""
@@ -173,7 +190,9 @@ def _config_digest(job: Job, options: BatchOptions) -> bytes:
     parts = [str(p).encode() + _file_digest(p).encode() for p in (*config.parts, *options.parts)]
     beside = job.path.parent / "parts.toml"
     parts.append(_file_digest(beside).encode())
-    return _digest(__version__.encode(), str(CACHE_FORMAT).encode(), text, *parts).encode()
+    return _digest(
+        __version__.encode(), code_digest().encode(), str(CACHE_FORMAT).encode(), text, *parts
+    ).encode()
 
 
 def _cache_key(job: Job, options: BatchOptions, content: bytes) -> str:

@@ -9,10 +9,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 from functools import cached_property
+from typing import TYPE_CHECKING
 
-from drivelint.circuit.model import GROUND, Circuit, Device
+from drivelint.circuit.model import Circuit, Device
 from drivelint.diagnostics import Span
 from drivelint.physics import bootstrap as boot_physics
 from drivelint.physics import diode as diode_physics
@@ -22,14 +22,13 @@ from drivelint.ratings.ratings import Ratings
 from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
 
+if TYPE_CHECKING:
+    from drivelint.checks.drains import Drain, OnDrains
+
 # The smallest current at which a model card's forward drop is evaluated: a boot supply
 # at rest still feeds about a microampere of capacitor and board leakage (common
 # practice), and the ideal Shockley law would otherwise give a drop of zero.
 DIODE_VF_MIN_CURRENT = 1e-6
-# Junction drop of a conducting base-emitter junction, and a saturated collector (common
-# practice).
-V_BE = 0.7
-V_CE_SAT = 0.1
 
 
 def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
@@ -39,15 +38,6 @@ def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
         for net in set(device.nets):
             index.setdefault(net, []).append(device)
     return index
-
-
-@dataclass(frozen=True, slots=True)
-class Drain:
-    """One current that discharges the boot supply while the switch is on."""
-
-    device: str
-    current: Value
-    why: str
 
 
 class StageFacts:
@@ -354,11 +344,16 @@ class StageFacts:
         return found or Value(0.0, "A", "no bootstrap diode leakage known")
 
     @cached_property
+    def on_drains(self) -> OnDrains:
+        """Every steady current out of the hold capacitor while the switch is on."""
+        from drivelint.checks.drains import on_drains
+
+        return on_drains(self.stage, self, self.v_boot0.value if self.v_boot0 else 0.0)
+
+    @cached_property
     def drains(self) -> tuple[Drain, ...]:
-        """Resistive currents out of the boot and gate nets while the switch is on."""
-        if self.v_boot0 is None:
-            return ()
-        return self._drains_at(self.v_boot0.value)
+        """The resistive drains (resistors, level-shift branches) while the switch is on."""
+        return self.on_drains.resistive if self.v_boot0 is not None else ()
 
     @cached_property
     def recharge_end_current(self) -> float:
@@ -367,147 +362,14 @@ class StageFacts:
         level-shift resistors carry next to nothing)."""
         return self.i_quiescent.value + self.i_leak.value
 
-    def _hidden(self, device: Device) -> bool:
-        """Inside a driver IC whose boot current the parts library already gives."""
-        driver = self.stage.driver
-        return (
-            driver is not None
-            and device.name.startswith(driver.device + ".")
-            and self.i_quiescent.value > 0
-        )
-
-    def _drains_at(self, v_boot: float) -> tuple[Drain, ...]:
-        """With the switch on, the switch node sits at V_bus and the boot and gate nets at
-        V_bus + V_boot. A resistor from either to the source draws V_boot/R, one to ground
-        (V_bus + V_boot)/R, one to a rail at V_r (V_bus + V_boot − V_r)/R; a resistor whose
-        far end feeds only another resistor is followed one step, as a divider. The base of
-        a PNP whose emitter is on the boot net sits V_BE below it while the PNP conducts,
-        and what leaves that base through resistors (its drive) comes from the boot supply.
-        """
-        stage = self.stage
-        v_bus = self.v_bus.value if self.v_bus else 0.0
-        v_high = v_bus + v_boot
-        high = {n for n in (stage.supply.boot_net, stage.gate) if n}
-        out: list[Drain] = []
-        seen: set[str] = set()
-        candidates = {d.name: d for net in high for d in self.by_net.get(net, ())}
-        for device in candidates.values():
-            if device.kind != "resistor" or device.value is None or device.name in seen:
-                continue
-            if self._hidden(device):
-                continue
-            nets = set(device.nets)
-            start = nets & high
-            if not start or nets <= high:
-                continue
-            (far,) = nets - high if len(nets - high) == 1 else (None,)
-            if far is None:
-                continue
-            volts, resistance, chain = self._far_end(far, device, v_bus, v_high, high)
-            if volts is None:
-                continue
-            current = (v_high - volts) / (resistance + device.value / device.multiplier)
-            if current <= 0:
-                continue
-            seen.update(chain | {device.name})
-            names = "+".join(sorted(chain | {device.name}))
-            out.append(
-                Drain(
-                    names,
-                    Value(current, "A", f"computed: through {names}"),
-                    f"{names} from {'/'.join(sorted(start))} "
-                    f"to {far if not chain else 'a lower net'}",
-                )
-            )
-        out.extend(self._base_drive_drains(high, v_bus, v_high, seen))
-        return tuple(out)
-
-    def _base_drive_drains(
-        self, high: set[str], v_bus: float, v_high: float, seen: set[str]
-    ) -> list[Drain]:
-        out: list[Drain] = []
-        for net in high:
-            for device in self.by_net.get(net, ()):
-                if device.kind != "bjt" or device.model_type != "pnp" or device.net("e") != net:
-                    continue
-                base = device.net("b")
-                if base is None or base in high:
-                    continue
-                v_base = v_high - V_BE
-                for resistor in self.by_net.get(base, ()):
-                    if resistor.kind != "resistor" or not resistor.value or resistor.name in seen:
-                        continue
-                    far = next((n for n in resistor.nets if n != base), None)
-                    if far is None or far in high:
-                        continue
-                    volts = self._known_voltage(far, v_bus, v_high, high)
-                    if volts is None:
-                        continue
-                    current = (v_base - volts) / (resistor.value / resistor.multiplier)
-                    if current <= 0:
-                        continue
-                    seen.add(resistor.name)
-                    out.append(
-                        Drain(
-                            resistor.name,
-                            Value(
-                                current,
-                                "A",
-                                f"computed: base drive of {device.name} through {resistor.name}",
-                            ),
-                            f"{resistor.name} carries {device.name}'s base current from "
-                            f"{net} (V_high − V_BE to {far})",
-                        )
-                    )
-        return out
-
-    def _far_end(
-        self, net: str, via: Device, v_bus: float, v_high: float, high: set[str]
-    ) -> tuple[float | None, float, set[str]]:
-        """The on-time voltage of ``net``, or of the net one more resistor away."""
-        known = self._known_voltage(net, v_bus, v_high, high)
-        if known is not None:
-            return known, 0.0, set()
-        others = [
-            d for d in self.by_net.get(net, ()) if d is not via and d.kind == "resistor" and d.value
-        ]
-        for other in others:
-            far = next((n for n in other.nets if n != net), None)
-            volts = self._known_voltage(far, v_bus, v_high, high) if far else None
-            if volts is not None:
-                return volts, other.value / other.multiplier, {other.name}  # type: ignore[operator]
-        return None, 0.0, set()
-
-    def _known_voltage(self, net: str, v_bus: float, v_high: float, high: set[str]) -> float | None:
-        """A net's voltage while the switch is on, where the circuit fixes it."""
-        if net == self.stage.source:
-            return v_bus
-        if net == GROUND:
-            return 0.0
-        if net in self.circuit.rails:
-            return self.circuit.rails[net]
-        for device in self.by_net.get(net, ()):
-            if device.kind != "bjt":
-                continue
-            if device.model_type == "pnp" and device.net("b") == net and device.net("e") in high:
-                return v_high - V_BE  # the base of a conducting high-side PNP
-            if device.model_type == "npn" and device.net("c") == net and device.net("e") == GROUND:
-                # A level-shift transistor pulling this net down; taken as on (the worst case
-                # for the boot supply, and the state that turns a high-side PNP on).
-                return V_CE_SAT
-        return None
-
     @cached_property
     def i_resistive(self) -> Value:
-        total = sum(d.current.value for d in self.drains)
-        names = ", ".join(d.device for d in self.drains) or "none"
-        return Value(total, "A", f"computed: resistive drains ({names})")
+        return self.on_drains.i_resistive
 
     @cached_property
     def i_drain(self) -> Value:
         """Every current that discharges the hold capacitor while the switch is on."""
-        total = self.i_quiescent.value + self.i_leak.value + self.i_resistive.value
-        return Value(total, "A", "computed: I_q + I_leak + I_R")
+        return self.on_drains.total
 
     @cached_property
     def delta_v_allowed(self) -> Value | None:

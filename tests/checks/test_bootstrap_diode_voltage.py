@@ -18,7 +18,7 @@ Q1 g b 0 qn
 RB in b 1k
 M1 bus g sw nfet
 M2 sw gl 0 nfet
-VGL gl 0 PULSE(12 0 0 10n 10n 21u 50u)
+VGL gl 0 PULSE(0 12 0.5u 10n 10n 19u 50u)
 .model dboot D(IS=1n N=1 BV={bv} TT=20n)
 .model qn NPN(BF=100)
 .model nfet VDMOS(VTO=3 KP=20 Cgs=2n Cgdmax=1n)
@@ -41,7 +41,7 @@ def test_reverse_voltage_follows_the_floating_side() -> None:
     (finding,) = findings(30)
     values = finding.values
     v_boot = values["v_boot"].value
-    assert 11 < v_boot < 11.6  # 12 V less a silicon forward drop
+    assert 11 < v_boot < 12  # 12 V less the diode's drop at the end of a recharge
     assert values["diode_reverse_voltage"].value == pytest.approx(24 + v_boot - 12 + 2.4)
     assert values["derated_limit"].value == pytest.approx(24.0)  # 80 % of 30 V
     assert finding.device == "d1" and finding.span.line == 5

@@ -30,7 +30,7 @@ VA1 n3 0 DC 12
 VC1 n9 0 PULSE(0 5 0 10n 10n 20u 50u)
 M1 n7 n12 n5 nfet
 M2 n5 n13 0 nfet
-VG2 n13 0 PULSE(12 0 0 10n 10n 21u 50u)
+VG2 n13 0 PULSE(0 12 0.5u 10n 10n 19u 50u)
 L1 n5 n6 100u
 R9 n6 0 2
 R2 n3 n4 4.7

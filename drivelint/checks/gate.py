@@ -1,0 +1,774 @@
+"""Gate–source voltage of a floating switch against its rating, and the clamps meant to hold it.
+
+Three questions per stage, each answered from the stage's paths and the shared facts:
+
+- how high can V_GS go (the floating supply, or a ground-referenced rail with the source
+  down at ground while the switch is off)?
+- how low can V_GS go (a pull-down returned to ground while something holds the source up)?
+- does a gate–source clamp hold V_GS inside the rating without conducting in normal drive?
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass
+
+from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.facts import StageFacts
+from drivelint.circuit.model import GROUND, Device
+from drivelint.diagnostics import Severity
+from drivelint.netlist.values import format_si
+from drivelint.physics import gate as gate_physics
+from drivelint.physics import stress
+from drivelint.physics.preferred import next_preferred, preferred_values
+from drivelint.ratings.values import Value, computed
+from drivelint.stages.model import Clamp, DriveStage, GatePath
+from drivelint.stages.recognise import ZENER_MAX_BV
+
+ZENER_SERIES = "E24"  # Zener voltages are offered in the E24 steps (common practice)
+_ACTIVE_KINDS = frozenset({"bjt", "mosfet", "switch", "subckt", "cswitch"})
+
+
+def _v(value: float) -> str:
+    return format_si(value, "V")
+
+
+# -- the rating ------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class _Rating:
+    """The switch's V_GS rating in both directions, and the limits after derating."""
+
+    positive: Value
+    negative: Value
+    derating: float
+
+    @property
+    def limit_positive(self) -> float:
+        return stress.derated_limit(self.positive.value, self.derating)
+
+    @property
+    def limit_negative(self) -> float:
+        return stress.derated_limit(self.negative.value, self.derating)
+
+    def derated_text(self, rating: Value) -> str:
+        """Clause naming the derating, empty when the absolute rating is the limit."""
+        if self.derating == 1.0:
+            return ""
+        return f" ({self.derating:.0%} of the {rating.text()} rating)"
+
+    def values(self) -> dict[str, Value]:
+        return {
+            "vgs_rating": self.positive,
+            "vgs_rating_negative": self.negative,
+            "derating": Value(self.derating, "1", "option derating"),
+            "vgs_limit_positive": computed(
+                self.limit_positive, "V", "computed: V_GS(max) × derating"
+            ),
+            "vgs_limit_negative": computed(
+                self.limit_negative, "V", "computed: V_GS(min) × derating"
+            ),
+        }
+
+
+def _rating(facts: StageFacts, derating: float) -> _Rating:
+    positive = facts.ratings.get_or_default(facts.switch, "vgs_max")
+    assert positive is not None  # vgs_max has a documented default
+    given = facts.ratings.get(facts.switch, "vgs_min")
+    if given is None:
+        negative = Value(-abs(positive.value), "V", f"−vgs_max ({positive.origin})")
+    else:
+        # Parts lists write the negative limit either signed (-8 V) or as a magnitude.
+        negative = Value(-abs(given.value), "V", given.origin)
+    return _Rating(Value(abs(positive.value), "V", positive.origin), negative, derating)
+
+
+# -- clamps ----------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class _ClampLevels:
+    """Where a gate–source clamp conducts, in each direction.
+
+    ``positive`` is the V_GS at which it conducts with the gate above the source (inf when
+    an element blocks that way, None when a Zener voltage is unknown); ``negative`` the
+    same with the source above the gate (≤ 0, −inf when blocked). ``*_zener`` is the sum of
+    the Zener voltages in that conduction (0 when only forward drops conduct).
+    """
+
+    clamp: Clamp
+    positive: float | None
+    negative: float | None
+    positive_zener: float
+    negative_zener: float
+    inputs: Mapping[str, Value]
+
+    @property
+    def forward_only_positive(self) -> bool:
+        """It conducts forward as soon as the gate rises: reversed."""
+        return (
+            self.positive is not None and math.isfinite(self.positive) and not self.positive_zener
+        )
+
+    def describe(self) -> str:
+        names = "+".join(self.clamp.devices or (self.clamp.device,))
+        if self.positive_zener and self.negative_zener:
+            return f"{names} (back-to-back Zeners)"
+        zener = self.positive_zener or self.negative_zener
+        if zener:
+            return f"{names} ({_v(zener)} Zener)"
+        return f"{names} ({'Zener' if self.clamp.kind == 'zener' else 'diode'})"
+
+
+def _breakdown(device: Device, facts: StageFacts) -> tuple[Value | None, bool]:
+    """The Zener voltage of a clamp diode, and whether it is a Zener at all.
+
+    A rectifier's breakdown sits far above any gate rating and is not a clamp level
+    (common practice); the same bound as recognition tells the two apart.
+    """
+    kind = facts.ratings.part_kind(device)
+    vz = facts.ratings.get(device, "vz")
+    if kind == "zener":
+        return vz, True
+    if kind == "diode":
+        return None, False
+    if vz is not None and 0 < vz.value <= ZENER_MAX_BV:
+        return vz, True
+    return None, False
+
+
+def _chain_sum(steps: list[float | None]) -> float | None:
+    """Sum of the voltages across a series chain: inf if any element blocks, None if unknown."""
+    if any(step == math.inf for step in steps):
+        return math.inf
+    if any(step is None for step in steps):
+        return None
+    return sum(step for step in steps if step is not None)
+
+
+def _clamp_levels(clamp: Clamp, stage: DriveStage, facts: StageFacts) -> _ClampLevels:
+    names = clamp.devices or (clamp.device,)
+    steps: dict[str, list[float | None]] = {"positive": [], "negative": []}
+    zener_sum = {"positive": 0.0, "negative": 0.0}
+    inputs: dict[str, Value] = {}
+    near = stage.gate  # the chain runs gate → (middle) → source
+    for name in names:
+        device = facts.device(name)
+        if device is None:
+            return _ClampLevels(clamp, None, None, 0.0, 0.0, {})
+        gate_side = "a" if device.net("a") == near else "k"
+        vz, zener = _breakdown(device, facts)
+        vf = facts.ratings.get_or_default(device, "vf")
+        assert vf is not None  # vf has a documented default
+        inputs[f"{device.name}_vf"] = vf
+        if zener and vz is not None:
+            inputs[f"{device.name}_vz"] = vz
+        # A rectifier's reverse direction blocks; a Zener's breaks down at V_Z.
+        blocking: float | None = (vz.value if vz is not None else None) if zener else math.inf
+        for direction in ("positive", "negative"):
+            # Gate above source: current runs gate → source, forward through an element
+            # whose anode is on the gate side; source above gate, the other way round.
+            forward = (gate_side == "a") == (direction == "positive")
+            steps[direction].append(vf.value if forward else blocking)
+            if not forward and zener and vz is not None:
+                zener_sum[direction] += vz.value
+        near = device.net("k" if gate_side == "a" else "a") or ""
+    negative = _chain_sum(steps["negative"])
+    return _ClampLevels(
+        clamp,
+        _chain_sum(steps["positive"]),
+        -negative if negative is not None else None,
+        zener_sum["positive"],
+        zener_sum["negative"],
+        inputs,
+    )
+
+
+# -- the positive side -------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class _Drive:
+    """The highest V_GS one pull-up path can apply."""
+
+    level: float
+    path: GatePath
+    from_boot: bool
+    origin: Value
+    resistance: float | None  # series resistance of the path, None when it has none
+    note: str
+
+
+def _resistance(device: Device | None) -> float | None:
+    if device is None or device.kind != "resistor" or device.value is None:
+        return None
+    return device.value / device.multiplier
+
+
+def _ground_zener(path: GatePath, stage: DriveStage, facts: StageFacts) -> tuple[Value, str] | None:
+    """The lowest Zener from a net of a rail-fed pull-up (or the gate) to ground, if any.
+
+    A reference Zener to ground caps the gate voltage to ground at V_Z whatever the rail.
+    """
+    nets = {stage.gate}
+    for name in path.devices:
+        device = facts.device(name)
+        if device is not None and device.kind in ("resistor", "inductor"):
+            nets.update(device.nets)
+    nets -= {path.end_net, GROUND}
+    best: tuple[Value, str] | None = None
+    for net in sorted(nets):
+        for device in facts.by_net.get(net, ()):
+            if device.kind != "diode" or device.net("k") != net or device.net("a") != GROUND:
+                continue
+            vz, zener = _breakdown(device, facts)
+            if zener and vz is not None and (best is None or vz.value < best[0].value):
+                best = (vz, device.name)
+    return best
+
+
+def _drives(stage: DriveStage, facts: StageFacts) -> list[_Drive]:
+    out: list[_Drive] = []
+    for path in stage.pullups:
+        ohms = [_resistance(facts.device(n)) for n in path.devices]
+        series = sum(r for r in ohms if r is not None) or None
+        if path.returns_to == "boot":
+            if facts.v_boot0 is None:
+                continue
+            out.append(
+                _Drive(
+                    facts.v_boot0.value,
+                    path,
+                    True,
+                    facts.v_boot0,
+                    series,
+                    "the floating supply across gate and source",
+                )
+            )
+            continue
+        rail = facts.circuit.rails.get(path.end_net)
+        if rail is None or rail <= 0:
+            continue
+        level = Value(rail, "V", f"DC rail {path.end_net}")
+        note = f"rail {path.end_net} to ground while the source is at ground (switch off)"
+        capped = _ground_zener(path, stage, facts)
+        if capped is not None and capped[0].value < rail:
+            level = Value(capped[0].value, "V", f"Zener {capped[1]} to ground ({capped[0].origin})")
+            note = f"Zener {capped[1]} to ground on the pull-up from rail {path.end_net}"
+        # The source is at ground while the switch is off: V_GS = V_gate − 0.
+        vgs = gate_physics.worst_positive_vgs(level.value, 0.0)
+        out.append(_Drive(vgs, path, False, level, series, note))
+    return out
+
+
+# -- the negative side -------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class _SourceHold:
+    """Whether the source stays up while the gate is pulled to ground, and why."""
+
+    held: bool | None  # None: cannot tell
+    reasons: tuple[str, ...]
+    values: Mapping[str, Value]
+
+
+def _source_hold(stage: DriveStage, facts: StageFacts, hold_tau: float) -> _SourceHold:
+    reasons: list[str] = []
+    values: dict[str, Value] = {}
+    for refresh in stage.refresh:
+        if refresh.kind == "low-side switch":
+            reasons.append(
+                f"bridge partner {refresh.devices[0]} (in the dead time the load current can "
+                f"hold the node at the bus through {stage.switch}'s body diode)"
+            )
+    rails = facts.circuit.rails
+    caps: list[Device] = []
+    for device in facts.by_net.get(stage.source, ()):
+        if device.kind != "capacitor" or device.value is None:
+            continue
+        far = next((n for n in device.nets if n != stage.source), None)
+        if far is not None and (far == GROUND or far in rails):
+            caps.append(device)
+    unknown = False
+    if caps:
+        farads = sum(c.value * c.multiplier for c in caps if c.value is not None)
+        siemens = 0.0
+        for refresh in stage.refresh:
+            if refresh.kind not in ("load", "inductor-load"):
+                continue
+            ohms = _resistance(facts.device(refresh.devices[-1]))
+            if ohms is None or ohms <= 0:
+                # An inductive load with no resistance known discharges the node at a rate
+                # set by its current, which the netlist does not give.
+                unknown = True
+                continue
+            siemens += 1.0 / ohms
+        tau = farads / siemens if siemens else math.inf
+        names = ", ".join(c.name for c in caps)
+        values["c_source_node"] = computed(
+            farads, "F", f"computed: {names} from the source to a fixed net"
+        )
+        if siemens:
+            values["r_discharge"] = computed(
+                1.0 / siemens, "Ohm", "computed: loads from the source, in parallel"
+            )
+        values["tau_source_node"] = computed(tau, "s", "computed: R_discharge · C_source_node")
+        values["hold_time_constant"] = Value(hold_tau, "s", "option hold_time_constant")
+        if not unknown and tau >= hold_tau:
+            how = (
+                f"it discharges with τ = {format_si(tau, 's')}"
+                if math.isfinite(tau)
+                else "nothing discharges it"
+            )
+            reasons.append(f"{names} ({format_si(farads, 'F')} to a fixed net; {how})")
+    if reasons:
+        return _SourceHold(True, tuple(reasons), values)
+    return _SourceHold(None if unknown else False, (), values)
+
+
+@dataclass(frozen=True, slots=True)
+class _Pulldown:
+    path: GatePath
+    device: str
+    v_return: Value
+    vgs: float
+    held: bool
+
+
+def _pulldown_device(path: GatePath, facts: StageFacts) -> str:
+    """The active part of a pull-down path (the transistor or driver), else its first part."""
+    for name in path.devices:
+        device = facts.device(name)
+        if device is None or device.kind in _ACTIVE_KINDS:
+            return name
+    return path.devices[0]
+
+
+def _pulldowns(
+    stage: DriveStage, facts: StageFacts, hold: _SourceHold, vth: Value | None
+) -> tuple[list[_Pulldown], bool]:
+    """Pull-downs that do not return to the source, and whether every one could be judged."""
+    out: list[_Pulldown] = []
+    complete = True
+    for path in stage.pulldowns:
+        if path.returns_to == "source":
+            continue
+        if path.returns_to == "ground":
+            v_return = Value(0.0, "V", "ground")
+        else:
+            volts = facts.circuit.rails.get(path.end_net)
+            if volts is None:
+                complete = False
+                continue
+            v_return = Value(volts, "V", f"DC rail {path.end_net}")
+        if facts.v_bus is None or hold.held is None or (not hold.held and vth is None):
+            complete = False
+            continue
+        v_bus = facts.v_bus.value
+        if hold.held:
+            vgs = gate_physics.negative_vgs_when_pulled_to_ground(v_bus, v_return.value, 0.0, False)
+        else:
+            assert vth is not None
+            following = gate_physics.negative_vgs_when_pulled_to_ground(
+                v_bus, v_return.value, vth.value, True
+            )
+            # Once the source has followed down to ground, a return below ground still
+            # leaves V_GS = V_return − 0.
+            vgs = min(following, gate_physics.worst_negative_vgs(v_return.value, 0.0))
+        out.append(_Pulldown(path, _pulldown_device(path, facts), v_return, vgs, bool(hold.held)))
+    return out, complete
+
+
+# -- Zener choice for the fix --------------------------------------------------------------------
+
+
+def _preferred_at_most(value: float, series: str = ZENER_SERIES) -> float | None:
+    """Largest value of ``series`` that is ≤ ``value`` (None below 1 mV)."""
+    if not (value > 0 and math.isfinite(value)):
+        return None
+    decade = math.floor(math.log10(value))
+    for power in (decade + 1, decade, decade - 1):
+        fits = [float(f"{step!r}e{power}") for step in preferred_values(series)]
+        fits = [v for v in fits if v <= value * (1 + 1e-9)]
+        if fits:
+            return max(fits)
+    return None
+
+
+def _zener_between(drive: float | None, limit: float, tolerance: float) -> float | None:
+    """The lowest standard Zener that stays off at ``drive`` (with tolerance) and ≤ ``limit``."""
+    if drive is None or drive <= 0:
+        return _preferred_at_most(limit)
+    if not 0 <= tolerance < 1:
+        return None
+    choice = next_preferred(drive / (1.0 - tolerance), ZENER_SERIES)
+    return choice if choice <= limit else None
+
+
+# -- the check -----------------------------------------------------------------------------------
+
+
+def check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
+    """V_GS beyond the rating either way with no clamp holding it; clamps that misbehave."""
+    if stage.channel != "nmos":
+        return  # a P-channel switch's on-state V_GS is negative; not this rule's model
+    facts = ctx.facts
+    tolerance = ctx.options["zener_tolerance"]
+    rating = _rating(facts, ctx.options["derating"])
+    limit_pos, limit_neg = rating.limit_positive, rating.limit_negative
+    clamps = [_clamp_levels(c, stage, facts) for c in stage.clamps]
+    drives = _drives(stage, facts)
+    vth = facts.ratings.get(facts.switch, "vth")
+    hold = _source_hold(stage, facts, ctx.options["hold_time_constant"])
+    pulls, complete = _pulldowns(stage, facts, hold, vth)
+
+    # Positive side: the highest drive, held down by any clamp that conducts within the limit.
+    drive = max(drives, key=lambda d: d.level) if drives else None
+    boot_drive = max((d for d in drives if d.from_boot), key=lambda d: d.level, default=None)
+    holding_pos = [c for c in clamps if c.positive is not None and 0 < c.positive <= limit_pos]
+    unknown_pos = any(c.positive is None for c in clamps)
+    vgs_pos: float | None = None
+    if drive is not None:
+        vgs_pos = min([drive.level, *(c.positive for c in holding_pos if c.positive is not None)])
+
+    # Negative side: the lowest pull-down result, held up by a clamp within the limit.
+    holding_neg = [c for c in clamps if c.negative is not None and limit_neg <= c.negative < 0]
+    unknown_neg = any(c.negative is None for c in clamps)
+    worst = min(pulls, key=lambda p: p.vgs) if pulls else None
+    vgs_neg: float | None
+    if worst is not None:
+        vgs_neg = max([worst.vgs, *(c.negative for c in holding_neg if c.negative is not None)])
+    elif complete:
+        vgs_neg = 0.0  # every pull-down returns to the source
+    else:
+        vgs_neg = None
+
+    summary: dict[str, Value] = dict(rating.values())
+    if vgs_pos is not None:
+        summary["vgs_max_positive"] = computed(
+            vgs_pos, "V", "computed: highest V_GS of the pull-ups, after any clamp within the limit"
+        )
+    if vgs_neg is not None:
+        summary["vgs_max_negative"] = computed(
+            vgs_neg,
+            "V",
+            "computed: lowest V_GS of the pull-downs, after any clamp within the limit"
+            if worst is not None
+            else "computed: no pull-down returns anywhere but the source",
+        )
+    if drive is not None:
+        summary["vgs_drive"] = computed(drive.level, "V", f"computed: {drive.note}")
+        summary["v_gate_supply"] = drive.origin
+
+    positive_fired = (
+        drive is not None and drive.level > limit_pos and not holding_pos and not unknown_pos
+    )
+    negative_fired = (
+        worst is not None and worst.vgs < limit_neg and not holding_neg and not unknown_neg
+    )
+
+    for levels in clamps:
+        yield from _clamp_findings(
+            levels,
+            stage,
+            ctx,
+            summary,
+            rating,
+            boot_drive,
+            tolerance,
+            positive_fired,
+            negative_fired,
+        )
+    if positive_fired:
+        assert drive is not None
+        yield _positive_finding(stage, ctx, summary, rating, drive, clamps, tolerance)
+    if negative_fired:
+        assert worst is not None and facts.v_bus is not None
+        yield _negative_finding(
+            stage, ctx, summary, rating, worst, hold, vth, clamps, boot_drive, tolerance
+        )
+
+
+def _clamp_findings(
+    levels: _ClampLevels,
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    boot_drive: _Drive | None,
+    tolerance: float,
+    positive_fired: bool,
+    negative_fired: bool,
+) -> Iterator[Finding]:
+    clamp = levels.clamp
+    device = (clamp.devices or (clamp.device,))[0]
+    vth = ctx.facts.ratings.get(ctx.facts.switch, "vth")
+    what = levels.describe()
+    values: dict[str, Value] = {**summary, **levels.inputs}
+    if levels.positive is not None:
+        values["clamp_positive_level"] = computed(
+            levels.positive, "V", "computed: Zener voltages plus forward drops, gate above source"
+        )
+    if levels.negative is not None:
+        values["clamp_negative_level"] = computed(
+            levels.negative, "V", "computed: Zener voltages plus forward drops, source above gate"
+        )
+    limit_pos, limit_neg = rating.limit_positive, rating.limit_negative
+    drive_level = boot_drive.level if boot_drive else None
+    zener = _zener_between(drive_level, limit_pos, tolerance)
+    zener_text = (
+        f"a Zener of {_v(zener)} (cathode at the gate {stage.gate}, "
+        f"anode at the source {stage.source})"
+        if zener
+        else None
+    )
+
+    if levels.forward_only_positive:
+        assert levels.positive is not None
+        yield ctx.finding(
+            device,
+            f"{what} across {stage.switch} gate–source is reversed: it conducts forward at "
+            f"{_v(levels.positive)} as the gate rises, so V_GS cannot reach the "
+            f"{_v(drive_level) + ' ' if drive_level else ''}drive and the supply is shorted "
+            "through it",
+            values,
+            fix=f"turn {device} round: cathode at the gate {stage.gate}, anode at the source "
+            f"{stage.source}" + (f"; {zener_text} clamps both ways" if zener_text else ""),
+            derivation=(
+                "V_clamp+ = Σ V_F (forward conduction only)",
+                f"         = {_v(levels.positive)}"
+                + (
+                    f" < V_th = {vth.text()} ({vth.origin}): the switch cannot turn on"
+                    if vth is not None and levels.positive < vth.value
+                    else ": V_GS is held there"
+                ),
+            ),
+        )
+        return
+
+    if levels.positive is not None and math.isfinite(levels.positive) and levels.positive_zener:
+        tolerance_low = levels.positive - tolerance * levels.positive_zener
+        if boot_drive is not None and levels.positive < boot_drive.level:
+            current = (
+                (boot_drive.level - levels.positive) / boot_drive.resistance
+                if boot_drive.resistance
+                else None
+            )
+            if current is not None:
+                values["clamp_current_bound"] = computed(
+                    current,
+                    "A",
+                    "computed: (V_drive − V_clamp) / series resistance of the pull-up "
+                    "(an upper bound: the driver's own resistance is not counted)",
+                )
+            drain = (
+                f", draws up to {format_si(current, 'A')} from the floating supply"
+                if current is not None
+                else ", draws from the floating supply"
+            )
+            fix = (
+                f"use {zener_text} — it stays off at the {_v(boot_drive.level)} drive "
+                f"(±{tolerance:.0%}) and clamps within the {_v(limit_pos)} limit — "
+                f"or remove {device}"
+                if zener_text
+                else f"remove {device}, or lower the drive below {_v(levels.positive)}"
+            )
+            yield ctx.finding(
+                device,
+                f"{what} clamps {stage.switch} V_GS at {_v(levels.positive)}, below the "
+                f"{_v(boot_drive.level)} drive level: it conducts every on-time{drain} and pins "
+                f"V_GS at about {_v(levels.positive)}",
+                values,
+                fix=fix,
+                derivation=(
+                    f"V_drive = {boot_drive.origin.text()} ({boot_drive.origin.origin})",
+                    f"V_clamp+ = {_v(levels.positive)} < V_drive = {_v(boot_drive.level)}",
+                    *(
+                        (
+                            f"I ≤ (V_drive − V_clamp+)/R_series = ({_v(boot_drive.level)} − "
+                            f"{_v(levels.positive)})/{format_si(boot_drive.resistance or 0, 'Ω')} "
+                            f"= {format_si(current, 'A')}",
+                        )
+                        if current is not None
+                        else ()
+                    ),
+                ),
+            )
+        elif boot_drive is not None and tolerance_low < boot_drive.level:
+            values["clamp_positive_low"] = computed(
+                tolerance_low, "V", "computed: V_clamp+ − tolerance × V_Z"
+            )
+            values["zener_tolerance"] = Value(tolerance, "1", "option zener_tolerance")
+            yield ctx.finding(
+                device,
+                f"{what} may conduct at the {_v(boot_drive.level)} drive level: with "
+                f"±{tolerance:.0%} tolerance it clamps from {_v(tolerance_low)}, "
+                f"so it can draw from the floating supply every on-time",
+                values,
+                fix=(
+                    f"use {zener_text}"
+                    if zener_text
+                    else f"lower the drive below {_v(tolerance_low)}"
+                ),
+                derivation=(
+                    f"V_clamp+,low = V_clamp+ − tol·V_Z = {_v(levels.positive)} − "
+                    f"{tolerance:g}·{_v(levels.positive_zener)} = {_v(tolerance_low)}",
+                    f"V_drive = {_v(boot_drive.level)} > V_clamp+,low",
+                ),
+                severity=Severity.WARNING,
+            )
+        elif levels.positive > limit_pos and not positive_fired:
+            yield ctx.finding(
+                device,
+                f"{what} clamps {stage.switch} V_GS only at {_v(levels.positive)}, above "
+                f"the {_v(limit_pos)} limit: it protects nothing",
+                values,
+                fix=(
+                    f"use {zener_text}" if zener_text else f"use a Zener of at most {_v(limit_pos)}"
+                ),
+                derivation=(
+                    f"V_clamp+ = {_v(levels.positive)} > limit = V_GS(max) × derating = "
+                    f"{rating.positive.text()} × {rating.derating:g} = {_v(limit_pos)}",
+                ),
+                severity=Severity.WARNING,
+            )
+
+    if (
+        levels.negative is not None
+        and math.isfinite(levels.negative)
+        and levels.negative_zener
+        and levels.negative < limit_neg
+        and not negative_fired
+    ):
+        yield ctx.finding(
+            device,
+            f"{what} clamps {stage.switch} V_GS only at {_v(levels.negative)}, beyond "
+            f"the {_v(limit_neg)} limit: it protects nothing on the negative side",
+            values,
+            fix=f"use Zeners whose sum with a forward drop stays within {_v(limit_neg)}",
+            derivation=(
+                f"V_clamp− = {_v(levels.negative)} < limit = V_GS(min) × derating = "
+                f"{rating.negative.text()} × {rating.derating:g} = {_v(limit_neg)}",
+            ),
+            severity=Severity.WARNING,
+        )
+
+
+def _not_holding(clamps: list[_ClampLevels], side: str) -> str:
+    """Clause naming clamps that exist but do not hold this side, for the message."""
+    if not clamps:
+        return "and no gate–source clamp holds it"
+    parts = []
+    for c in clamps:
+        level = c.positive if side == "positive" else c.negative
+        if level is None or not math.isfinite(level):
+            parts.append(f"{c.describe()} does not conduct this way")
+        else:
+            parts.append(f"{c.describe()} conducts only at {_v(level)}")
+    return "and " + "; ".join(parts)
+
+
+def _positive_finding(
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    drive: _Drive,
+    clamps: list[_ClampLevels],
+    tolerance: float,
+) -> Finding:
+    limit = rating.limit_positive
+    values = dict(summary)
+    if drive.from_boot:
+        fix = (
+            f"lower the floating supply to at most {_v(limit)} (a lower auxiliary or isolated "
+            "rail); a Zener clamp here would conduct every on-time and drain it"
+        )
+    else:
+        zener = _preferred_at_most(limit / (1.0 + tolerance))
+        fix = (
+            f"feed the gate through a resistor and clamp it with a Zener of {_v(zener)} "
+            f"(cathode at the gate {stage.gate}, anode at the source {stage.source}), "
+            f"or drive it from a rail of at most {_v(limit)}"
+            if zener
+            else f"drive the gate from a rail of at most {_v(limit)}"
+        )
+    return ctx.finding(
+        stage.switch,
+        f"{stage.switch} V_GS reaches {_v(drive.level)} from {drive.note}, above the "
+        f"{_v(limit)} limit{rating.derated_text(rating.positive)}, "
+        f"{_not_holding(clamps, 'positive')}",
+        values,
+        fix=fix,
+        derivation=(
+            "V_GS,max = V_gate,max − V_source,min"
+            + (" = V_boot" if drive.from_boot else " = V_rail − 0"),
+            f"         = {drive.origin.text()} ({drive.origin.origin}) = {_v(drive.level)}",
+            f"limit = V_GS(max) × derating = {rating.positive.text()} × {rating.derating:g} "
+            f"= {_v(limit)}",
+        ),
+    )
+
+
+def _negative_finding(
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    pull: _Pulldown,
+    hold: _SourceHold,
+    vth: Value | None,
+    clamps: list[_ClampLevels],
+    boot_drive: _Drive | None,
+    tolerance: float,
+) -> Finding:
+    facts = ctx.facts
+    assert facts.v_bus is not None
+    limit = rating.limit_negative
+    values: dict[str, Value] = {**summary, **hold.values}
+    values["v_bus"] = facts.v_bus
+    values["v_return"] = pull.v_return
+    values["vgs_pulled_down"] = computed(pull.vgs, "V", "computed: V_return − V_source,held")
+    if vth is not None:
+        values["v_threshold"] = vth
+    where = "ground" if pull.path.returns_to == "ground" else f"rail {pull.path.end_net}"
+    zener = _zener_between(
+        boot_drive.level if boot_drive else None, rating.limit_positive, tolerance
+    )
+    clamp_fix = (
+        f"clamp it with a Zener of {_v(zener)} from the source {stage.source} (anode) to the "
+        f"gate {stage.gate} (cathode), which holds V_GS at about -0.7 V and stays off at the "
+        f"drive level"
+        if zener
+        else f"clamp it with a diode from the source {stage.source} (anode) to the gate "
+        f"{stage.gate} (cathode), which holds V_GS at about -0.7 V"
+    )
+    return ctx.finding(
+        pull.device,
+        f"{pull.device} pulls {stage.switch}'s gate to {where} while the source is held at "
+        f"{facts.v_bus.text()} by {' and '.join(hold.reasons)}: V_GS reaches {_v(pull.vgs)} "
+        f"at turn-off, beyond the {_v(limit)} limit{rating.derated_text(rating.negative)}, "
+        f"{_not_holding(clamps, 'negative')}",
+        values,
+        fix=f"return {pull.device} to the source {stage.source} instead of {where}, or {clamp_fix}",
+        derivation=(
+            "V_GS,min = V_return − V_source,held (the source is held up, it cannot follow)",
+            f"         = {pull.v_return.text()} − {facts.v_bus.text()} = {_v(pull.vgs)}",
+            *(
+                (
+                    f"τ = R_discharge·C = {values['tau_source_node'].text()} ≥ "
+                    f"{values['hold_time_constant'].text()} (option hold_time_constant)",
+                )
+                if "tau_source_node" in values and math.isfinite(values["tau_source_node"].value)
+                else ()
+            ),
+            f"limit = V_GS(min) × derating = {rating.negative.text()} × {rating.derating:g} "
+            f"= {_v(limit)}",
+        ),
+    )
+
+
+CHECKS = {"gate-overvoltage": check_gate_overvoltage}

@@ -1,0 +1,264 @@
+"""Hold capacitor checks: the charge of one on-time, and how long the supply can hold.
+
+Both rules use the shared account of what drains the hold capacitor while the switch is on
+(``StageFacts.on_drains``, built in :mod:`drivelint.checks.drains`).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterator
+
+from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.drains import OnDrains
+from drivelint.checks.facts import StageFacts
+from drivelint.netlist.values import format_si
+from drivelint.physics import bootstrap as boot_physics
+from drivelint.physics.preferred import next_preferred
+from drivelint.ratings.values import Value, computed
+from drivelint.stages.model import DriveStage
+
+PREFERRED_SERIES = "E12"
+
+
+def _drain_list(drains: OnDrains, most: int = 3) -> str:
+    named = drains.named()
+    shown = [f"{name} {format_si(current, 'A')}" for name, current in named[:most]]
+    if len(named) > most:
+        shown.append(f"{len(named) - most} more")
+    return ", ".join(shown) or "none known"
+
+
+# ---------------------------------------------------------------- bootstrap-capacitor-small
+
+
+def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
+    facts = ctx.facts
+    if stage.supply.kind != "bootstrap" or facts.capacitor is None:
+        return
+    c_hold, qg, dv, v_boot = facts.c_hold, facts.qg, facts.delta_v_allowed, facts.v_boot0
+    on_time = facts.on_time
+    if c_hold is None or qg is None or dv is None or v_boot is None or on_time is None:
+        return
+    # An unbounded on-time is dc-hold's finding; a switch never commanded on takes nothing.
+    if not math.isfinite(on_time.value) or on_time.value <= 0:
+        return
+    # Starting below the minimum is not a sizing problem: no capacitor can fix it.
+    if dv.value <= 0:
+        return
+    drains = facts.on_drains
+    q_total = boot_physics.charge_budget(
+        qg.value,
+        facts.q_ls.value,
+        drains.quiescent.value,
+        drains.i_leak.value,
+        drains.i_resistive.value,
+        on_time.value,
+    )
+    margin = ctx.options["margin"]
+    c_min = boot_physics.required_capacitance(q_total, dv.value)
+    c_required = margin * c_min
+    if c_hold.value >= c_required:
+        return
+    droop = boot_physics.droop_per_cycle(q_total, c_hold.value)
+    suggested = next_preferred(c_required, PREFERRED_SERIES)
+    droop_suggested = boot_physics.droop_per_cycle(q_total, suggested)
+    cap = facts.capacitor.name
+    drained = q_total - qg.value - facts.q_ls.value
+    values: dict[str, Value] = {
+        "capacitance": c_hold,
+        "gate_charge": qg,
+        "level_shift_charge": facts.q_ls,
+        **drains.values(),
+        "on_time": on_time,
+        "charge_per_cycle": computed(
+            q_total, "C", "computed: Q_g + Q_ls + (I_q + I_leak + I_R)·t_on"
+        ),
+        "v_boot": v_boot,
+        "v_boot_min": facts.v_boot_min,
+        "delta_v_allowed": dv,
+        "margin": Value(margin, "1", "option margin"),
+        "minimum_capacitance": computed(c_min, "F", "computed: Q_total/ΔV_allowed"),
+        "required_capacitance": computed(c_required, "F", "computed: margin·Q_total/ΔV_allowed"),
+        "droop_per_cycle": computed(droop, "V", "computed: Q_total/C"),
+        "suggested_capacitance": computed(
+            suggested, "F", f"computed: next {PREFERRED_SERIES} value ≥ required (IEC 60063)"
+        ),
+        "suggested_droop_per_cycle": computed(
+            droop_suggested, "V", "computed: Q_total/C_suggested"
+        ),
+    }
+    i_q, i_leak, i_r = drains.quiescent, drains.i_leak, drains.i_resistive
+    yield ctx.finding(
+        cap,
+        f"{cap} = {c_hold.text()} is too small for {stage.switch}: each on-time "
+        f"({on_time.text()}) takes {format_si(q_total, 'C')} (Q_g {qg.text()}"
+        + (f", Q_ls {facts.q_ls.text()}" if facts.q_ls.value else "")
+        + f", {format_si(drained, 'C')} drained), a droop of {format_si(droop, 'V')} per cycle "
+        f"against {dv.text()} allowed ({v_boot.text()} → {facts.v_boot_min.text()}); "
+        f"needs ≥ {format_si(c_required, 'F')}",
+        values,
+        fix=f"use {format_si(suggested, 'F')} ({PREFERRED_SERIES}) or more for {cap}: "
+        f"≥ {format_si(c_required, 'F')} = {margin:g} × {format_si(q_total, 'C')} / "
+        f"{dv.text()}; it then droops {format_si(droop_suggested, 'V')} per cycle",
+        derivation=(
+            "Q_total = Q_g + Q_ls + (I_q + I_leak + I_R)·t_on",
+            f"        = {qg.text()} + {facts.q_ls.text()} + ({i_q.text()} + {i_leak.text()} "
+            f"+ {i_r.text()})·{on_time.text()} = {format_si(q_total, 'C')}",
+            f"  drains: {_drain_list(drains, most=6)}",
+            "ΔV_allowed = V_boot,0 − V_boot,min",
+            f"           = {v_boot.text()} − {facts.v_boot_min.text()} = {dv.text()}"
+            f"  (V_boot,min: {facts.v_boot_min.origin})",
+            f"C_req = margin·Q_total/ΔV_allowed = {margin:g} × {format_si(q_total, 'C')} / "
+            f"{dv.text()} = {format_si(c_required, 'F')}",
+            f"ΔV per cycle = Q_total/C = {format_si(q_total, 'C')} / {c_hold.text()} = "
+            f"{format_si(droop, 'V')}",
+            f"next {PREFERRED_SERIES} value ≥ {format_si(c_required, 'F')}: "
+            f"{format_si(suggested, 'F')} (droop {format_si(droop_suggested, 'V')})",
+        ),
+    )
+
+
+# ---------------------------------------------------------------- dc-hold
+
+
+def _demanding_device(stage: DriveStage, facts: StageFacts) -> str:
+    """Where the finding belongs: the control source that demands the on-time, if the
+    on-time comes from its waveform; else the hold capacitor; else the switch."""
+    control = stage.control.source if stage.control else None
+    from_waveform = facts.condition("on_time_max") is None
+    if control and from_waveform and facts.device(control) is not None:
+        return control
+    if facts.capacitor is not None:
+        return facts.capacitor.name
+    return stage.switch
+
+
+def check_dc_hold(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
+    facts = ctx.facts
+    if stage.supply.kind != "bootstrap":
+        return
+    on_time = facts.on_time
+    if on_time is None or on_time.value <= 0:
+        return
+    unbounded = not math.isfinite(on_time.value)
+    c_hold, dv, qg = facts.c_hold, facts.delta_v_allowed, facts.qg
+    drains = facts.on_drains
+    i_drain = drains.total
+    t_hold: float | None = None
+    if c_hold is not None and dv is not None:
+        # An unknown gate charge is taken as none: the hold time is then an upper bound.
+        t_hold = boot_physics.hold_time(
+            c_hold.value, dv.value, qg.value if qg else 0.0, i_drain.value
+        )
+    if not unbounded:
+        if t_hold is None or c_hold is None or dv is None or qg is None:
+            return
+        # Below the minimum from the start, or a gate charge alone beyond the allowed
+        # droop: the supply voltage or the capacitor is the problem, reported elsewhere.
+        if dv.value <= 0 or c_hold.value * dv.value <= qg.value:
+            return
+        if on_time.value <= t_hold:
+            return
+    yield _dc_hold_finding(stage, ctx, drains, t_hold)
+
+
+def _dc_hold_finding(
+    stage: DriveStage, ctx: CheckContext, drains: OnDrains, t_hold: float | None
+) -> Finding:
+    facts = ctx.facts
+    on_time = facts.on_time
+    assert on_time is not None
+    c_hold, dv, qg, v_boot = facts.c_hold, facts.delta_v_allowed, facts.qg, facts.v_boot0
+    switch = stage.switch
+    i_drain = drains.total
+    cap_name = facts.capacitor.name if facts.capacitor else "the hold capacitor"
+    device = _demanding_device(stage, facts)
+    values: dict[str, Value] = {"on_time": on_time, **drains.values()}
+    if c_hold is not None:
+        values["capacitance"] = c_hold
+    if qg is not None:
+        values["gate_charge"] = qg
+    if v_boot is not None and dv is not None:
+        values["v_boot"] = v_boot
+        values["v_boot_min"] = facts.v_boot_min
+        values["delta_v_allowed"] = dv
+    derivation: list[str] = []
+    if t_hold is not None and c_hold is not None and dv is not None:
+        origin = "computed: (C·ΔV_allowed − Q_g)/I_drain"
+        if qg is None:
+            origin += " with Q_g unknown (taken as 0: an upper bound)"
+        values["hold_time"] = computed(t_hold, "s", origin)
+        q_text = qg.text() if qg else "0 C (unknown)"
+        derivation += [
+            "t_hold = (C·ΔV_allowed − Q_g)/I_drain,on",
+            f"       = ({c_hold.text()} × {dv.text()} − {q_text}) / {i_drain.text()} "
+            f"= {format_si(t_hold, 's')}",
+            f"  I_drain,on = I_q + I_leak + I_R = {drains.quiescent.text()} + "
+            f"{drains.i_leak.text()} + {drains.i_resistive.text()}",
+            f"  drains: {_drain_list(drains, most=8)}",
+            f"  ΔV_allowed = V_boot,0 − V_boot,min = "
+            f"{v_boot.text() if v_boot else '?'} − {facts.v_boot_min.text()} = {dv.text()}",
+        ]
+    unbounded = not math.isfinite(on_time.value)
+    derivation.append(f"t_on = {'unbounded' if unbounded else on_time.text()} ({on_time.origin})")
+    alternatives = "a charge pump, an isolated gate supply, or periodic refresh pulses"
+    if t_hold is not None and math.isfinite(t_hold) and c_hold is not None:
+        held = format_si(t_hold, "s")
+        hold_part = (
+            f"{cap_name} ({c_hold.text()}) keeps the boot supply above "
+            f"{facts.v_boot_min.text()} for only {held}: {i_drain.text()} drains it "
+            f"({_drain_list(drains)})"
+        )
+        refresh = f"turn {switch} off briefly at least every {held}"
+        largest = f"the largest on-time that works as built is {held}"
+    elif t_hold is not None:
+        hold_part = (
+            f"no steady drain of {cap_name} is known, but the leakage of its diode, "
+            "capacitor and gate will still empty it"
+        )
+        refresh = f"turn {switch} off briefly at regular intervals"
+        largest = "give the diode's ir_leak and the driver's iq_boot to get a hold time"
+    else:
+        hold_part = f"{cap_name} is recharged only while {switch} is off"
+        refresh = f"turn {switch} off briefly at regular intervals"
+        largest = "give the hold capacitor's value to get a hold time"
+    if unbounded:
+        by = f" by {device}" if stage.control and device == stage.control.source else ""
+        message = f"{switch} is held on without limit{by} from a bootstrap supply; {hold_part}"
+        fix = (
+            f"a bootstrap supply recharges only while {switch} is off, so it cannot hold it on "
+            f"at DC: use {alternatives} ({refresh}); {largest}"
+        )
+    else:
+        assert t_hold is not None and qg is not None and dv is not None
+        needed = boot_physics.required_capacitance(
+            boot_physics.charge_budget(
+                qg.value,
+                0.0,
+                drains.quiescent.value,
+                drains.i_leak.value,
+                drains.i_resistive.value,
+                on_time.value,
+            ),
+            dv.value,
+        )
+        values["capacitance_for_on_time"] = computed(
+            needed, "F", "computed: (Q_g + I_drain·t_on)/ΔV_allowed"
+        )
+        message = (
+            f"{switch} is commanded on for {on_time.text()} at a time, longer than its "
+            f"bootstrap supply can hold: {hold_part}"
+        )
+        fix = (
+            f"keep on-times within {format_si(t_hold, 's')}, or use {alternatives} "
+            f"({refresh}); holding {on_time.text()} from the bootstrap would take "
+            f"{cap_name} ≥ {format_si(needed, 'F')}"
+        )
+    return ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation))
+
+
+CHECKS = {
+    "bootstrap-capacitor-small": check_capacitor_small,
+    "dc-hold": check_dc_hold,
+}

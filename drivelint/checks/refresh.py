@@ -1,0 +1,304 @@
+"""Bootstrap refresh: a path that pulls the switch node low, and enough off-time to use it."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterator
+from dataclasses import dataclass
+
+from drivelint.checks.base import CheckContext, Finding
+from drivelint.netlist.values import format_si
+from drivelint.physics import bootstrap as boot_physics
+from drivelint.physics import diode as diode_physics
+from drivelint.physics.preferred import preferred_values
+from drivelint.ratings.values import Value, computed
+from drivelint.stages.model import DriveStage, Refresh
+
+# Refresh paths that switch the node to ground actively; a load to ground only leaks it
+# there, so it counts only when nothing active is fitted.
+_ACTIVE = ("low-side switch", "freewheel diode")
+
+
+@dataclass(frozen=True, slots=True)
+class _Path:
+    refresh: Refresh
+    resistance: Value
+
+
+def check_no_refresh(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
+    supply = stage.supply
+    # An isolated or pumped supply does not depend on the switch node going low.
+    if supply.kind != "bootstrap":
+        return
+    if supply.diode is not None and supply.diode_orientation == "reversed":
+        yield _reversed_diode(stage, ctx)
+        return
+    if not stage.refresh:
+        yield _no_path(stage, ctx)
+        return
+    yield from _not_sustained(stage, ctx)
+
+
+def _common_values(ctx: CheckContext) -> dict[str, Value]:
+    facts = ctx.facts
+    values: dict[str, Value] = {"v_boot_min": facts.v_boot_min}
+    for name, value in (("v_aux", facts.v_aux), ("c_hold", facts.c_hold)):
+        if value is not None:
+            values[name] = value
+    return values
+
+
+def _reversed_diode(stage: DriveStage, ctx: CheckContext) -> Finding:
+    supply = stage.supply
+    diode = supply.diode or ""
+    aux = supply.aux.net if supply.aux else "the auxiliary rail"
+    boot = supply.boot_net or "the boot net"
+    cap = supply.capacitor or "the hold capacitor"
+    return ctx.finding(
+        diode,
+        f"{diode} is reversed: its cathode faces {aux} and its anode {boot}, so {cap} can "
+        f"never charge while {stage.source} is pulled low and {stage.switch} gets no gate supply",
+        _common_values(ctx),
+        fix=f"turn {diode} round: anode toward {aux}, cathode on {boot}",
+        derivation=(f"{diode}: anode on the boot side, cathode on the {aux} side",),
+    )
+
+
+def _no_path(stage: DriveStage, ctx: CheckContext) -> Finding:
+    supply = stage.supply
+    cap = supply.capacitor or "the hold capacitor"
+    return ctx.finding(
+        stage.switch,
+        f"nothing pulls switch node {stage.source} low while {stage.switch} is off "
+        f"(no low-side switch, freewheel diode or load to ground), so {cap} is never "
+        "recharged and the gate supply runs down",
+        _common_values(ctx),
+        fix=f"give {stage.source} a path to ground during the off-time: a low-side switch or "
+        "freewheel diode from it to ground (a load to ground also refreshes, more slowly), "
+        "or use an isolated gate supply",
+        derivation=(f"refresh paths found at {stage.source}: none",),
+    )
+
+
+def _path_resistance(ctx: CheckContext, refresh: Refresh) -> Value | None:
+    """Resistance the recharge current meets in one refresh path; None when unknown.
+
+    An active path whose resistance is not known counts as 0 Ω, which errs toward a higher
+    sustained voltage: the rule then stays quiet rather than guess.
+    """
+    facts = ctx.facts
+    device = facts.device(refresh.devices[0]) if refresh.devices else None
+    names = "+".join(refresh.devices)
+    if refresh.kind == "low-side switch":
+        rated = facts.ratings.get(device, "rds_on")
+        if rated is not None and device is not None:
+            return Value(
+                rated.value / device.multiplier, "Ohm", f"{names} R_DS(on): {rated.origin}"
+            )
+        return Value(0.0, "Ohm", f"{names} R_DS(on) unknown, taken as 0")
+    if refresh.kind == "freewheel diode":
+        model = device.model if device else None
+        if model is not None and device is not None and model.params.get("rs"):
+            return Value(
+                model.params["rs"] / device.multiplier, "Ohm", f"{names} model {model.name} RS"
+            )
+        return Value(0.0, "Ohm", f"{names} series resistance unknown, taken as 0")
+    if refresh.resistance is not None and math.isfinite(refresh.resistance):
+        return Value(refresh.resistance, "Ohm", f"{refresh.kind} {names}")
+    return None
+
+
+def _refresh_path(ctx: CheckContext, stage: DriveStage) -> _Path | None:
+    """The path that recharges best: the lowest-resistance active one, else a load."""
+    known = [
+        _Path(refresh, resistance)
+        for refresh in stage.refresh
+        if (resistance := _path_resistance(ctx, refresh)) is not None
+    ]
+    active = [p for p in known if p.refresh.kind in _ACTIVE]
+    pool = active or known
+    return min(pool, key=lambda p: p.resistance.value) if pool else None
+
+
+def _diode_resistance(ctx: CheckContext) -> Value:
+    diode = ctx.facts.diode
+    model = diode.model if diode else None
+    if diode is not None and model is not None and model.params.get("rs"):
+        return Value(
+            model.params["rs"] / diode.multiplier,
+            "Ohm",
+            f"model {model.name} RS ({model.span.path}:{model.span.line})",
+        )
+    return Value(0.0, "Ohm", "diode series resistance unknown, taken as 0")
+
+
+def _recharge_drop(ctx: CheckContext, i_mean: float) -> Value:
+    """The diode's forward drop while it recharges, at the mean current Q_cycle/t_off.
+
+    A rated V_F is used as it is. A model card's drop is taken at the current the diode
+    carries through a partial recharge (the Shockley relation plus I·RS), not at the
+    small current that ends a full one: with t_off ≪ τ the diode conducts all off-time.
+    """
+    facts = ctx.facts
+    diode = facts.diode
+    rated = facts.ratings.get(diode, "vf")
+    model = diode.model if diode else None
+    if rated is not None or diode is None or model is None or not model.params.get("is"):
+        return facts.diode_vf
+    current = i_mean / diode.multiplier
+    params = model.params
+    drop = diode_physics.forward_voltage(current, params["is"], params.get("n", 1.0))
+    drop += current * params.get("rs", 0.0)
+    return Value(
+        drop,
+        "V",
+        f"model {model.name} IS/N/RS at the mean recharge current {format_si(i_mean, 'A')} "
+        f"({model.span.path}:{model.span.line})",
+    )
+
+
+def _largest_preferred_at_most(value: float, series: str = "E12") -> float | None:
+    """The largest IEC 60063 value of ``series`` that is ≤ ``value`` (None for ≤ 0)."""
+    if not (value > 0 and math.isfinite(value)):
+        return None
+    decade = math.floor(math.log10(value))
+    best: float | None = None
+    for exponent in (decade - 1, decade):
+        for step in preferred_values(series):
+            candidate = float(f"{step!r}e{exponent}")
+            if candidate <= value * (1 + 1e-9):
+                best = candidate
+    return best
+
+
+def _not_sustained(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
+    facts = ctx.facts
+    fsw, duty, off_time, on_time = facts.fsw, facts.duty_max, facts.off_time, facts.on_time
+    c_hold, qg, v_aux = facts.c_hold, facts.qg, facts.v_aux
+    if fsw is None or duty is None or off_time is None:
+        return
+    if on_time is None:
+        # Conditions without a waveform give no longest on-time; one period's share stands in.
+        on_time = computed(duty.value / fsw.value, "s", "computed: D/f_sw")
+    if c_hold is None or qg is None or v_aux is None or facts.diode is None:
+        return
+    # A zero off-time or an unbounded on-time is a hold problem, not a refresh one.
+    if not (off_time.value > 0 and math.isfinite(on_time.value)) or c_hold.value <= 0:
+        return
+    path = _refresh_path(ctx, stage)
+    if path is None:
+        return
+    supply = stage.supply
+    r_series = Value(
+        supply.series_resistance or 0.0,
+        "Ohm",
+        "+".join(supply.series_resistors) if supply.series_resistors else "no series resistor",
+    )
+    r_diode = _diode_resistance(ctx)
+    r_charge = r_series.value + r_diode.value + path.resistance.value
+    c = c_hold.value
+    q_cycle = boot_physics.charge_budget(
+        qg.value,
+        facts.q_ls.value,
+        facts.i_quiescent.value,
+        facts.i_leak.value,
+        facts.i_resistive.value,
+        on_time.value,
+    )
+    # In steady state the diode puts back Q_cycle in each off-time.
+    v_f = _recharge_drop(ctx, q_cycle / off_time.value)
+    v_target = computed(
+        boot_physics.bootstrap_voltage(v_aux.value, v_f.value), "V", "computed: V_aux − V_F"
+    )
+    v_min = facts.v_boot_min.value
+    t_off_min = boot_physics.min_off_time_for_boot_min(v_target.value, v_min, q_cycle, c, r_charge)
+    # Even a full recharge every cycle falls short: the capacitor or the boot level is the
+    # problem (other rules), not the refresh.
+    if not math.isfinite(t_off_min):
+        return
+    sustained = boot_physics.sustained_boot_voltage(
+        v_target.value, q_cycle, c, r_charge, off_time.value
+    )
+    if sustained.valley >= v_min:
+        return
+    tau = boot_physics.refresh_time_constant(r_charge, c)
+    max_duty = boot_physics.max_duty_for_boot_min(
+        v_target.value, v_min, q_cycle, c, r_charge, fsw.value
+    )
+    delta_v = boot_physics.droop_per_cycle(q_cycle, c)
+    one_minus_a = -math.expm1(-off_time.value / tau) if tau > 0 else 1.0
+    # τ scales with R, so the resistance that just makes t_off,min equal t_off is R·t_off/t_off,min.
+    r_max = r_charge * off_time.value / t_off_min if t_off_min > 0 else math.inf
+
+    values: dict[str, Value] = {
+        **_common_values(ctx),
+        "fsw": fsw,
+        "duty_max": duty,
+        "on_time": on_time,
+        "off_time": off_time,
+        "diode_vf": v_f,
+        "v_target": v_target,
+        "qg": qg,
+        "q_ls": facts.q_ls,
+        "i_drain": facts.i_drain,
+        "q_per_cycle": computed(q_cycle, "C", "computed: Q_g + Q_ls + I_drain·t_on"),
+        "delta_v_per_cycle": computed(delta_v, "V", "computed: Q_cycle / C"),
+        "r_series": r_series,
+        "r_diode": r_diode,
+        "r_refresh": path.resistance,
+        "r_charge": computed(r_charge, "Ohm", "computed: R_series + R_D + R_refresh"),
+        "refresh_tau": computed(tau, "s", "computed: τ = R_charge·C"),
+        "sustained_boot_voltage": computed(
+            sustained.valley, "V", "computed: V_target − ΔV/(1 − exp(−t_off/τ)) (end of on-time)"
+        ),
+        "sustained_boot_peak": computed(
+            sustained.peak, "V", "computed: V_target − ΔV·a/(1 − a) (end of off-time)"
+        ),
+        "min_off_time": computed(
+            t_off_min, "s", "computed: τ·ln((V_target − V_min)/(V_target − V_min − ΔV))"
+        ),
+        "max_duty": computed(max_duty, "1", "computed: 1 − t_off,min·f_sw"),
+        "max_r_charge": computed(r_max, "Ohm", "computed: R_charge·t_off/t_off,min"),
+    }
+    duty_text = f"{math.floor(max_duty * 1000) / 10:.1f}%"
+    device = (stage.control.source if stage.control else None) or supply.capacitor or stage.switch
+    cap = supply.capacitor or "the hold capacitor"
+    message = (
+        f"{cap} is not refreshed at {duty.value * 100:.1f}% duty: the {off_time.text()} off-time "
+        f"is short against τ = {format_si(r_charge, 'Ω')} × {c_hold.text()} = "
+        f"{format_si(tau, 's')}, so the boot supply settles at {format_si(sustained.valley, 'V')} "
+        f"at the end of each on-time, below V_boot,min {facts.v_boot_min.text()}; the largest "
+        f"duty that keeps it above is {duty_text} (off-time ≥ {format_si(t_off_min, 's')} "
+        f"at {fsw.text()})"
+    )
+    fix = f"limit the duty to {duty_text} (off-time ≥ {format_si(t_off_min, 's')})"
+    fixed_part = r_diode.value + path.resistance.value
+    if supply.series_resistors and r_max > fixed_part:
+        allowed = r_max - fixed_part
+        chosen = _largest_preferred_at_most(allowed)
+        names = "+".join(supply.series_resistors)
+        fix += f", or lower {names} from {r_series.text()} to ≤ {format_si(allowed, 'Ω')}" + (
+            f" (e.g. {format_si(chosen, 'Ω')})" if chosen else ""
+        )
+    if off_time.value < 0.3 * tau:
+        # With t_off ≪ τ the charge put back per cycle tends to V·t_off/R whatever C is.
+        fix += "; a larger capacitor helps little while the off-time is much shorter than τ"
+    derivation = (
+        f"R_charge = R_series + R_D + R_refresh = {r_series.text()} + {r_diode.text()} + "
+        f"{path.resistance.text()} ({'+'.join(path.refresh.devices)}) = {format_si(r_charge, 'Ω')}",
+        f"τ = R_charge·C = {format_si(r_charge, 'Ω')} × {c_hold.text()} = {format_si(tau, 's')}",
+        f"Q = Q_g + Q_ls + I_drain·t_on = {qg.text()} + {facts.q_ls.text()} + "
+        f"{facts.i_drain.text()} × {on_time.text()} = {format_si(q_cycle, 'C')}; "
+        f"ΔV = Q/C = {format_si(delta_v, 'V')}",
+        f"V_target = V_aux − V_F = {v_aux.text()} − {v_f.text()} = {v_target.text()}",
+        f"1 − a = 1 − exp(−t_off/τ) = 1 − exp(−{off_time.text()} / {format_si(tau, 's')}) "
+        f"= {one_minus_a:.4g}",
+        f"V_valley = V_target − ΔV/(1 − a) = {format_si(sustained.valley, 'V')} "
+        f"< V_boot,min = {facts.v_boot_min.text()}",
+        "t_off,min = τ·ln((V_target − V_min)/(V_target − V_min − ΔV)) = "
+        f"{format_si(t_off_min, 's')}; D_max = 1 − t_off,min·f_sw = {max_duty:.4g}",
+    )
+    yield ctx.finding(device, message, values, fix=fix, derivation=derivation)
+
+
+CHECKS = {"bootstrap-no-refresh": check_no_refresh}
