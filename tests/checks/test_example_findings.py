@@ -1,0 +1,63 @@
+"""`drivelint check examples/`: exactly the planted mistakes of examples/README.md, at their lines.
+
+Each rule's own test file asserts the numbers; this one holds the whole set, so a new rule
+or a recognition change that adds a false alarm to a clean example fails here.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from drivelint.pipeline import check_path
+
+ROOT = Path(__file__).resolve().parents[2]
+
+# (example, rule, device, line): the mistakes listed in examples/README.md.
+EXPECTED = {
+    ("buck12v_5v_400k_sync.cir", "bootstrap-diode-slow", "d_bst", 26),
+    ("heater96v_isolated_supply.cir", "gate-overvoltage", "d_z", 30),
+    ("loadswitch24v_dc_enable.cir", "dc-hold", "ven", 38),
+    ("loadswitch24v_dc_enable.cir", "gate-overvoltage", "q4", 52),
+    ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-no-refresh", "vhia", 38),
+    ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-diode-voltage", "xlega.d_bt", 47),
+    ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-diode-voltage", "xlegb.d_bt", 47),
+    ("tool36_leg_totem_pole.cir", "bootstrap-capacitor-small", "c1", 34),
+}
+CLEAN = [
+    "lev48_phase_leg_npn_shifter.cir",
+    "induction325_half_bridge_driver.cir",
+    "boost12v_led_lowside.cir",
+    "heater12v_pchannel_highside.cir",
+    "linreg24v_source_follower.cir",
+]
+
+
+@pytest.fixture(scope="module")
+def found(request: pytest.FixtureRequest) -> set[tuple[str, str, str, int]]:
+    out = set()
+    for example in sorted((ROOT / "examples").glob("*.cir")):
+        result = check_path(example)
+        assert not [d for d in result.diagnostics if d.severity.label == "error"], example
+        for finding in result.findings:
+            out.add((example.name, finding.rule, finding.device, finding.span.line))
+    return out
+
+
+def test_every_planted_mistake_is_found_at_its_line(found: set[tuple[str, str, str, int]]) -> None:
+    assert EXPECTED <= found
+
+
+def test_nothing_else_is_reported(found: set[tuple[str, str, str, int]]) -> None:
+    assert found - EXPECTED == set()
+
+
+@pytest.mark.parametrize("example", CLEAN)
+def test_clean_examples_exit_zero(example: str) -> None:
+    from click.testing import CliRunner
+
+    from drivelint.cli import main
+
+    result = CliRunner().invoke(main, ["check", "--no-cache", str(ROOT / "examples" / example)])
+    assert result.exit_code == 0, result.output
