@@ -8,12 +8,13 @@ came from.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from functools import cached_property
 from typing import TYPE_CHECKING
 
 from drivelint.circuit.model import Circuit, Device
 from drivelint.diagnostics import Span
+from drivelint.netlist.waveforms import Waveform
 from drivelint.physics import bootstrap as boot_physics
 from drivelint.physics import diode as diode_physics
 from drivelint.physics import gate as gate_physics
@@ -142,38 +143,36 @@ class StageFacts:
         frequency = waveform.frequency() if waveform else None
         return Value(frequency, "Hz", self._control_origin()) if frequency else None
 
-    @cached_property
-    def duty_max(self) -> Value | None:
-        given = self.condition("duty_max")
+    def _measure_control(
+        self,
+        key: str,
+        unit: str,
+        above: Callable[[Waveform, float], float | None],
+        below: Callable[[Waveform, float], float | None],
+    ) -> Value | None:
+        """A condition given by directive or configuration, else measured on the control
+        waveform: the time (or fraction) it commands the switch on. An inverting drive
+        commands it on while its input is low."""
+        given = self.condition(key)
         if given is not None:
             return given
         control = self.stage.control
         if control is None or control.waveform is None or self.threshold is None:
             return None
-        waveform = control.waveform
-        duty = (
-            waveform.duty_below(self.threshold)
-            if control.inverting
-            else waveform.duty_above(self.threshold)
-        )
-        return Value(duty, "1", self._control_origin()) if duty is not None else None
+        measure = below if control.inverting else above
+        value = measure(control.waveform, self.threshold)
+        return Value(value, unit, self._control_origin()) if value is not None else None
+
+    @cached_property
+    def duty_max(self) -> Value | None:
+        return self._measure_control("duty_max", "1", Waveform.duty_above, Waveform.duty_below)
 
     @cached_property
     def on_time(self) -> Value | None:
         """The longest continuous on-time the control demands (inf for a DC command)."""
-        given = self.condition("on_time_max")
-        if given is not None:
-            return given
-        control = self.stage.control
-        if control is None or control.waveform is None or self.threshold is None:
-            return None
-        waveform = control.waveform
-        time = (
-            waveform.longest_time_below(self.threshold)
-            if control.inverting
-            else waveform.longest_time_above(self.threshold)
+        return self._measure_control(
+            "on_time_max", "s", Waveform.longest_time_above, Waveform.longest_time_below
         )
-        return Value(time, "s", self._control_origin())
 
     @cached_property
     def off_time(self) -> Value | None:
