@@ -165,13 +165,18 @@ class StageFacts:
 
     @cached_property
     def duty_max(self) -> Value | None:
-        return self._measure_control("duty_max", "1", Waveform.duty_above, Waveform.duty_below)
+        return self._measure_control(
+            "duty_max", "1", lambda w, t: w.duty_above(t), lambda w, t: w.duty_below(t)
+        )
 
     @cached_property
     def on_time(self) -> Value | None:
         """The longest continuous on-time the control demands (inf for a DC command)."""
         return self._measure_control(
-            "on_time_max", "s", Waveform.longest_time_above, Waveform.longest_time_below
+            "on_time_max",
+            "s",
+            lambda w, t: w.longest_time_above(t),
+            lambda w, t: w.longest_time_below(t),
         )
 
     @cached_property
