@@ -175,53 +175,91 @@ def code_digest() -> str:
         package = Path(__file__).resolve().parent
         roots = [package, package.parent / "rules", package.parent / "grammar"]
         files = sorted(
-            p for root in roots if root.is_dir() for p in root.rglob("*")
+            p
+            for root in roots
+            if root.is_dir()
+            for p in root.rglob("*")
             if p.suffix in (".py", ".toml", ".lark")
         )
         _CODE_DIGEST.append(_digest(*(p.read_bytes() for p in files)))
     return _CODE_DIGEST[0]
 
 
+_CONFIG_DIGESTS: dict[tuple[object, ...], bytes] = {}
+
+
+def _stat_signature(path: Path | None) -> tuple[object, ...]:
+    try:
+        info = path.stat() if path is not None else None
+    except OSError:
+        info = None
+    return (path, info.st_mtime_ns, info.st_size) if info else (path, None, None)
+
+
 def _config_digest(job: Job, options: BatchOptions) -> bytes:
+    """Everything besides the netlist that decides its result; memoised while those files'
+    modification times and sizes stay the same."""
     config = job.config
-    text = b""
-    if config.path is not None:
-        text = config.path.read_bytes() if config.path.is_file() else b""
-    parts = [str(p).encode() + _file_digest(p).encode() for p in (*config.parts, *options.parts)]
-    beside = job.path.parent / "parts.toml"
-    parts.append(_file_digest(beside).encode())
-    return _digest(
-        __version__.encode(), code_digest().encode(), str(CACHE_FORMAT).encode(), text, *parts
-    ).encode()
+    files = (config.path, *config.parts, *options.parts, job.path.parent / "parts.toml")
+    key = tuple(_stat_signature(f) for f in files)
+    if key not in _CONFIG_DIGESTS:
+        text = b""
+        if config.path is not None and config.path.is_file():
+            text = config.path.read_bytes()
+        parts = [
+            str(p).encode() + _file_digest(p).encode() for p in (*config.parts, *options.parts)
+        ]
+        parts.append(_file_digest(job.path.parent / "parts.toml").encode())
+        _CONFIG_DIGESTS[key] = _digest(
+            __version__.encode(), code_digest().encode(), str(CACHE_FORMAT).encode(), text, *parts
+        ).encode()
+    return _CONFIG_DIGESTS[key]
 
 
-def _cache_key(job: Job, options: BatchOptions, content: bytes) -> str:
-    return _digest(str(job.path).encode(), content, _config_digest(job, options))
+def _entry(job: Job, options: BatchOptions) -> Path | None:
+    """The cache file for a job, or None when the job is not cacheable."""
+    if options.cache_dir is None or job.text is not None:
+        return None
+    try:
+        content = job.path.read_bytes()
+    except OSError:
+        return None
+    key = _digest(str(job.path).encode(), content, _config_digest(job, options))
+    return options.cache_dir / key[:2] / f"{key}.pickle"
+
+
+def cache_lookup(job: Job, options: BatchOptions) -> CheckResult | None:
+    """The cached result of a job whose netlist, includes and settings are unchanged."""
+    entry = _entry(job, options)
+    if entry is None:
+        return None
+    try:
+        with entry.open("rb") as handle:
+            dependencies, result = pickle.load(handle)
+    except (OSError, pickle.UnpicklingError, EOFError, ValueError, TypeError, AttributeError):
+        return None
+    if all(_file_digest(Path(p)) == d for p, d in dependencies):
+        return result  # type: ignore[no-any-return]
+    return None
+
+
+def check_and_store(job: Job, options: BatchOptions) -> CheckResult:
+    """Check a job and, when it completed, keep its result in the cache."""
+    result = slim(check_job(job, options))
+    entry = _entry(job, options)
+    if entry is None or any(d.code in ("internal-error", "limit") for d in result.diagnostics):
+        return result  # a crash or a bound is not worth keeping: the next run tries again
+    dependencies = [(p, _file_digest(Path(p))) for p in result.circuit.files[1:]]
+    _write_atomically(entry, pickle.dumps((dependencies, result), protocol=pickle.HIGHEST_PROTOCOL))
+    return result
 
 
 def cached_check(job: Job, options: BatchOptions) -> tuple[CheckResult, bool]:
     """Check through the cache: (result, came from cache)."""
-    if options.cache_dir is None or job.text is not None:
-        return slim(check_job(job, options)), False
-    try:
-        content = job.path.read_bytes()
-    except OSError:
-        return slim(check_job(job, options)), False
-    key = _cache_key(job, options, content)
-    entry = options.cache_dir / key[:2] / f"{key}.pickle"
-    try:
-        with entry.open("rb") as handle:
-            dependencies, result = pickle.load(handle)
-        if all(_file_digest(Path(p)) == d for p, d in dependencies):
-            return result, True
-    except (OSError, pickle.UnpicklingError, EOFError, ValueError, TypeError, AttributeError):
-        pass
-    result = slim(check_job(job, options))
-    if any(d.code in ("internal-error", "limit") for d in result.diagnostics):
-        return result, False  # not worth keeping: the next run should try again
-    dependencies = [(p, _file_digest(Path(p))) for p in result.circuit.files[1:]]
-    _write_atomically(entry, pickle.dumps((dependencies, result), protocol=pickle.HIGHEST_PROTOCOL))
-    return result, False
+    found = cache_lookup(job, options)
+    if found is not None:
+        return found, True
+    return check_and_store(job, options), False
 
 
 def _write_atomically(path: Path, data: bytes) -> None:
@@ -251,9 +289,17 @@ def slim(result: CheckResult) -> CheckResult:
     return replace(result, circuit=replace(circuit, devices=devices, instances=instances, nets=()))
 
 
-def _worker(args: tuple[Job, BatchOptions]) -> tuple[CheckResult, bool]:
-    result, hit = cached_check(*args)
-    return result, hit
+def _worker(args: tuple[Job, BatchOptions]) -> CheckResult:
+    return check_and_store(*args)
+
+
+def _warm_up() -> None:
+    """Load what every check needs before workers fork, so they inherit it."""
+    from drivelint.checks.registry import registry
+    from drivelint.netlist.reader import _LineParser
+
+    registry()
+    _LineParser.get()
 
 
 def run_batch(
@@ -261,25 +307,32 @@ def run_batch(
     options: BatchOptions,
     progress: Callable[[int], None] | None = None,
 ) -> tuple[list[CheckResult], BatchStats]:
-    """Check every job; results in the order of ``jobs``."""
+    """Check every job; results in the order of ``jobs``.
+
+    Cache hits are answered here; only the misses go to the worker processes.
+    """
     stats = BatchStats(files=len(jobs))
-    results: list[CheckResult] = []
-    if options.jobs <= 1 or len(jobs) <= 1:
-        outcomes: Iterator[tuple[CheckResult, bool]] = (cached_check(j, options) for j in jobs)
-        for result, hit in outcomes:
-            results.append(result)
-            stats.from_cache += hit
+    results: list[CheckResult | None] = [cache_lookup(j, options) for j in jobs]
+    stats.from_cache = sum(r is not None for r in results)
+    if progress and stats.from_cache:
+        progress(stats.from_cache)
+    missing = [i for i, r in enumerate(results) if r is None]
+    if options.jobs <= 1 or len(missing) <= 1:
+        for index in missing:
+            results[index] = check_and_store(jobs[index], options)
             if progress:
                 progress(1)
     else:
-        chunk = max(1, min(32, len(jobs) // (options.jobs * 8) or 1))
+        _warm_up()
+        chunk = max(1, min(16, len(missing) // (options.jobs * 8) or 1))
         with ProcessPoolExecutor(max_workers=options.jobs) as pool:
-            for result, hit in pool.map(_worker, [(j, options) for j in jobs], chunksize=chunk):
-                results.append(result)
-                stats.from_cache += hit
+            work = [(jobs[i], options) for i in missing]
+            for index, result in zip(missing, pool.map(_worker, work, chunksize=chunk)):
+                results[index] = result
                 if progress:
                     progress(1)
+    done = [r for r in results if r is not None]
     stats.failed = [
-        r.circuit.path for r in results if any(d.severity is Severity.ERROR for d in r.diagnostics)
+        r.circuit.path for r in done if any(d.severity is Severity.ERROR for d in r.diagnostics)
     ]
-    return results, stats
+    return done, stats
