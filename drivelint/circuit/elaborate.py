@@ -8,7 +8,6 @@ part maker's MOSFET model) becomes one transistor named after its instance.
 
 from __future__ import annotations
 
-import math
 from collections import deque
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
@@ -41,7 +40,6 @@ from drivelint.netlist.statements import (
     TranCard,
     Word,
 )
-from drivelint.netlist.values import format_si
 
 DEFAULT_GROUND_ALIASES = frozenset({"0", "gnd"})
 
@@ -154,14 +152,16 @@ class _Elaborator:
             elif isinstance(statement, ModelCard):
                 if statement.name in scope.models:
                     self.report(
-                        Severity.WARNING, statement.span,
+                        Severity.WARNING,
+                        statement.span,
                         f"model '{statement.name}' defined again; this definition is used",
                     )
                 scope.models[statement.name] = statement
             elif isinstance(statement, Subckt):
                 if statement.name in scope.subckts:
                     self.report(
-                        Severity.WARNING, statement.span,
+                        Severity.WARNING,
+                        statement.span,
                         f"subcircuit '{statement.name}' defined again; this definition is used",
                     )
                 scope.subckts[statement.name] = statement
@@ -212,7 +212,7 @@ class _Elaborator:
         )
 
     def transient_settings(self, scope: Scope) -> object:
-        from drivelint.netlist.waveforms import TransientSettings
+        from drivelint.netlist.waveforms import TransientSettings, WaveformError, check_tran_time
 
         card = self.tran
         if not isinstance(card, TranCard):
@@ -226,15 +226,14 @@ class _Elaborator:
             except DiagnosticError as exc:
                 self.record(exc)
                 return TransientSettings()
-            if len(numbers) < 2 and not (math.isfinite(number) and number > 0.0):
-                # Only TSTEP and TSTOP feed the source defaults, and both must be times.
-                name = ("TSTEP", "TSTOP")[len(numbers)]
-                self.report(
-                    Severity.ERROR, item.span,
-                    f".tran {name} is {format_si(number, 's')}; expected a finite time > 0 s",
-                    "tran",
-                )
-                return TransientSettings()
+            if len(numbers) < 2:
+                # Only TSTEP and TSTOP feed the source defaults; each is checked here,
+                # where its span is known, against the waveform module's bounds.
+                try:
+                    check_tran_time(("tstep", "tstop")[len(numbers)], number)
+                except WaveformError as exc:
+                    self.report(Severity.ERROR, item.span, str(exc), "tran")
+                    return TransientSettings()
             numbers.append(number)
         return TransientSettings(
             tstep=numbers[0] if numbers else None,
@@ -248,7 +247,8 @@ class _Elaborator:
                 continue
             if statement.name in seen:
                 self.report(
-                    Severity.ERROR, statement.span,
+                    Severity.ERROR,
+                    statement.span,
                     f"duplicate element name '{statement.name}'; this line is ignored",
                 )
                 continue
@@ -264,9 +264,11 @@ class _Elaborator:
     def add(self, device: Device) -> None:
         if len(self.devices) >= self.limits.max_devices:
             self.report(
-                Severity.ERROR, device.span,
+                Severity.ERROR,
+                device.span,
                 f"more than {self.limits.max_devices} devices after flattening "
-                "(limit max_devices); elaboration stopped here", "limit",
+                "(limit max_devices); elaboration stopped here",
+                "limit",
             )
             raise _LimitReached
         self.devices[device.name] = device
@@ -311,19 +313,19 @@ class _Elaborator:
         if definition.name in block.chain:
             chain = " -> ".join([*block.chain, definition.name])
             raise self.fail(
-                element.span, f"subcircuit '{definition.name}' instantiates itself: {chain}",
+                element.span,
+                f"subcircuit '{definition.name}' instantiates itself: {chain}",
                 "recursion",
             )
         if len(block.chain) >= self.limits.max_instance_depth:
             raise self.fail(
                 element.span,
                 f"subcircuits nested deeper than {self.limits.max_instance_depth} instances "
-                "(limit max_instance_depth)", "limit",
+                "(limit max_instance_depth)",
+                "limit",
             )
         name = block.prefix + element.name
-        ports = {
-            port.text: self.net(node, block) for port, node in zip(definition.ports, nodes)
-        }
+        ports = {port.text: self.net(node, block) for port, node in zip(definition.ports, nodes)}
         scope = self.new_scope(block.scope, definition.body)
         # Defaults are evaluated in the new scope (they may refer to each other); the
         # instance's overrides are evaluated where the instance stands.
@@ -338,12 +340,15 @@ class _Elaborator:
                 continue
             if assign.key not in known:
                 self.report(
-                    Severity.WARNING, assign.span,
+                    Severity.WARNING,
+                    assign.span,
                     f"subcircuit '{definition.name}' has no parameter '{assign.key}'",
                 )
             scope.params[assign.key] = ParamDef(assign.span, value=block.scope.number(assign.value))
         self.instances[name] = Instance(
-            name, definition.name, tuple((p.text, ports[p.text]) for p in definition.ports),
+            name,
+            definition.name,
+            tuple((p.text, ports[p.text]) for p in definition.ports),
             element.span,
         )
         inner = _Block(scope, name + ".", ports, (*block.chain, definition.name), multiplier)
@@ -438,14 +443,10 @@ class _Elaborator:
             )
         if letter == "b":
             nodes = self.nodes(element, positional, 2, block)
-            expr = next(
-                (assigns[k].value for k in ("v", "i", "vol", "cur") if k in assigns), None
-            )
+            expr = next((assigns[k].value for k in ("v", "i", "vol", "cur") if k in assigns), None)
             if expr is None:
                 raise self.fail(element.span, f"expected '{USAGE['b']}'", "syntax")
-            return replace(
-                base, pins=tuple(zip(("p", "n"), nodes)), expression=_field_text(expr)
-            )
+            return replace(base, pins=tuple(zip(("p", "n"), nodes)), expression=_field_text(expr))
         if letter in "sw":
             count = 4 if letter == "s" else 2
             nodes = self.nodes(element, positional, count, block)
@@ -524,7 +525,9 @@ class _Elaborator:
             if value is None and alias in base.params:
                 value = base.params[alias]
         if value is None and model is None:
-            raise self.fail(element.span, f"'{element.name}' has no value: expected '{USAGE[letter]}'", "syntax")
+            raise self.fail(
+                element.span, f"'{element.name}' has no value: expected '{USAGE[letter]}'", "syntax"
+            )
         return replace(
             base,
             pins=tuple(zip(PIN_ROLES[letter], nodes)),
@@ -557,9 +560,7 @@ class _Elaborator:
                 )
             # The first place a model name could stand that the line reaches.
             guess = next(positional[c] for c in counts if c < len(positional))
-            raise self.fail(
-                guess.span, f"model '{_field_text(guess)}' is not defined", "undefined"
-            )
+            raise self.fail(guess.span, f"model '{_field_text(guess)}' is not defined", "undefined")
         nodes = self.nodes(element, positional, count, block)
         kind = model.kind
         if kind != base.kind:
@@ -575,12 +576,13 @@ class _Elaborator:
             roles = ("d", "g", "s", "b", "t")[:count]
             if count == 3 and model.type != "vdmos":
                 self.report(
-                    Severity.NOTE, element.span,
+                    Severity.NOTE,
+                    element.span,
                     f"'{element.name}' has 3 nodes; its bulk is taken as its source",
                 )
         else:
             roles = PIN_ROLES[letter]
-        extras = positional[count + 1:]
+        extras = positional[count + 1 :]
         value = None
         if extras and isinstance(extras[0], (Word, Expr)) and _looks_numeric(extras[0]):
             value = block.scope.number(extras[0])  # AREA
@@ -634,8 +636,10 @@ class _Elaborator:
                         index += 1
             elif word in UNSUPPORTED_WAVEFORMS:
                 self.report(
-                    Severity.WARNING, item.span,
-                    f"'{word.upper()}' sources are not modelled; '{element.name}' is taken at its DC value",
+                    Severity.WARNING,
+                    item.span,
+                    f"'{word.upper()}' sources are not modelled; "
+                    f"'{element.name}' is taken at its DC value",
                     "unsupported",
                 )
                 index = len(items)
@@ -647,11 +651,14 @@ class _Elaborator:
             else:
                 raise self.fail(
                     item.span,
-                    f"unexpected '{_field_text(item)}' in source: expected '{USAGE[element.letter]}'",
+                    f"unexpected '{_field_text(item)}' in source: "
+                    f"expected '{USAGE[element.letter]}'",
                     "syntax",
                 )
         # r= and td= belong to PWL; elsewhere they are instance parameters of no concern.
-        options = {k: v for k, v in base.params.items() if k in ("r", "td")} if kind == "pwl" else {}
+        options = (
+            {k: v for k, v in base.params.items() if k in ("r", "td")} if kind == "pwl" else {}
+        )
         try:
             if kind is not None:
                 waveform = build_waveform(kind, args, options, self.transient)  # type: ignore[arg-type]
@@ -765,7 +772,12 @@ def map_wrapper_ports(
         if not reach:
             return None
         reach.sort()
-        if len(reach) > 1 and reach[0][0] == reach[1][0] and reach[0][1] != "b" and reach[1][1] != "b":
+        if (
+            len(reach) > 1
+            and reach[0][0] == reach[1][0]
+            and reach[0][1] != "b"
+            and reach[1][1] != "b"
+        ):
             return None
         role = reach[0][1]
         if role == "b" and terminals.get("b") == terminals.get("s"):

@@ -45,10 +45,38 @@ UNSUPPORTED_LETTERS = frozenset("toupyzan")
 # Analysis, output and control cards: recognised and skipped without comment.
 IGNORED_CARDS = frozenset(
     {
-        ".op", ".ac", ".dc", ".tf", ".noise", ".disto", ".sens", ".pz", ".four", ".meas",
-        ".measure", ".save", ".print", ".plot", ".probe", ".ic", ".nodeset", ".temp",
-        ".width", ".title", ".csparam", ".step", ".backanno", ".savebias", ".loadbias",
-        ".sp", ".pss", ".fft", ".net", ".wave", ".lin", ".options_end",
+        ".op",
+        ".ac",
+        ".dc",
+        ".tf",
+        ".noise",
+        ".disto",
+        ".sens",
+        ".pz",
+        ".four",
+        ".meas",
+        ".measure",
+        ".save",
+        ".print",
+        ".plot",
+        ".probe",
+        ".ic",
+        ".nodeset",
+        ".temp",
+        ".width",
+        ".title",
+        ".csparam",
+        ".step",
+        ".backanno",
+        ".savebias",
+        ".loadbias",
+        ".sp",
+        ".pss",
+        ".fft",
+        ".net",
+        ".wave",
+        ".lin",
+        ".options_end",
     }
 )
 OPTION_CARDS = frozenset({".option", ".options", ".opt"})
@@ -193,8 +221,10 @@ def strip_inline_comment(text: str) -> str:
             continue
         elif char == ";":
             return text[:index]
-        elif char == "$" and (index == 0 or text[index - 1] in " \t") and (
-            index + 1 == len(text) or text[index + 1] in " \t"
+        elif (
+            char == "$"
+            and (index == 0 or text[index - 1] in " \t")
+            and (index + 1 == len(text) or text[index + 1] in " \t")
         ):
             return text[:index]
     return text
@@ -263,9 +293,11 @@ class _Reader:
         code = "include" if origin else "file"
         if len(self.files) >= self.limits.max_files:
             self.report(
-                Severity.ERROR, where,
+                Severity.ERROR,
+                where,
                 f"more than {self.limits.max_files} files read (limit max_files); "
-                f"'{shown}' not read", "limit",
+                f"'{shown}' not read",
+                "limit",
             )
             return None
         try:
@@ -275,9 +307,11 @@ class _Reader:
             size = path.stat().st_size
             if size > self.limits.max_file_bytes:
                 self.report(
-                    Severity.ERROR, where,
+                    Severity.ERROR,
+                    where,
                     f"'{shown}' is {size} bytes, over the limit of {self.limits.max_file_bytes} "
-                    "bytes (limit max_file_bytes)", "limit",
+                    "bytes (limit max_file_bytes)",
+                    "limit",
                 )
                 return None
             data = path.read_bytes()
@@ -296,8 +330,10 @@ class _Reader:
         self.sources[shown] = lines
         if fallback:
             self.report(
-                Severity.NOTE, Span(shown, 1, 1),
-                "file is not valid UTF-8; read as Latin-1", "encoding",
+                Severity.NOTE,
+                Span(shown, 1, 1),
+                "file is not valid UTF-8; read as Latin-1",
+                "encoding",
             )
         return lines
 
@@ -315,11 +351,16 @@ class _Reader:
                 continue
             if len(raw) > self.limits.max_line_chars:
                 self.report(
-                    Severity.ERROR, Span(shown, number, 1),
+                    Severity.ERROR,
+                    Span(shown, number, 1),
                     f"line is {len(raw)} characters long, over the limit of "
-                    f"{self.limits.max_line_chars} (limit max_line_chars)", "limit",
+                    f"{self.limits.max_line_chars} (limit max_line_chars)",
+                    "limit",
                 )
-                if current is not None and not raw.lstrip().startswith("+"):
+                head = raw.lstrip()[:1]
+                if head == "*":
+                    continue  # a comment line, transparent however long
+                if current is not None and head != "+":
                     yield current
                 current, comment_line, dropped = None, None, True
                 continue
@@ -335,22 +376,26 @@ class _Reader:
                     continue
                 if current is None and comment_line is not None:
                     self.report(
-                        Severity.WARNING, Span(shown, number, indent + 1),
+                        Severity.WARNING,
+                        Span(shown, number, indent + 1),
                         f"continuation line '+' continues the comment on line {comment_line}; "
                         "it is ignored, as ngspice ignores it",
                     )
                     continue
                 if current is None:
                     self.report(
-                        Severity.ERROR, Span(shown, number, indent + 1),
+                        Severity.ERROR,
+                        Span(shown, number, indent + 1),
                         "continuation line '+' has no statement before it to continue",
                     )
                     continue
                 piece = strip_inline_comment(stripped[1:])
                 if len(current.text) + len(piece) > self.limits.max_line_chars:
                     self.report(
-                        Severity.ERROR, Span(shown, number, indent + 1),
-                        "statement is too long (limit max_line_chars)", "limit",
+                        Severity.ERROR,
+                        Span(shown, number, indent + 1),
+                        "statement is too long (limit max_line_chars)",
+                        "limit",
                     )
                     current, dropped = None, True
                     continue
@@ -377,11 +422,9 @@ class _Reader:
         body = comment[1:].lstrip()
         if body[: len(DIRECTIVE_PREFIX)].lower() != DIRECTIVE_PREFIX:
             return
-        text = body[len(DIRECTIVE_PREFIX):]
+        text = body[len(DIRECTIVE_PREFIX) :]
         column = indent + 1 + (len(comment) - len(text))
-        self.directives.append(
-            Directive(text.strip(), Span(shown, number, column), column)
-        )
+        self.directives.append(Directive(text.strip(), Span(shown, number, column), column))
 
     # -- statements ------------------------------------------------------------------
 
@@ -399,9 +442,11 @@ class _Reader:
             return True
         if len(self.stack) > self.limits.max_include_depth:
             self.report(
-                Severity.ERROR, where,
+                Severity.ERROR,
+                where,
                 f"includes nested deeper than {self.limits.max_include_depth} "
-                "(limit max_include_depth)", "limit",
+                "(limit max_include_depth)",
+                "limit",
             )
             return True
         lines = self.sources.get(shown)
@@ -445,7 +490,12 @@ class _Reader:
                 continue
             if card == ".lib" and len(words) == 2:
                 name = words[1].lower()
-                if skipping is None and section is not None and not inside_wanted and name == section:
+                if (
+                    skipping is None
+                    and section is not None
+                    and not inside_wanted
+                    and name == section
+                ):
                     inside_wanted = found = True
                 elif skipping is None:
                     # A section definition: read only when a `.lib FILE NAME` selects it.
@@ -491,29 +541,34 @@ class _Reader:
                 self.emit(TranCard(tuple(self.parse(line)[1:]), line.span))
             elif card in (".func", ".if", ".elseif", ".else", ".endif", ".data", ".alter"):
                 self.report(
-                    Severity.WARNING, line.span,
-                    f"'{card}' is not supported by drivelint; the card is ignored", "unsupported",
+                    Severity.WARNING,
+                    line.span,
+                    f"'{card}' is not supported by drivelint; the card is ignored",
+                    "unsupported",
                 )
             else:
                 self.report(
-                    Severity.WARNING, line.span,
-                    f"unknown control card '{card}' ignored", "unknown-card",
+                    Severity.WARNING,
+                    line.span,
+                    f"unknown control card '{card}' ignored",
+                    "unknown-card",
                 )
             return
         letter = card[:1]
         if letter in ELEMENT_LETTERS:
-            fields = self.behavioural(line) if letter in "beg" else None
-            if fields is None:
-                fields = self.parse(line)
+            behavioural = self.behavioural(line) if letter in "beg" else None
+            fields = behavioural if behavioural is not None else self.parse(line)
             name = fields[0]
             if not isinstance(name, Word):
                 raise self.fail(line.span, "expected an element name at the start of the line")
             self.emit(Element(name.text, tuple(fields[1:]), line.span))
         elif letter in UNSUPPORTED_LETTERS:
             self.report(
-                Severity.WARNING, line.span,
+                Severity.WARNING,
+                line.span,
                 f"element '{card}': kind '{letter.upper()}' is not modelled by drivelint; "
-                "line ignored", "unsupported",
+                "line ignored",
+                "unsupported",
             )
         else:
             raise self.fail(
@@ -533,7 +588,7 @@ class _Reader:
             return None
         head = LogicalLine(line.text[: match.start()], line.path, line.segments)
         fields = self.parse(head)
-        value = line.text[match.end():].strip()
+        value = line.text[match.end() :].strip()
         offset = line.text.index(value, match.end()) if value else match.end()
         if not value:
             raise self.fail(line.span_at(match.end()), f"'{match.group(1)}=' has no expression")
@@ -566,13 +621,14 @@ class _Reader:
         try:
             tree = _LineParser.get().parse(line.text)
         except UnexpectedCharacters as exc:
-            char = line.text[exc.pos_in_stream] if exc.pos_in_stream < len(line.text) else ""
+            position = exc.pos_in_stream or 0
+            char = line.text[position] if position < len(line.text) else ""
             hint = {
                 "{": "an expression in braces that is never closed, or braces nested "
                 "(write the expression in one pair of braces)",
                 "'": "a quoted expression that is never closed",
             }.get(char, f"unexpected character {char!r}")
-            raise self.fail(line.span_at(exc.pos_in_stream), hint) from None
+            raise self.fail(line.span_at(position), hint) from None
         except UnexpectedToken as exc:
             token = exc.token
             offset = getattr(token, "start_pos", None)
@@ -595,12 +651,10 @@ class _Reader:
         text = line.text
         matches = [m for m in _ASSIGN_START.finditer(text, start) if self._top_level(text, m)]
         if not matches and text[start:].strip():
-            raise self.fail(
-                line.span_at(start + 1), "expected name=value after the card"
-            )
+            raise self.fail(line.span_at(start + 1), "expected name=value after the card")
         for index, match in enumerate(matches):
             end = matches[index + 1].start() if index + 1 < len(matches) else len(text)
-            value = text[match.end():end].strip().rstrip(",").strip()
+            value = text[match.end() : end].strip().rstrip(",").strip()
             value_offset = text.index(value, match.end()) if value else match.end()
             if not value:
                 raise self.fail(
@@ -638,9 +692,7 @@ class _Reader:
                     # VDMOS channel flags are bare words; keep them as flags set to 1.
                     params.append(Assign(sub.text, Word("1", "1", sub.span), sub.span))
                 else:
-                    raise self.fail(
-                        sub.span, "expected PARAM=VALUE in the model's parameter list"
-                    )
+                    raise self.fail(sub.span, "expected PARAM=VALUE in the model's parameter list")
         self.emit(ModelCard(fields[0].text, fields[1].text, tuple(params), line.span))
 
     def open_subckt(self, line: LogicalLine) -> None:
@@ -648,7 +700,8 @@ class _Reader:
             raise self.fail(
                 line.span,
                 f"subcircuit definitions nested deeper than {self.limits.max_subckt_nesting} "
-                "(limit max_subckt_nesting)", "limit",
+                "(limit max_subckt_nesting)",
+                "limit",
             )
         fields = self.parse(line)
         if len(fields) < 2 or not isinstance(fields[1], Word):
@@ -662,14 +715,15 @@ class _Reader:
         words = line.text.split()
         if len(words) > 1 and words[1].lower() != header.name:
             self.report(
-                Severity.WARNING, line.span,
+                Severity.WARNING,
+                line.span,
                 f"'.ends {words[1]}' closes subcircuit '{header.name}'",
             )
         ports: list[Word] = []
         params: list[Assign] = []
         for item in header.fields:
             if isinstance(item, Word) and item.text.startswith("params:"):
-                rest = item.text[len("params:"):]
+                rest = item.text[len("params:") :]
                 if rest:
                     raise self.fail(item.span, "expected 'params:' followed by NAME=VALUE")
                 continue
@@ -685,7 +739,9 @@ class _Reader:
         parts = _split_path_args(line.text)
         card = parts[0].lower() if parts else ""
         args = parts[1:]
-        if not args or (library and len(args) > 2) or (not library and len(args) > 1):
+        # A quoted name with spaces makes `.lib "a b"` one argument: not a section header
+        # (read_lines split it in two), and no section either.
+        if not args or (library and len(args) != 2) or (not library and len(args) > 1):
             form = "'.lib FILE SECTION'" if library else "'.include FILE'"
             raise self.fail(line.span, f"expected {form}", "include")
         name = args[0]
@@ -695,26 +751,45 @@ class _Reader:
             return
         if not self.read_file(target, section, line.span):
             self.report(
-                Severity.ERROR, line.span,
-                f"library section '{section}' not found in '{self.display(target)}'", "include",
+                Severity.ERROR,
+                line.span,
+                f"library section '{section}' not found in '{self.display(target)}'",
+                "include",
             )
 
     def resolve(self, name: str, including: Path, span: Span) -> Path | None:
-        candidate = Path(name).expanduser()
+        try:
+            candidate = Path(name).expanduser()
+        except RuntimeError:
+            # '~user' naming no user, or '~' with no home directory known.
+            home = name.split("/", 1)[0]
+            raise self.fail(
+                span, f"include '{name}': '{home}' does not name a home directory", "include"
+            ) from None
         tries = (
             [candidate]
             if candidate.is_absolute()
             else [including.parent / candidate, *(p / candidate for p in self.options.search_path)]
         )
-        found = next((t for t in tries if t.exists()), tries[0])
-        resolved = found.resolve()
+        try:
+            found = next((t for t in tries if t.exists()), tries[0])
+            resolved = found.resolve()
+        except (OSError, ValueError) as exc:
+            # A name the file system cannot look up: too long, or holding a NUL byte or
+            # a character with no encoding in file names.
+            reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
+            raise self.fail(
+                span, f"include '{name}' is not a usable file name: {reason}", "include"
+            ) from None
         root = self.options.root
         if root is not None and not self.options.allow_outside_root:
             if not resolved.is_relative_to(root.resolve()):
                 self.report(
-                    Severity.ERROR, span,
+                    Severity.ERROR,
+                    span,
                     f"include '{name}' resolves outside the project root '{self.display(root)}'; "
-                    "refused (set allow_outside_root to permit it)", "include",
+                    "refused (set allow_outside_root to permit it)",
+                    "include",
                 )
                 return None
         return resolved
@@ -753,7 +828,9 @@ def _split_path_args(text: str) -> list[str]:
     return out
 
 
-def read_deck(path: str | Path, options: ReadOptions | None = None, text: str | None = None) -> Deck:
+def read_deck(
+    path: str | Path, options: ReadOptions | None = None, text: str | None = None
+) -> Deck:
     """Read a top-level netlist and everything it includes. Never raises for bad input."""
     options = options or ReadOptions()
     cwd = Path.cwd()

@@ -46,6 +46,10 @@ from typing import ClassVar
 
 INF = math.inf
 _TWO_PI = 2.0 * math.pi
+# The bound on every value and time that keeps the waveform arithmetic finite: past it a
+# time times a rate overflows a float (1e308 degrees of SIN phase is already inf radians).
+# No power stage comes near it (common practice: picoseconds to hours, up to megavolts).
+LARGEST_MAGNITUDE = 1e30
 
 
 class WaveformError(ValueError):
@@ -62,12 +66,33 @@ class TransientSettings:
     def __post_init__(self) -> None:
         for name in ("tstep", "tstop"):
             value = getattr(self, name)
-            if value is not None and not (math.isfinite(value) and value > 0.0):
-                raise WaveformError(f".tran {name.upper()} is {value!r}; expected a time > 0 s")
+            if value is not None:
+                check_tran_time(name, value)
+
+
+def check_tran_time(name: str, value: float) -> None:
+    """Raise WaveformError unless ``value`` can be the ``.tran`` TSTEP or TSTOP (``name``)."""
+    if not (math.isfinite(value) and value > 0.0):
+        raise WaveformError(f".tran {name.upper()} is {value!r}; expected a time > 0 s")
+    if not 1.0 / LARGEST_MAGNITUDE <= value <= LARGEST_MAGNITUDE:
+        # The lower bound too: 1/TSTOP becomes the default SIN frequency.
+        raise WaveformError(
+            f".tran {name.upper()} is {value:g} s; expected a time from "
+            f"{1.0 / LARGEST_MAGNITUDE:g} s to {LARGEST_MAGNITUDE:g} s"
+        )
 
 
 _NO_TRAN = TransientSettings()
 _NO_OPTIONS: Mapping[str, float] = MappingProxyType({})
+
+
+def _wrap(time: float, period: float) -> float:
+    """``time`` less its whole periods, in the simulator's arithmetic where that has a float."""
+    cycles = time / period
+    if math.isinf(cycles):
+        # A period so short that the count of periods overflows: fmod needs no count.
+        return math.fmod(time, period)
+    return time - period * math.floor(cycles)
 
 
 def _json_number(value: float | None) -> float | str | None:
@@ -224,7 +249,7 @@ class Pulse(Waveform):
             if self.pulses is not None and time > self.pulses * self.per:
                 return self.v1
             if time > self.per:
-                time -= self.per * math.floor(time / self.per)
+                time = _wrap(time, self.per)
         if time <= 0.0 or time >= self.tr + self.pw + self.tf:
             return self.v1
         if self.tr <= time <= self.tr + self.pw:
@@ -409,6 +434,8 @@ def _crossing(piece: _Piece, threshold: float) -> float:
         start_above = piece.curve(piece.start) > threshold
         end = piece.start + span
         while (piece.curve(end) > threshold) == start_above:
+            if math.isinf(end):
+                return INF  # no float time reaches the crossing: it lies at infinity
             span *= 2.0
             end = piece.start + span
     return _bisect(piece.curve, piece.start, end, threshold)
@@ -477,7 +504,7 @@ class Pwl(Waveform):
                 return points[-1][1]
             period = end_time - self.repeat_from
             time -= self.repeat_from
-            time -= period * math.floor(time / period)
+            time = _wrap(time, period)
             time += self.repeat_from
         for (t0, v0), (t1, v1) in zip(points, points[1:], strict=False):
             if t1 >= time:
@@ -870,6 +897,11 @@ def _check_finite(kind: str, args: Sequence[float]) -> None:
             raise WaveformError(
                 f"{kind.upper()} value {position} is {value!r}; expected a finite number"
             )
+        if abs(value) > LARGEST_MAGNITUDE:
+            raise WaveformError(
+                f"{kind.upper()} value {position} is {value:g}; expected a magnitude of at most "
+                f"{LARGEST_MAGNITUDE:g}"
+            )
 
 
 def _check_time(kind: str, name: str, value: float) -> None:
@@ -959,6 +991,12 @@ def _build_sine(args: Sequence[float], tran: TransientSettings) -> Sine:
     freq = d.given("FREQ", zero_is_omitted=True)
     if freq is not None and freq < 0.0:
         raise WaveformError(f"SIN FREQ is {freq:g} Hz; expected a frequency > 0 Hz")
+    if freq is not None and freq < 1.0 / LARGEST_MAGNITUDE:
+        # Its reciprocal, the period, and the times of the extremes would overflow.
+        raise WaveformError(
+            f"SIN FREQ is {freq:g} Hz; expected a frequency of at least "
+            f"{1.0 / LARGEST_MAGNITUDE:g} Hz"
+        )
     if freq is None:
         if tran.tstop is not None:
             freq = d.fill("FREQ", 1.0 / tran.tstop, f"1/TSTOP = {1.0 / tran.tstop:g} Hz")
@@ -1012,8 +1050,7 @@ def _build_pwl(args: Sequence[float], options: Mapping[str, float]) -> Pwl:
         raise WaveformError(f"{form} takes time-value pairs; got {len(args)} values")
     points = tuple((args[i], args[i + 1]) for i in range(0, len(args), 2))
     for number, (t, _) in enumerate(points, start=1):
-        if t < 0.0:
-            raise WaveformError(f"PWL time point {number} is {t:g} s; expected a time ≥ 0 s")
+        _check_time("pwl", f"time point {number}", t)
     for number, ((t0, _), (t1, _)) in enumerate(zip(points, points[1:], strict=False), start=2):
         if t1 < t0:
             raise WaveformError(
@@ -1026,6 +1063,10 @@ def _build_pwl(args: Sequence[float], options: Mapping[str, float]) -> Pwl:
         name = key.lower()
         if not math.isfinite(value):
             raise WaveformError(f"PWL {name}= is {value!r}; expected a finite time")
+        if abs(value) > LARGEST_MAGNITUDE:
+            raise WaveformError(
+                f"PWL {name}= is {value:g} s; expected a time of at most {LARGEST_MAGNITUDE:g} s"
+            )
         if name == "r":
             repeat_from = value
         elif name == "td":
