@@ -60,8 +60,9 @@ def main() -> int:
         baseline = median_of([sys.executable, "-c", "import click, lark, networkx"], args.runs)
         single = median_of([*DRIVELINT, "check", "--no-cache", str(EXAMPLE)], args.runs, env)
         ratio = single / baseline
-        print(f"cold start: drivelint check {single * 1000:.0f} ms, "
-              f"imports {baseline * 1000:.0f} ms")
+        print(
+            f"cold start: drivelint check {single * 1000:.0f} ms, imports {baseline * 1000:.0f} ms"
+        )
         results.append(("cold start ratio", ratio, "<= 1.3", ratio <= 1.3))
 
         folder = scratch / "lib"
@@ -71,8 +72,14 @@ def main() -> int:
         two = wall([*DRIVELINT, "check", "--no-cache", "--jobs", "2", str(folder)], env)
         rate_one, rate_two = args.files / one, args.files / two
         print(f"batch: --jobs 1 {rate_one:.0f} files/s, --jobs 2 {rate_two:.0f} files/s")
-        results.append(("jobs 2 / jobs 1 throughput", rate_two / rate_one, ">= 1.7",
-                        rate_two / rate_one >= 1.7))
+        results.append(
+            (
+                "jobs 2 / jobs 1 throughput",
+                rate_two / rate_one,
+                ">= 1.7",
+                rate_two / rate_one >= 1.7,
+            )
+        )
         results.append(("files/s with 2 jobs", rate_two, ">= 200", rate_two >= 200))
 
         cold = wall([*DRIVELINT, "check", "--jobs", "2", str(folder)], env)

@@ -32,10 +32,8 @@ def build_graph(circuit: Circuit) -> networkx.MultiGraph[Any]:
     graph: networkx.MultiGraph[Any] = networkx.MultiGraph()
     graph.add_nodes_from((net_node(n) for n in circuit.nets), bipartite=NET)
     graph.add_nodes_from(
-        (
-            (device_node(d.name), {"bipartite": DEVICE, "kind": d.kind})
-            for d in circuit.devices.values()
-        )
+        (device_node(d.name), {"bipartite": DEVICE, "kind": d.kind})
+        for d in circuit.devices.values()
     )
     graph.add_edges_from(
         (device_node(d.name), net_node(net), role, {"pin": role})

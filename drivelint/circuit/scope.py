@@ -74,13 +74,14 @@ class Scope:
             self._values[name] = definition.value
             return definition.value
         if name in self._busy:
-            chain = " -> ".join([*self._busy[self._busy.index(name):], name])
+            chain = " -> ".join([*self._busy[self._busy.index(name) :], name])
             raise self.error(definition.span, f"circular parameter definition: {chain}", "param")
         if depth > self.limits.max_param_recursion:
             raise self.error(
                 definition.span,
                 f"parameters refer to each other more than {self.limits.max_param_recursion} "
-                "levels deep (limit max_param_recursion)", "limit",
+                "levels deep (limit max_param_recursion)",
+                "limit",
             )
         where = definition.scope or self
         self._busy.append(name)

@@ -210,7 +210,8 @@ def test_instance_multiplier_parallels_the_devices_inside() -> None:
     # test_ngspice_crosscheck); nested instance multipliers multiply, as paralleled copies do.
     c = circuit(
         "t\n.subckt cell a\nR1 a 0 1k m=3\n.ends\n.subckt pair a\nX1 a cell m=2\n.ends\n"
-        "XP n pair m=5\n" + WRAPPED.split("\n", 1)[1].replace("X1 bus gate sw FETWRAP", "X2 bus g s FETWRAP m=2")
+        "XP n pair m=5\n"
+        + WRAPPED.split("\n", 1)[1].replace("X1 bus gate sw FETWRAP", "X2 bus g s FETWRAP m=2")
     )
     assert c.devices["xp.x1.r1"].multiplier == 30
     assert c.devices["x2"].multiplier == 2

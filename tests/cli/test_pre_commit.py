@@ -59,7 +59,11 @@ def test_hook_refuses_a_finding_and_passes_a_clean_netlist(tmp_path: Path, head:
     before = flawed.read_bytes()
     _git(repo, "add", "leg.cir")
     refused = subprocess.run(
-        ["git", "commit", "-m", "add leg"], cwd=repo, env=env, capture_output=True, text=True,
+        ["git", "commit", "-m", "add leg"],
+        cwd=repo,
+        env=env,
+        capture_output=True,
+        text=True,
         timeout=900,
     )
     output = refused.stdout + refused.stderr
@@ -73,8 +77,12 @@ def test_hook_refuses_a_finding_and_passes_a_clean_netlist(tmp_path: Path, head:
     shutil.copy(EXAMPLES / "lev48_phase_leg_npn_shifter.cir", clean)
     _git(repo, "add", "phase.cir")
     passed = subprocess.run(
-        ["git", "commit", "-m", "add phase leg"], cwd=repo, env=env, capture_output=True,
-        text=True, timeout=900,
+        ["git", "commit", "-m", "add phase leg"],
+        cwd=repo,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=900,
     )
     assert passed.returncode == 0, passed.stdout + passed.stderr
     assert "drivelint" in passed.stdout + passed.stderr

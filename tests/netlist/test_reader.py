@@ -107,9 +107,10 @@ def test_element_fields_groups_expressions_and_assignments() -> None:
     assert isinstance(v1.fields[3], Group)
     group = v1.fields[3]
     assert isinstance(group.items[2], Expr) and group.items[2].text == "td"
-    w, l = m1.fields[-2:]
-    assert isinstance(w, Assign) and w.key == "w" and isinstance(w.value, Word)
-    assert isinstance(l, Assign) and isinstance(l.value, Expr) and l.value.text == "2*lmin"
+    width, length = m1.fields[-2:]
+    assert isinstance(width, Assign) and width.key == "w" and isinstance(width.value, Word)
+    assert isinstance(length, Assign) and isinstance(length.value, Expr)
+    assert length.value.text == "2*lmin"
 
 
 def test_commas_separate_group_items() -> None:
@@ -189,9 +190,19 @@ def test_end_card_stops_reading() -> None:
 
 @pytest.mark.parametrize(
     "card",
-    [".op", ".ac dec 10 1 1meg", ".dc v1 0 5 1", ".meas tran t1 trig v(a) val=1 rise=1",
-     ".save v(a)", ".print tran v(a)", ".plot tran v(a)", ".ic v(a)=0", ".temp 27",
-     ".four 1k v(a)", ".nodeset v(a)=1"],
+    [
+        ".op",
+        ".ac dec 10 1 1meg",
+        ".dc v1 0 5 1",
+        ".meas tran t1 trig v(a) val=1 rise=1",
+        ".save v(a)",
+        ".print tran v(a)",
+        ".plot tran v(a)",
+        ".ic v(a)=0",
+        ".temp 27",
+        ".four 1k v(a)",
+        ".nodeset v(a)=1",
+    ],
 )
 def test_analysis_cards_are_skipped_silently(card: str) -> None:
     deck = read(f"t\nR1 a 0 1\n{card}\n")
@@ -254,7 +265,7 @@ def test_include_relative_to_including_file(tmp_path: Path) -> None:
 
 def test_include_through_search_path(tmp_path: Path) -> None:
     write(tmp_path / "lib" / "common.inc", "R5 a 0 1\n")
-    top = write(tmp_path / "design" / "top.cir", "t\n.inc \"common.inc\"\n")
+    top = write(tmp_path / "design" / "top.cir", 't\n.inc "common.inc"\n')
     deck = read_deck(top, ReadOptions(root=tmp_path, search_path=(tmp_path / "lib",)))
     assert [e.name for e in elements(deck)] == ["r5"]
 
@@ -265,7 +276,9 @@ def test_lib_sections(tmp_path: Path) -> None:
         "* corners\n.lib fast\n.param k=2\nR1 a 0 1\n.endl fast\n"
         ".lib slow\n.param k=3\nR2 a 0 1\n.endl slow\n",
     )
-    top = write(tmp_path / "top.cir", "t\n.lib corners.lib slow\n.lib inline\nR8 a 0 1\n.endl\nR3 a 0 1\n")
+    top = write(
+        tmp_path / "top.cir", "t\n.lib corners.lib slow\n.lib inline\nR8 a 0 1\n.endl\nR3 a 0 1\n"
+    )
     deck = read_deck(top, ReadOptions(root=tmp_path))
     assert deck.diagnostics == ()
     assert [e.name for e in elements(deck)] == ["r2", "r3"]
