@@ -73,14 +73,25 @@ def plan(
 ) -> list[Job]:
     """One job per file not excluded by its configuration; configurations read once."""
     configs: dict[Path | None, Config] = {}
+    found: dict[Path, Path | None] = {}  # folder -> its configuration file
 
     def config_for(path: Path) -> Config:
-        where = options.config_file or find_config(path)
+        if options.config_file is not None:
+            where: Path | None = options.config_file
+        else:
+            folder = path.parent
+            if folder not in found:
+                found[folder] = find_config(path)
+            where = found[folder]
         if where not in configs:
             configs[where] = load_config(where)
         return configs[where]
 
-    jobs = [Job(p, config_for(p)) for p in paths if not config_for(p).excluded(p)]
+    jobs = []
+    for path in paths:
+        config = config_for(path)
+        if not config.excluded(path):
+            jobs.append(Job(path, config))
     if stdin is not None:
         name, text = stdin
         jobs.append(Job(Path(name), config_for(Path(name)), text))
@@ -296,10 +307,12 @@ def _worker(args: tuple[Job, BatchOptions]) -> CheckResult:
 def _warm_up() -> None:
     """Load what every check needs before workers fork, so they inherit it."""
     from drivelint.checks.registry import registry
+    from drivelint.netlist.expressions import compile_expression
     from drivelint.netlist.reader import _LineParser
 
     registry()
     _LineParser.get()
+    compile_expression("1/(2*x)")  # builds the expression grammar
 
 
 def run_batch(

@@ -9,6 +9,17 @@ import enum
 from dataclasses import dataclass
 
 
+def positional_reduce(self: object) -> tuple[object, tuple[object, ...]]:
+    """Pickle a frozen dataclass as its class and its fields in order.
+
+    The default for slotted frozen dataclasses looks its fields up again for every object
+    it restores, which made reading the result cache several times slower; rebuilding
+    through the constructor does not. Only for classes whose fields are all positional.
+    """
+    cls = type(self)
+    return (cls, tuple(getattr(self, name) for name in cls.__match_args__))  # type: ignore[attr-defined]
+
+
 @dataclass(frozen=True, slots=True, order=True)
 class Span:
     """A position in a source file: 1-based line and column."""
@@ -16,6 +27,8 @@ class Span:
     path: str
     line: int
     column: int = 1
+
+    __reduce__ = positional_reduce
 
     def __str__(self) -> str:
         return f"{self.path}:{self.line}:{self.column}"
@@ -54,6 +67,8 @@ class Diagnostic:
     message: str
     source_line: str = ""
     code: str = "input"
+
+    __reduce__ = positional_reduce
 
     def render(self) -> str:
         head = f"{self.span}: {self.severity.label}: {self.message}"

@@ -6,7 +6,7 @@ from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass, field
 
 from drivelint.checks.facts import StageFacts
-from drivelint.diagnostics import Severity, Span
+from drivelint.diagnostics import Severity, Span, positional_reduce
 from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
 
@@ -14,6 +14,8 @@ from drivelint.stages.model import DriveStage
 @dataclass(frozen=True, slots=True)
 class Finding:
     """One problem with a design, with the numbers behind it and a fix."""
+
+    __reduce__ = positional_reduce
 
     rule: str
     severity: Severity

@@ -6,7 +6,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from drivelint.diagnostics import Diagnostic, Span
+from drivelint.diagnostics import Diagnostic, Span, positional_reduce
 from drivelint.netlist.statements import Directive
 
 if TYPE_CHECKING:
@@ -61,6 +61,8 @@ MODEL_TYPES: Mapping[str, tuple[str, str | None]] = {
 class Model:
     """A resolved ``.model`` card; ``params`` are evaluated numbers keyed in lower case."""
 
+    __reduce__ = positional_reduce
+
     name: str
     type: str
     params: Mapping[str, float]
@@ -84,6 +86,8 @@ class Model:
 class Wrapper:
     """A subcircuit recognised as one MOSFET plus parasitics."""
 
+    __reduce__ = positional_reduce
+
     subckt: str
     inner_device: str
     gate_resistance: float | None
@@ -92,6 +96,7 @@ class Wrapper:
 
 @dataclass(frozen=True, slots=True)
 class Device:
+    __reduce__ = positional_reduce
     name: str
     kind: str
     pins: tuple[tuple[str, str], ...]
@@ -131,6 +136,8 @@ class Device:
 @dataclass(frozen=True, slots=True)
 class Instance:
     """A subcircuit instance that was flattened: its ports and where it was placed."""
+
+    __reduce__ = positional_reduce
 
     name: str
     subckt: str

@@ -5,6 +5,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from drivelint.diagnostics import positional_reduce
+
 # SI units drivelint reports in ("1" is dimensionless).
 UNITS = frozenset({"V", "A", "F", "C", "s", "Hz", "K", "W", "1", "Ohm", "K/W", "H"})
 
@@ -17,6 +19,8 @@ class Value:
     ``model dfast BV (deck.cir:40)``, ``directive (deck.cir:3)``, ``default (common
     practice)``, ``computed``.
     """
+
+    __reduce__ = positional_reduce
 
     value: float
     unit: str

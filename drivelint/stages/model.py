@@ -7,7 +7,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from drivelint.diagnostics import Span
+from drivelint.diagnostics import Span, positional_reduce
 
 if TYPE_CHECKING:
     from drivelint.netlist.waveforms import Waveform
@@ -17,6 +17,7 @@ SUPPLY_KINDS = ("bootstrap", "isolated", "charge-pump", "none")
 
 @dataclass(frozen=True, slots=True)
 class Rail:
+    __reduce__ = positional_reduce
     net: str
     volts: float | None
 
@@ -27,6 +28,8 @@ class Rail:
 @dataclass(frozen=True, slots=True)
 class Supply:
     """The floating supply of a gate drive, riding on the switch node."""
+
+    __reduce__ = positional_reduce
 
     kind: str
     boot_net: str | None = None
@@ -56,6 +59,8 @@ class Supply:
 class GatePath:
     """Devices in order: from the supply to the gate (pull-up) or from the gate onward."""
 
+    __reduce__ = positional_reduce
+
     devices: tuple[str, ...]
     end_net: str
     returns_to: str  # pull-ups: "boot" or the rail's net; pull-downs: "source", "ground" or a net
@@ -63,6 +68,7 @@ class GatePath:
 
 @dataclass(frozen=True, slots=True)
 class Clamp:
+    __reduce__ = positional_reduce
     device: str
     kind: str  # "zener" or "diode"
     orientation: str  # "normal", "reversed" or "back-to-back"
@@ -81,6 +87,7 @@ class Clamp:
 
 @dataclass(frozen=True, slots=True)
 class Refresh:
+    __reduce__ = positional_reduce
     kind: str  # "low-side switch", "freewheel diode", "load", "inductor-load"
     devices: tuple[str, ...]
     resistance: float | None = None
@@ -88,6 +95,7 @@ class Refresh:
 
 @dataclass(frozen=True, slots=True)
 class Control:
+    __reduce__ = positional_reduce
     source: str | None
     inverting: bool
     waveform: Waveform | None
@@ -104,6 +112,7 @@ class Control:
 
 @dataclass(frozen=True, slots=True)
 class DriverInfo:
+    __reduce__ = positional_reduce
     device: str
     subckt: str
     pins: Mapping[str, str]  # role -> net
@@ -120,6 +129,7 @@ class DriverInfo:
 
 @dataclass(frozen=True, slots=True)
 class DriveStage:
+    __reduce__ = positional_reduce
     switch: str
     channel: str
     gate: str

@@ -182,3 +182,15 @@ def test_a_crashing_rule_costs_one_file(monkeypatch: pytest.MonkeyPatch, tmp_pat
         failed.diagnostics[0].code == "internal-error" and "boom" in failed.diagnostics[0].message
     )
     assert any(r.findings for r in results)
+
+
+def test_cached_results_survive_pickling_unchanged() -> None:
+    # The cache and the worker pool move results through pickle; positional_reduce
+    # rebuilds the dataclasses through their constructors, which must give equal objects.
+    import pickle
+
+    from drivelint.batch import slim
+
+    for example in sorted(EXAMPLES.glob("*.cir")):
+        result = slim(pipeline.check_path(example))
+        assert pickle.loads(pickle.dumps(result)) == result, example.name
