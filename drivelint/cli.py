@@ -245,7 +245,7 @@ def check_command(
         config_file=config_file,
         parts=parts,
     )
-    stdin = (stdin_name, click.get_text_stream("stdin").read()) if use_stdin else None
+    stdin = (stdin_name, sys.stdin.read()) if use_stdin else None
     try:
         planned = plan(files, options, stdin)
         show_progress = (

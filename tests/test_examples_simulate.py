@@ -12,23 +12,19 @@ from __future__ import annotations
 import bisect
 import math
 import re
-import shutil
-import subprocess
 import tomllib
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
 from pathlib import Path
 
 import pint
 import pytest
+from simulator import Waves, run_transient
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 NETLISTS = sorted(EXAMPLES.glob("*.cir"))
 PARTS: dict[str, dict[str, object]] = tomllib.loads(
     (EXAMPLES / "parts.toml").read_text(encoding="utf-8")
 )["part"]
-NGSPICE = shutil.which("ngspice")
-TIMEOUT_S = 30.0
 # The examples are meant for quick demos and CI: the brief caps each transient.
 MAX_TIME_POINTS = 20_000
 
@@ -50,62 +46,8 @@ def _si(quantity: object, unit: str) -> float:
 # ---------------------------------------------------------------- running ngspice
 
 
-@dataclass(frozen=True, slots=True)
-class Waves:
-    """The vectors one ngspice run wrote, keyed by the expressions the test asked for."""
-
-    log: str
-    time: tuple[float, ...]
-    data: dict[str, tuple[float, ...]]
-
-    def __getitem__(self, name: str) -> tuple[float, ...]:
-        return self.data[name]
-
-    def at(self, name: str, t: float) -> float:
-        """Value of `name` at the first stored point at or after time `t`."""
-        return self.data[name][min(bisect.bisect_left(self.time, t), len(self.time) - 1)]
-
-    def between(self, name: str, t0: float, t1: float) -> list[float]:
-        lo, hi = bisect.bisect_left(self.time, t0), bisect.bisect_left(self.time, t1)
-        return list(self.data[name][lo:hi])
-
-
-def _with_control(text: str, control: Sequence[str]) -> str:
-    """The netlist with `control` inserted before its final `.end` line."""
-    lines = text.splitlines()
-    for index in range(len(lines) - 1, -1, -1):
-        if lines[index].strip().lower() == ".end":
-            return "\n".join([*lines[:index], *control, *lines[index:]]) + "\n"
-    raise AssertionError("netlist has no .end line")
-
-
 def _run_deck(text: str, vectors: Sequence[str], saves: Sequence[str], workdir: Path) -> Waves:
-    if NGSPICE is None:
-        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot simulate")
-    control = [".control", "set wr_singlescale", "set wr_vecnames"]
-    if saves:
-        control.append("save all " + " ".join(saves))
-    control += ["run", "wrdata vectors.txt " + " ".join(vectors), "quit", ".endc"]
-    workdir.mkdir(parents=True, exist_ok=True)
-    (workdir / "deck.cir").write_text(_with_control(text, control), encoding="utf-8")
-    proc = subprocess.run(
-        [NGSPICE, "-b", "deck.cir"],
-        cwd=workdir,
-        capture_output=True,
-        text=True,
-        timeout=TIMEOUT_S,
-        check=False,
-    )
-    log = proc.stdout + proc.stderr
-    assert proc.returncode == 0, f"ngspice exited with {proc.returncode}:\n{log[-3000:]}"
-    written = workdir / "vectors.txt"
-    assert written.is_file(), f"ngspice wrote no vectors:\n{log[-3000:]}"
-    rows = written.read_text(encoding="utf-8").splitlines()[1:]
-    table = [tuple(float(cell) for cell in row.split()) for row in rows if row.strip()]
-    columns = list(zip(*table, strict=True))
-    # wr_singlescale: column 0 is time, then one column per requested vector
-    data = {name: columns[i + 1] for i, name in enumerate(vectors)}
-    return Waves(log=log, time=columns[0], data=data)
+    return run_transient(text, vectors, workdir, saves)
 
 
 class Simulator:

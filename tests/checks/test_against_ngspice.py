@@ -20,15 +20,14 @@ passing test next to it shows in the simulation where the difference goes.
 
 from __future__ import annotations
 
-import bisect
 import math
 import shutil
-import subprocess
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
+from simulator import NGSPICE, Waves, run_transient
 
 from drivelint.checks.facts import StageFacts
 from drivelint.physics import bootstrap as boot_physics
@@ -37,8 +36,6 @@ from drivelint.ratings.directives import parse_directives
 from drivelint.ratings.ratings import Ratings
 
 EXAMPLES = Path(__file__).resolve().parents[2] / "examples"
-NGSPICE = shutil.which("ngspice")
-TIMEOUT_S = 30.0
 
 # Tolerances, and why they are what they are.
 #
@@ -72,69 +69,10 @@ V_EB_PLUS_VCESAT = 0.8
 # ---------------------------------------------------------------- running ngspice
 
 
-@dataclass(frozen=True, slots=True)
-class Waves:
-    """The vectors one ngspice run wrote, keyed by the expressions the test asked for."""
-
-    time: tuple[float, ...]
-    data: dict[str, tuple[float, ...]]
-
-    def __getitem__(self, name: str) -> tuple[float, ...]:
-        return self.data[name]
-
-    def index(self, t: float) -> int:
-        """Index of the first stored point at or after time ``t``."""
-        return min(bisect.bisect_left(self.time, t), len(self.time) - 1)
-
-    def at(self, name: str, t: float) -> float:
-        return self.data[name][self.index(t)]
-
-    def integral(self, name: str, t0: float, t1: float) -> float:
-        """Trapezoidal integral of ``name`` from ``t0`` to ``t1`` on the simulator's grid."""
-        lo, hi = self.index(t0), self.index(t1)
-        t, y = self.time, self.data[name]
-        return sum((t[i + 1] - t[i]) * (y[i] + y[i + 1]) / 2 for i in range(lo, hi))
-
-
-def _with_control(text: str, control: Sequence[str]) -> str:
-    """The netlist with ``control`` inserted before its final ``.end`` line."""
-    lines = text.splitlines()
-    for index in range(len(lines) - 1, -1, -1):
-        if lines[index].strip().lower() == ".end":
-            return "\n".join([*lines[:index], *control, *lines[index:]]) + "\n"
-    raise AssertionError("netlist has no .end line")
-
-
 def _simulate(deck: Path, vectors: Sequence[str]) -> Waves:
-    assert NGSPICE is not None  # the lab fixture skips first
     saves = [v for v in vectors if v.startswith("@")]
-    control = [".control", "set wr_singlescale", "set wr_vecnames"]
-    if saves:
-        # device currents are only kept when asked for by name
-        control.append("save all " + " ".join(saves))
-    control += ["run", "wrdata vectors.txt " + " ".join(vectors), "quit", ".endc"]
-    run_dir = deck.parent / f"{deck.stem}.run"
-    run_dir.mkdir()
-    (run_dir / "deck.cir").write_text(
-        _with_control(deck.read_text(encoding="utf-8"), control), encoding="utf-8"
-    )
-    proc = subprocess.run(
-        [NGSPICE, "-b", "deck.cir"],
-        cwd=run_dir,
-        capture_output=True,
-        text=True,
-        timeout=TIMEOUT_S,
-        check=False,
-    )
-    log = proc.stdout + proc.stderr
-    assert proc.returncode == 0, f"ngspice exited with {proc.returncode}:\n{log[-3000:]}"
-    written = run_dir / "vectors.txt"
-    assert written.is_file(), f"ngspice wrote no vectors:\n{log[-3000:]}"
-    rows = written.read_text(encoding="utf-8").splitlines()[1:]
-    table = [tuple(float(cell) for cell in row.split()) for row in rows if row.strip()]
-    columns = list(zip(*table, strict=True))
-    # wr_singlescale: column 0 is time, then one column per requested vector
-    return Waves(columns[0], {name: columns[i + 1] for i, name in enumerate(vectors)})
+    text = deck.read_text(encoding="utf-8")
+    return run_transient(text, vectors, deck.parent / f"{deck.stem}.run", saves)
 
 
 @dataclass(frozen=True)

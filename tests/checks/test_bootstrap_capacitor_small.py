@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import bisect
 import shutil
-import subprocess
 from pathlib import Path
 
 import pytest
+from simulator import run_transient
 
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import RuleSetting
@@ -258,20 +258,9 @@ def _boot_during_on_times(capacitor: str, tmp_path: Path) -> list[tuple[float, f
     of the totem-pole example with C1 replaced, simulated in ngspice."""
     text = (EXAMPLES / "tool36_leg_totem_pole.cir").read_text(encoding="utf-8")
     text = text.replace("C1    BOOT SW 10n", f"C1    BOOT SW {capacitor}")
-    out = tmp_path / f"boot_{capacitor}.txt"
-    control = (
-        f".control\nset wr_singlescale\nset wr_vecnames\noption numdgt=8\nrun\n"
-        f"wrdata {out} v(boot,sw) v(sw)\nquit\n.endc\n"
-    )
-    end = text.lower().rstrip().rfind(".end")
-    deck = tmp_path / f"tool36_{capacitor}.cir"
-    deck.write_text(text[:end] + control + text[end:], encoding="utf-8")
-    done = subprocess.run(
-        ["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False
-    )
-    assert done.returncode == 0 and out.exists(), done.stdout + done.stderr
-    rows = [list(map(float, r.split())) for r in out.read_text().splitlines()[1:]]
-    time = [r[0] for r in rows]
+    waves = run_transient(text, ["v(boot,sw)", "v(sw)"], tmp_path / f"tool36_{capacitor}")
+    rows = list(zip(waves.time, waves["v(boot,sw)"], waves["v(sw)"], strict=True))
+    time = list(waves.time)
     cycles: list[tuple[float, float]] = []
     start: int | None = None
     for index, (_, _boot, sw) in enumerate(rows):

@@ -2,13 +2,11 @@
 
 from __future__ import annotations
 
-import bisect
 import math
-import shutil
-import subprocess
 from pathlib import Path
 
 import pytest
+from simulator import run_transient
 
 from drivelint.checks.base import Finding
 from drivelint.pipeline import check_path, check_text
@@ -279,33 +277,19 @@ def test_load_switch_drain_and_hold_time_against_ngspice(tmp_path: Path) -> None
     # once the output has settled, and the time its voltage takes to fall to V_boot,min
     # after the enable, against the finding's I_drain and t_hold (the latter restated for
     # the voltage the simulated capacitor starts from).
-    if shutil.which("ngspice") is None:
-        pytest.skip("ngspice is not installed; the simulator cross-check needs it (CI has it)")
     (finding,) = [
         f for f in check_path(EXAMPLES / "loadswitch24v_dc_enable.cir").findings if f.rule == RULE
     ]
     text = (EXAMPLES / "loadswitch24v_dc_enable.cir").read_text(encoding="utf-8")
-    out = tmp_path / "boot.txt"
-    control = (
-        f".control\nset wr_singlescale\nset wr_vecnames\noption numdgt=8\nrun\n"
-        f"wrdata {out} v(boot,out) v(out)\nquit\n.endc\n"
-    )
-    end = text.lower().rstrip().rfind(".end")
-    deck = tmp_path / "loadswitch.cir"
-    deck.write_text(text[:end] + control + text[end:], encoding="utf-8")
-    done = subprocess.run(
-        ["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False
-    )
-    assert done.returncode == 0 and out.exists(), done.stdout + done.stderr
-    rows = [list(map(float, r.split())) for r in out.read_text().splitlines()[1:]]
-    time = [r[0] for r in rows]
+    waves = run_transient(text, ["v(boot,out)", "v(out)"], tmp_path / "loadswitch")
+    rows = list(zip(waves.time, waves["v(boot,out)"], waves["v(out)"], strict=True))
 
     def boot_at(t: float) -> float:
-        return rows[min(bisect.bisect_left(time, t), len(rows) - 1)][1]
+        return waves.at("v(boot,out)", t)
 
     c = finding.values["capacitance"].value
     i_drain = finding.values["i_drain"].value
-    assert boot_at(0.6e-3) > 0 and rows[bisect.bisect_left(time, 0.6e-3)][2] > 23.5  # settled
+    assert boot_at(0.6e-3) > 0 and waves.at("v(out)", 0.6e-3) > 23.5  # settled
     measured_current = c * (boot_at(0.6e-3) - boot_at(1.0e-3)) / 0.4e-3
     assert measured_current == pytest.approx(i_drain, rel=0.15)
     # Without the level shifter's base drive, R_GS alone would be several times too small.
