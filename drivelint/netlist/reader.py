@@ -422,9 +422,10 @@ class _Reader:
         body = comment[1:].lstrip()
         if body[: len(DIRECTIVE_PREFIX)].lower() != DIRECTIVE_PREFIX:
             return
-        text = body[len(DIRECTIVE_PREFIX) :]
-        column = indent + 1 + (len(comment) - len(text))
-        self.directives.append(Directive(text.strip(), Span(shown, number, column), column))
+        text = body[len(DIRECTIVE_PREFIX) :].strip()
+        # The column where the directive's own text starts, so offsets into it land right.
+        column = indent + 1 + (len(comment.rstrip()) - len(text))
+        self.directives.append(Directive(text, Span(shown, number, column), column))
 
     # -- statements ------------------------------------------------------------------
 
