@@ -50,7 +50,9 @@ def test_malformed_directive_is_a_diagnostic_with_its_column(tmp_path: Path) -> 
 
 
 def test_part_directive_overrides_the_parts_library(tmp_path: Path) -> None:
-    path = with_directives(tmp_path, "* drivelint: part C_BOOT c=4.7u", "* drivelint: part M1 qg=40n")
+    path = with_directives(
+        tmp_path, "* drivelint: part C_BOOT c=4.7u", "* drivelint: part M1 qg=40n"
+    )
     result = check_path(path)
     (hold,) = [f for f in result.findings if f.rule == "dc-hold"]
     assert hold.values["gate_charge"].origin.startswith("directive")
