@@ -11,6 +11,7 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
+from typing import TypeVar
 
 from drivelint._gc import paused_gc
 from drivelint.circuit.model import (
@@ -42,6 +43,7 @@ from drivelint.netlist.statements import (
 )
 
 DEFAULT_GROUND_ALIASES = frozenset({"0", "gnd"})
+_Named = TypeVar("_Named", ModelCard, Subckt)
 
 # Pin roles in node order, per element letter (for the fixed-count kinds).
 PIN_ROLES: Mapping[str, tuple[str, ...]] = {
@@ -150,26 +152,24 @@ class _Elaborator:
                     # The value's span, so an error's offset in the text lands on its column.
                     scope.params[assign.key] = ParamDef(assign.value.span, text=assign.value.text)
             elif isinstance(statement, ModelCard):
-                if statement.name in scope.models:
-                    self.report(
-                        Severity.WARNING,
-                        statement.span,
-                        f"model '{statement.name}' defined again; this definition is used",
-                    )
-                scope.models[statement.name] = statement
+                self.define(scope.models, statement, "model")
             elif isinstance(statement, Subckt):
-                if statement.name in scope.subckts:
-                    self.report(
-                        Severity.WARNING,
-                        statement.span,
-                        f"subcircuit '{statement.name}' defined again; this definition is used",
-                    )
-                scope.subckts[statement.name] = statement
+                self.define(scope.subckts, statement, "subcircuit")
             elif isinstance(statement, GlobalCard) and parent is None:
                 self.global_nets.update(w.text for w in statement.nets)
             elif isinstance(statement, TranCard) and parent is None and self.tran is None:
                 self.tran = statement
         return scope
+
+    def define(self, table: dict[str, _Named], statement: _Named, what: str) -> None:
+        """Add a definition to its scope's table; a second one wins, with a warning."""
+        if statement.name in table:
+            self.report(
+                Severity.WARNING,
+                statement.span,
+                f"{what} '{statement.name}' defined again; this definition is used",
+            )
+        table[statement.name] = statement
 
     def model(self, name: str, scope: Scope, span: Span) -> Model | None:
         found = scope.find_model(name)

@@ -202,26 +202,31 @@ def split_flat(line: LogicalLine) -> list[Field] | None:
     return out if position == end else None
 
 
-def strip_inline_comment(text: str) -> str:
-    """Remove a ``;`` comment or a ``$ `` comment, outside quotes and braces."""
-    if ";" not in text and "$" not in text:
-        return text
-    depth = 0
+def _top_level(text: str) -> Iterator[tuple[int, str]]:
+    """(offset, character) for each character outside quoted and braced expressions."""
+    braces = 0
     quoted = False
-    for index, char in enumerate(text):
-        if char == "'" and depth == 0:
+    for offset, char in enumerate(text):
+        if char == "'" and not braces:
             quoted = not quoted
         elif quoted:
             continue
         elif char == "{":
-            depth += 1
+            braces += 1
         elif char == "}":
-            depth = max(depth - 1, 0)
-        elif depth:
-            continue
-        elif char == ";":
+            braces = max(braces - 1, 0)
+        elif not braces:
+            yield offset, char
+
+
+def strip_inline_comment(text: str) -> str:
+    """Remove a ``;`` comment or a ``$ `` comment, outside quotes and braces."""
+    if ";" not in text and "$" not in text:
+        return text
+    for index, char in _top_level(text):
+        if char == ";":
             return text[:index]
-        elif (
+        if (
             char == "$"
             and (index == 0 or text[index - 1] in " \t")
             and (index + 1 == len(text) or text[index + 1] in " \t")
@@ -799,20 +804,8 @@ class _Reader:
 def _group_too_deep(text: str, limit: int) -> int | None:
     """Offset of the first '(' nested deeper than ``limit``, outside braces and quotes."""
     depth = 0
-    braces = 0
-    quoted = False
-    for offset, char in enumerate(text):
-        if char == "'" and not braces:
-            quoted = not quoted
-        elif quoted:
-            continue
-        elif char == "{":
-            braces += 1
-        elif char == "}":
-            braces = max(braces - 1, 0)
-        elif braces:
-            continue
-        elif char == "(":
+    for offset, char in _top_level(text):
+        if char == "(":
             depth += 1
             if depth > limit:
                 return offset

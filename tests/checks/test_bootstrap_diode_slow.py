@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 import shutil
-import subprocess
 from pathlib import Path
 
 import pytest
+from simulator import run_transient
 
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import RuleSetting
@@ -203,23 +203,8 @@ def test_other_examples_are_quiet(example: str) -> None:
 
 def _reverse_charge_per_cycle(netlist: str, workdir: Path) -> float:
     """Charge the boot diode carries backwards per 2.5 µs cycle, from 30 µs to 60 µs."""
-    control = (
-        ".control\nset wr_singlescale\nset wr_vecnames\nsave all @d_bst[id]\nrun\n"
-        "wrdata diode.txt @d_bst[id]\nquit\n.endc\n"
-    )
-    head, _, _ = netlist.rpartition(".end")
-    (workdir / "deck.cir").write_text(head + control + ".end\n", encoding="utf-8")
-    done = subprocess.run(
-        ["ngspice", "-b", "deck.cir"],
-        cwd=workdir,
-        capture_output=True,
-        text=True,
-        timeout=30,
-        check=False,
-    )
-    assert done.returncode == 0, done.stdout[-2000:] + done.stderr[-2000:]
-    rows = (workdir / "diode.txt").read_text(encoding="utf-8").splitlines()[1:]
-    points = [tuple(float(x) for x in row.split()) for row in rows if row.strip()]
+    waves = run_transient(netlist, ["@d_bst[id]"], workdir, saves=["@d_bst[id]"])
+    points = list(zip(waves.time, waves["@d_bst[id]"], strict=True))
     back = 0.0
     for (t0, i0), (t1, i1) in zip(points, points[1:], strict=False):
         if t0 >= 30e-6:
