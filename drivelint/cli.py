@@ -331,3 +331,102 @@ def config_command(path: Path, config_file: Path | None) -> None:
         click.echo(f"drivelint: {exc}", err=True)
         sys.exit(EXIT_ERROR)
     click.echo(describe(config))
+
+
+# -- testbench ------------------------------------------------------------------------------------
+
+
+@main.command("testbench")
+@click.argument("paths", nargs=-1, required=True)
+@click.option(
+    "--output",
+    "-o",
+    required=True,
+    type=click.Path(path_type=Path, file_okay=False),
+    help="Folder for the decks (DIR/<netlist stem>/<rule>__<device>.cir); the only place written.",
+)
+@click.option("--rule", "rule_id", default=None, help="Only findings of this rule.")
+@click.option("--device", default=None, help="Only findings on this device or switch.")
+@click.option(
+    "--parts",
+    "parts",
+    multiple=True,
+    type=click.Path(path_type=Path, dir_okay=False),
+    help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
+)
+@click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
+@click.option("--run", "run_decks", is_flag=True, help="Run each deck in ngspice and compare.")
+@click.option(
+    "--jobs", "-j", type=click.IntRange(min=1), default=None, help="Parallel ngspice runs."
+)
+@click.option(
+    "--run-timeout",
+    type=click.FloatRange(min=1.0),
+    default=120.0,
+    show_default=True,
+    help="Seconds one ngspice run may take.",
+)
+def testbench_command(
+    paths: tuple[str, ...],
+    output: Path,
+    rule_id: str | None,
+    device: str | None,
+    parts: tuple[Path, ...],
+    fmt: str,
+    run_decks: bool,
+    jobs: int | None,
+    run_timeout: float,
+) -> None:
+    """Write a SPICE testbench per finding that reproduces it, and one with its fix.
+
+    PATHS are netlists, folders or glob patterns. Each finding becomes
+    DIR/<netlist stem>/<rule>__<device>.cir (self-contained; `ngspice -b` prints one
+    `name = value` per claimed value) and, where the fix is a value or part change,
+    <rule>__<device>.fixed.cir. Exit 0: decks written (and, with --run, run); 1: a file
+    could not be checked, a deck not written or a run not completed; 2: usage errors.
+    """
+    import os
+
+    from drivelint.checks.registry import RuleError, registry
+    from drivelint.config import DEFAULT_SUFFIXES, ConfigError, find_config, load_config
+    from drivelint.ratings.parts import PartsError
+    from drivelint.testbench.command import TestbenchOptions, make_testbenches, record_text
+    from drivelint.testbench.ngspice import find_ngspice
+
+    if rule_id is not None and rule_id not in registry():
+        known = ", ".join(registry())
+        click.echo(f"drivelint: unknown rule '{rule_id}'; known rules: {known}", err=True)
+        sys.exit(EXIT_ERROR)
+    if "-" in paths:
+        raise click.UsageError("a testbench needs a netlist file; standard input is not read")
+    files, _ = _expand(paths, DEFAULT_SUFFIXES)
+    options = TestbenchOptions(
+        output=output,
+        rule=rule_id,
+        device=device,
+        parts=parts,
+        run=run_decks,
+        jobs=jobs or os.cpu_count() or 1,
+        run_timeout=run_timeout,
+    )
+    if run_decks and find_ngspice() is None:
+        click.echo("drivelint: --run needs ngspice on the PATH", err=True)
+        sys.exit(EXIT_ERROR)
+    try:
+        configs = [load_config(find_config(path)) for path in files]
+        kept = [(f, c) for f, c in zip(files, configs) if not c.excluded(f)]
+        outcome = make_testbenches([f for f, _ in kept], [c for _, c in kept], options)
+    except (PartsError, RuleError, ConfigError) as exc:
+        click.echo(f"drivelint: {exc}", err=True)
+        sys.exit(EXIT_ERROR)
+    for diagnostic in outcome.diagnostics:
+        click.echo(diagnostic.render(), err=True)
+    if fmt == "json":
+        import json
+
+        payload = [record.to_json() for record in outcome.records]
+        click.echo(json.dumps(payload, indent=2, sort_keys=True))
+    else:
+        lines = [line for record in outcome.records for line in record_text(record)]
+        click.echo("\n".join(lines) if lines else "no findings: no testbench written")
+    sys.exit(EXIT_FINDINGS if outcome.failed else EXIT_OK)

@@ -1,0 +1,763 @@
+"""One testbench builder per rule: the operating point the rule assumed, as a stimulus, and
+one ``.meas`` card per claimed value.
+
+Which of a finding's values are claims is decided here, per rule (and per kind of finding
+where a rule has several): the quantities the finding computes and asserts about the
+circuit's behaviour (a hold time, a droop, a V_GS extreme, a reverse voltage, a sustained
+boot voltage), never its inputs (ratings, options, conditions). Each builder also states
+the limit whose violation is the failure, so that the design's deck can show it and the
+fixed deck can show it gone.
+
+``BUILDERS`` is keyed by rule id; a rule for which no simulation can show the failure
+goes in ``NOT_SIMULATED`` with the reason. ``tests/testbench`` holds every registered
+rule to one of the two.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+
+from drivelint.circuit.model import Device
+from drivelint.diagnostics import Span
+from drivelint.netlist.values import format_si
+from drivelint.testbench.bench import (
+    MAX_STOP,
+    Bench,
+    BenchContext,
+    Declined,
+    analysis_step,
+    boot_vector_nets,
+    charge_time,
+    design_schedule,
+    matches,
+    periodic_conditions,
+    stimulus,
+)
+from drivelint.testbench.design import Edit
+from drivelint.testbench.measure import (
+    Card,
+    Claim,
+    Limit,
+    at,
+    average,
+    device_vector,
+    difference,
+    expression,
+    extreme,
+    integral,
+    source_current,
+    time_to_fall,
+    voltage,
+)
+from drivelint.testbench.stimulus import Schedule, number
+
+Builder = Callable[[BenchContext], Bench | Declined]
+
+# One-shot turn-ons last this long when the rule's operating point is a state, not a
+# timing (a reverse voltage, a clamp level): long enough for the switch node to settle.
+ONE_SHOT_ON = 20e-6
+SETTLE_AFTER = 5e-6
+# Cycles simulated before a steady-state cycle is measured, in refresh time constants per
+# off-time: four e-folds leave 2 % of the start-up difference.
+STEADY_TIME_CONSTANTS = 4
+MIN_CYCLES, MAX_CYCLES = 10, 2000
+DIODE_SLOW_CYCLES = 20
+
+
+def _claims(ctx: BenchContext, *keys: str, sense: str = "estimate") -> list[Claim]:
+    found = (ctx.claim(key, sense) for key in keys)
+    return [c for c in found if c is not None]
+
+
+def _own_or_periodic(
+    ctx: BenchContext, why: str, delay_floor: float = 0.0
+) -> tuple[Schedule, dict[Span, Edit], tuple[str, ...]] | Declined:
+    """The design's own control where it already is the rule's operating point (and no fix
+    changes it), else a pulse train at the rule's period and on-time."""
+    conditions = periodic_conditions(ctx)
+    own = design_schedule(ctx.stage)
+    if conditions is None:
+        return Declined("the finding gives no switching frequency and duty to drive the stage at")
+    period, on_time = conditions
+    if ctx.fix is None or ctx.fix.duty is None:
+        if own is not None and matches(own, period, on_time):
+            source = ctx.stage.control.source if ctx.stage.control else "the control"
+            return own, {}, (f"{source}: the design's own command, {why}",)
+    delay = max(charge_time(ctx), delay_floor)
+    schedule = Schedule.periodic(period, on_time, delay)
+    made = stimulus(ctx, schedule, why)
+    if isinstance(made, Declined):
+        return made
+    return schedule, dict(made.edits), made.notes
+
+
+def _window(schedule: Schedule, index: int) -> tuple[float, float]:
+    """The ``index``-th on-window of the schedule (0-based), or its last."""
+    windows = schedule.on_windows(until=MAX_STOP)
+    chosen = windows[min(index, len(windows) - 1)]
+    return chosen
+
+
+def _boot(ctx: BenchContext) -> str | Declined:
+    nets = boot_vector_nets(ctx.stage)
+    if nets is None:
+        return Declined("the stage has no boot net to measure")
+    return difference(*nets)
+
+
+def _vgs(ctx: BenchContext) -> str:
+    return difference(ctx.stage.gate, ctx.stage.source)
+
+
+# ---------------------------------------------------------------- bootstrap-capacitor-small
+
+
+def capacitor_small(ctx: BenchContext) -> Bench | Declined:
+    facts = ctx.facts
+    boot = _boot(ctx)
+    cap = facts.capacitor
+    on_time, v_boot_min = ctx.value("on_time"), ctx.value("v_boot_min")
+    if isinstance(boot, Declined):
+        return boot
+    if cap is None or on_time is None or v_boot_min is None or not math.isfinite(on_time):
+        return Declined("the finding gives no hold capacitor or finite on-time")
+    own = design_schedule(ctx.stage)
+    edits: dict[Span, Edit] = {}
+    if (
+        own is not None
+        and own.period is not None
+        and math.isclose(own.on_time, on_time, rel_tol=1e-3)
+    ):
+        schedule = own
+        source = ctx.stage.control.source if ctx.stage.control else "the control"
+        notes: tuple[str, ...] = (
+            f"{source}: the design's own command (its on-time is the rule's)",
+        )
+    else:
+        fsw = facts.fsw.value if facts.fsw else None
+        recharge = charge_time(ctx)
+        period = 1 / fsw if fsw and 1 / fsw > on_time else on_time + max(recharge, on_time)
+        schedule = Schedule.periodic(period, on_time, recharge)
+        made = stimulus(ctx, schedule, "the longest on-time the rule used, after a full recharge")
+        if isinstance(made, Declined):
+            return made
+        edits, notes = dict(made.edits), made.notes
+    start, end = _window(schedule, 1)
+    current = device_vector(cap.name, "i")
+    cards = [
+        at("v_boot", boot, start, "V(boot) - V(sw) at the turn-on command: the recharged supply"),
+        at("tb_boot_end", boot, end, "V(boot) - V(sw) at the turn-off command"),
+        expression(
+            "droop_per_cycle", "v_boot-tb_boot_end", "the boot supply's fall over one on-time"
+        ),
+        integral("tb_cap_charge", current, start, end, f"charge into {cap.name} over the on-time"),
+        expression("charge_per_cycle", "-tb_cap_charge", f"charge {cap.name} gives in one on-time"),
+        extreme("tb_boot_min", "MIN", boot, start, end, "lowest boot supply in the on-time"),
+    ]
+    claims = _claims(ctx, "v_boot", "droop_per_cycle", "charge_per_cycle")
+    if ctx.fix is not None:
+        cards.append(
+            expression(
+                "suggested_droop_per_cycle",
+                "v_boot-tb_boot_end",
+                "the droop with the suggested capacitor",
+            )
+        )
+        claims = _claims(ctx, "suggested_droop_per_cycle")
+    off = (schedule.period or on_time) - on_time
+    stop = end + min(0.1 * off, SETTLE_AFTER) if off > 0 else end + SETTLE_AFTER
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, min(on_time, off) if off > 0 else on_time),
+        cards=tuple(cards),
+        claims=tuple(claims),
+        limits=(
+            Limit(
+                "tb_boot_min",
+                v_boot_min,
+                ">=",
+                "the boot supply stays at or above V_boot,min through the on-time",
+                "V",
+            ),
+        ),
+        notes=notes,
+        saves=(current,),
+        uic=ctx.design.uses_uic(),
+    )
+
+
+# ---------------------------------------------------------------- dc-hold
+
+
+def dc_hold(ctx: BenchContext) -> Bench | Declined:
+    facts = ctx.facts
+    boot = _boot(ctx)
+    cap = facts.capacitor
+    hold, on_time = ctx.value("hold_time"), ctx.value("on_time")
+    v_boot_min = ctx.value("v_boot_min")
+    if isinstance(boot, Declined):
+        return boot
+    if cap is None or hold is None or on_time is None or v_boot_min is None:
+        return Declined("the finding gives no hold time to show")
+    if not (math.isfinite(hold) and hold > 0):
+        return Declined(
+            "no drain of the hold capacitor is known, so the simulation has no end to show"
+        )
+    start = charge_time(ctx)
+    unbounded = not math.isfinite(on_time)
+    if unbounded:
+        schedule = Schedule.steps((start, True))
+        end = start + min(2.5 * hold, MAX_STOP)
+        stop = end
+        why = "a DC command once the boot supply has charged (the unbounded on-time)"
+    else:
+        schedule = Schedule.steps((start, True), (start + on_time, False))
+        end = start + on_time
+        stop = min(end + SETTLE_AFTER, MAX_STOP)
+        why = "one on-time as long as the longest the control demands"
+    made = stimulus(ctx, schedule, why)
+    if isinstance(made, Declined):
+        return made
+    current = device_vector(cap.name, "i")
+    settled = start + hold / 2
+    cards = [
+        at("tb_boot_start", boot, start, "V(boot) - V(sw) at the turn-on command"),
+        time_to_fall(
+            "hold_time",
+            start,
+            boot,
+            v_boot_min,
+            "time from the turn-on command until the boot supply falls through V_boot,min",
+        ),
+        average(
+            "tb_cap_current",
+            current,
+            settled,
+            min(start + hold, end),
+            f"mean current into {cap.name} in the second half of the claimed hold time",
+        ),
+        expression("i_drain", "-tb_cap_current", f"mean current drawn from {cap.name} while on"),
+        extreme("tb_boot_min", "MIN", boot, start, end, "lowest boot supply while commanded on"),
+    ]
+    claims = [] if ctx.fix is not None else _claims(ctx, "hold_time", "i_drain")
+    return Bench(
+        edits=made.edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, hold),
+        cards=tuple(cards),
+        claims=tuple(claims),
+        limits=(
+            Limit(
+                "tb_boot_min",
+                v_boot_min,
+                ">=",
+                "the boot supply stays at or above V_boot,min while the switch is commanded on",
+                "V",
+            ),
+        ),
+        notes=made.notes,
+        saves=(current,),
+        uic=ctx.design.uses_uic(),
+    )
+
+
+# ---------------------------------------------------------------- gate-overvoltage
+
+
+def gate_kind(ctx: BenchContext) -> str:
+    """Which of gate-overvoltage's findings this is, from its device and values."""
+    finding, stage = ctx.finding, ctx.stage
+    values = finding.values
+    clamp = next((c for c in stage.clamps if finding.device in (c.devices or (c.device,))), None)
+    if "vgs_pulled_down" in values:
+        return "negative"
+    if clamp is None:
+        return "positive"
+    if "clamp_positive_low" in values:
+        return "clamp tolerance"
+    level, drive = ctx.value("clamp_positive_level"), ctx.value("vgs_drive")
+    if clamp.orientation == "reversed":
+        return "clamp reversed"
+    if level is not None and drive is not None and level < drive:
+        return "clamp below drive"
+    return "clamp beyond rating"
+
+
+NOT_SHOWN = {
+    "clamp tolerance": "the Zener conducts only at the low edge of its tolerance; a nominal "
+    "simulation cannot show it (tolerance corners are not simulated yet)",
+    "clamp beyond rating": "a clamp above the rating fails only in a fault that drives the "
+    "gate past it; no normal operating point shows it",
+}
+
+
+def gate_overvoltage(ctx: BenchContext) -> Bench | Declined:
+    kind = gate_kind(ctx)
+    if kind == "negative":
+        return _negative_vgs(ctx)
+    if kind in ("clamp below drive", "clamp reversed"):
+        return _clamp_in_drive(ctx)
+    if kind == "positive":
+        return _positive_vgs(ctx)
+    return Declined(NOT_SHOWN[kind])
+
+
+def _bench_on_time(ctx: BenchContext) -> float:
+    """How long to hold the switch on before turning it off: half the hold time of the
+    boot supply (the gate is still fully up), else the design's longest on-time."""
+    from drivelint.physics import bootstrap as boot_physics
+
+    facts = ctx.facts
+    c, dv, qg, i = facts.c_hold, facts.delta_v_allowed, facts.qg, facts.i_drain
+    candidates: list[float] = []
+    if c is not None and dv is not None and i.value > 0:
+        hold = boot_physics.hold_time(c.value, dv.value, qg.value if qg else 0.0, i.value)
+        if math.isfinite(hold) and hold > 0:
+            candidates.append(hold / 2)
+    if facts.finite(facts.on_time) and facts.on_time is not None:
+        candidates.append(facts.on_time.value)
+    chosen = min(candidates) if candidates else 200e-6
+    return min(max(chosen, 10e-6), 2e-3)
+
+
+def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
+    stage = ctx.stage
+    limit = ctx.value("vgs_limit_negative")
+    if limit is None:
+        return Declined("the finding gives no negative V_GS limit")
+    start = charge_time(ctx)
+    turn_off = start + _bench_on_time(ctx)
+    tau = ctx.value("tau_source_node")
+    after = 0.2 * tau if tau is not None and math.isfinite(tau) else 200e-6
+    stop = turn_off + min(max(after, 20e-6), 1e-3)
+    schedule = Schedule.steps((start, True), (turn_off, False))
+    made = stimulus(
+        ctx, schedule, "a turn-on long enough for the source to rise, then the turn-off"
+    )
+    if isinstance(made, Declined):
+        return made
+    vgs = _vgs(ctx)
+    cards = [
+        at(
+            "tb_source_at_turn_off",
+            voltage(stage.source),
+            turn_off,
+            "the source voltage at the turn-off command (the rule holds it at the bus)",
+        ),
+        extreme("vgs_max_negative", "MIN", vgs, turn_off, stop, "lowest V_GS after turn-off"),
+        extreme("vgs_pulled_down", "MIN", vgs, turn_off, stop, "V_GS as the pull-down acts"),
+    ]
+    claims = [] if ctx.fix is not None else _claims(ctx, "vgs_max_negative", "vgs_pulled_down")
+    return Bench(
+        edits=made.edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, min(turn_off - start, stop - turn_off)),
+        cards=tuple(cards),
+        claims=tuple(claims),
+        limits=(
+            Limit("vgs_max_negative", limit, ">=", "V_GS stays within its negative limit", "V"),
+        ),
+        notes=made.notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def _clamp_current(ctx: BenchContext, start: float, end: float) -> tuple[list[Card], str]:
+    """Cards for the clamp's current from gate to source, and the save they need."""
+    device = ctx.design.circuit.devices.get(ctx.finding.device)
+    assert device is not None
+    vector = device_vector(device.name, "id")
+    # Current from gate to source runs forward through a diode whose anode is on the gate.
+    forward = device.net("a") == ctx.stage.gate
+    formula = "tb_clamp_current" if forward else "-tb_clamp_current"
+    return [
+        average("tb_clamp_current", vector, start, end, f"{device.name}'s mean current"),
+        expression(
+            "clamp_current_bound",
+            formula,
+            f"mean current through {device.name} from gate to source in the steady on-state",
+        ),
+    ], vector
+
+
+def _drive_window(ctx: BenchContext) -> tuple[Schedule, dict[Span, Edit], tuple[str, ...]]:
+    """The design's own command where it is a pulse train; else one long turn-on."""
+    own = design_schedule(ctx.stage)
+    if own is not None and own.period is not None:
+        source = ctx.stage.control.source if ctx.stage.control else "the control"
+        return own, {}, (f"{source}: the design's own command",)
+    start = charge_time(ctx)
+    schedule = Schedule.steps((start, True), (start + ONE_SHOT_ON, False))
+    made = stimulus(ctx, schedule, "one turn-on long enough for the gate to settle")
+    if isinstance(made, Declined):
+        raise _Unavailable(made.reason)
+    return schedule, dict(made.edits), made.notes
+
+
+class _Unavailable(Exception):
+    pass
+
+
+def _clamp_in_drive(ctx: BenchContext) -> Bench | Declined:
+    drive = ctx.value("vgs_drive")
+    if drive is None:
+        return Declined("the finding gives no drive level")
+    try:
+        schedule, edits, notes = _drive_window(ctx)
+    except _Unavailable as exc:
+        return Declined(str(exc))
+    start, end = _window(schedule, 1)
+    settled = (start + end) / 2  # the second half of the on-time: the steady on-state
+    vgs = _vgs(ctx)
+    current_cards, save = _clamp_current(ctx, settled, end)
+    cards = [
+        extreme("vgs_max_positive", "MAX", vgs, settled, end, "highest steady on-state V_GS"),
+        extreme("clamp_positive_level", "MAX", vgs, settled, end, "V_GS where the clamp holds it"),
+        *current_cards,
+    ]
+    claims = (
+        []
+        if ctx.fix is not None
+        else [
+            *_claims(ctx, "vgs_max_positive", "clamp_positive_level"),
+            *_claims(ctx, "clamp_current_bound", sense="upper bound"),
+        ]
+    )
+    stop = min(end + SETTLE_AFTER, MAX_STOP)
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, end - start),
+        cards=tuple(cards),
+        claims=tuple(claims),
+        limits=(
+            Limit(
+                "vgs_max_positive",
+                0.95 * drive,
+                ">=",
+                "V_GS reaches the drive level (within 5 %): no clamp pins it lower",
+                "V",
+            ),
+        ),
+        notes=notes,
+        saves=(save,),
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def _positive_vgs(ctx: BenchContext) -> Bench | Declined:
+    limit = ctx.value("vgs_limit_positive")
+    if limit is None:
+        return Declined("the finding gives no positive V_GS limit")
+    try:
+        schedule, edits, notes = _drive_window(ctx)
+    except _Unavailable as exc:
+        return Declined(str(exc))
+    start, end = _window(schedule, 1)
+    stop = min(end + SETTLE_AFTER, MAX_STOP)
+    cards = [extreme("vgs_max_positive", "MAX", _vgs(ctx), 0.0, stop, "highest V_GS")]
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, end - start),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx, "vgs_max_positive")),
+        limits=(Limit("vgs_max_positive", limit, "<=", "V_GS stays within its rating", "V"),),
+        notes=notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+# ---------------------------------------------------------------- bootstrap-diode-voltage
+
+
+def diode_voltage(ctx: BenchContext) -> Bench | Declined:
+    diode = ctx.facts.diode
+    limit = ctx.value("derated_limit")
+    if diode is None or limit is None:
+        return Declined("the finding gives no bootstrap diode or derated limit")
+    anode, cathode = diode.net("a"), diode.net("k")
+    assert anode is not None and cathode is not None
+    start = charge_time(ctx)
+    end = start + ONE_SHOT_ON
+    stop = end + SETTLE_AFTER
+    schedule = Schedule.steps((start, True), (end, False))
+    made = stimulus(
+        ctx,
+        schedule,
+        "one turn-on from a fully charged boot supply (the rule's V_boot = V_aux - V_F)",
+    )
+    if isinstance(made, Declined):
+        return made
+    cards = [
+        extreme(
+            "diode_reverse_voltage",
+            "MAX",
+            difference(cathode, anode),
+            start,
+            end,
+            f"highest reverse voltage across {diode.name} while the switch is on",
+        )
+    ]
+    return Bench(
+        edits=made.edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
+        cards=tuple(cards),
+        claims=tuple([] if ctx.fix is not None else _claims(ctx, "diode_reverse_voltage")),
+        limits=(
+            Limit(
+                "diode_reverse_voltage",
+                limit,
+                "<=",
+                f"{diode.name}'s reverse voltage stays within its derated rating",
+                "V",
+            ),
+        ),
+        notes=made.notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+# ---------------------------------------------------------------- bootstrap-no-refresh
+
+
+def no_refresh(ctx: BenchContext) -> Bench | Declined:
+    boot = _boot(ctx)
+    v_boot_min = ctx.value("v_boot_min")
+    if isinstance(boot, Declined):
+        return boot
+    if v_boot_min is None:
+        return Declined("the finding gives no V_boot,min")
+    if "sustained_boot_voltage" not in ctx.finding.values:
+        return _runs_down(ctx, boot, v_boot_min)
+    chosen = _own_or_periodic(ctx, "the duty and frequency the rule used")
+    if isinstance(chosen, Declined):
+        return chosen
+    schedule, edits, notes = chosen
+    if schedule.period is None:
+        return Declined("the control is not periodic")
+    period, off = schedule.period, schedule.period - schedule.on_time
+    tau = ctx.value("refresh_tau")
+    if tau is not None and math.isfinite(tau) and off > 0:
+        cycles = math.ceil(STEADY_TIME_CONSTANTS * tau / off) + 3
+    else:
+        cycles = MIN_CYCLES
+    cycles = min(max(cycles, MIN_CYCLES), MAX_CYCLES, int(MAX_STOP / period) - 1)
+    windows = schedule.on_windows(until=schedule.delay + (cycles + 1) * period)
+    start, end = windows[cycles - 1]
+    previous_end = windows[cycles - 2][1]
+    cards = [
+        extreme(
+            "sustained_boot_voltage",
+            "MIN",
+            boot,
+            start,
+            end,
+            f"boot supply at the end of on-time {cycles} (cycle {cycles}, near steady state)",
+        ),
+        extreme(
+            "sustained_boot_peak",
+            "MAX",
+            boot,
+            previous_end,
+            start,
+            "boot supply at the end of the off-time before it",
+        ),
+        expression(
+            "delta_v_per_cycle",
+            "sustained_boot_peak-sustained_boot_voltage",
+            "the fall over that on-time",
+        ),
+    ]
+    claims = (
+        []
+        if ctx.fix is not None
+        else _claims(ctx, "sustained_boot_voltage", "sustained_boot_peak", "delta_v_per_cycle")
+    )
+    stop = end + min(off / 2, SETTLE_AFTER)
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, min(schedule.on_time, off)),
+        cards=tuple(cards),
+        claims=tuple(claims),
+        limits=(
+            Limit(
+                "sustained_boot_voltage",
+                v_boot_min,
+                ">=",
+                "the sustained boot supply stays at or above V_boot,min",
+                "V",
+            ),
+        ),
+        notes=(*notes, f"{cycles} cycles run before the one measured"),
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def _runs_down(ctx: BenchContext, boot: str, v_boot_min: float) -> Bench | Declined:
+    """No refresh path, or a reversed diode: the design's own command, run until the boot
+    supply has had time to run down. The finding computes no quantity, so the deck has
+    no claim; its limit shows the failure."""
+    own = design_schedule(ctx.stage)
+    if own is None or own.period is None:
+        return Declined("the design's control is not a pulse train to run the stage with")
+    period = own.period
+    cycles = MIN_CYCLES * 2
+    start, end = own.on_windows(until=own.delay + (cycles + 1) * period)[cycles - 1]
+    source = ctx.stage.control.source if ctx.stage.control else "the control"
+    stop = end + min(SETTLE_AFTER, period / 10)
+    return Bench(
+        edits={},
+        stop=stop,
+        step=analysis_step(ctx.design, stop, min(own.on_time, period - own.on_time)),
+        cards=(
+            extreme("tb_boot_end", "MIN", boot, start, end, f"boot supply in on-time {cycles}"),
+        ),
+        claims=(),
+        limits=(
+            Limit(
+                "tb_boot_end", v_boot_min, ">=", "the boot supply stays at or above V_boot,min", "V"
+            ),
+        ),
+        notes=(f"{source}: the design's own command, {cycles} cycles",),
+        uic=ctx.design.uses_uic(),
+    )
+
+
+# ---------------------------------------------------------------- bootstrap-diode-slow
+
+
+SENSE_PREFIX = "v_tb_"
+# Reverse current counted as conduction: a small share of the mean recharge current, well
+# above a bootstrap diode's leakage and brief enough edges of junction charge.
+REVERSE_SHARE = 0.01
+REVERSE_FLOOR = 1e-6
+
+
+def _reverse_threshold(ctx: BenchContext) -> float:
+    mean = ctx.value("recharge_current")
+    if mean is None:
+        q, off = ctx.value("q_per_cycle"), ctx.value("off_time")
+        mean = q / off if q and off else None
+    return max(REVERSE_SHARE * mean, REVERSE_FLOOR) if mean else 1e-4
+
+
+def sense_names(ctx: BenchContext, diode: Device) -> tuple[str, str, str]:
+    """(local source name, local node name, flattened source name) of the ammeter put in
+    series with the diode's anode."""
+    local = diode.name.rsplit(".", 1)[-1]
+    source, node = f"{SENSE_PREFIX}{local}", f"tb_{local}_a"
+    flat = f"{diode.instance}.{source}" if diode.instance else source
+    return source, node, flat
+
+
+def _ammeter(ctx: BenchContext, diode: Device) -> dict[Span, Edit] | Declined:
+    """A 0 V source in series with the diode's anode: ngspice's way to a current that a
+    ``par()`` expression may use."""
+    element = ctx.design.element_of(diode.name)
+    if element is None or not element.fields:
+        return Declined(f"{diode.name}'s statement cannot be found")
+    anode = element.fields[0]
+    from drivelint.netlist.statements import Word
+
+    if not isinstance(anode, Word):
+        return Declined(f"{diode.name}'s anode is not a plain node name")
+    source, node, _ = sense_names(ctx, diode)
+    return {
+        element.span: Edit(
+            fields=((anode, node),),
+            after=(f"{source.upper()} {anode.raw} {node} 0",),
+            note=f"a 0 V ammeter in series with {diode.name}'s anode (probe only)",
+        )
+    }
+
+
+def diode_slow(ctx: BenchContext) -> Bench | Declined:
+    diode, cap = ctx.facts.diode, ctx.facts.capacitor
+    if diode is None or cap is None:
+        return Declined("the finding gives no bootstrap diode and hold capacitor")
+    chosen = _own_or_periodic(ctx, "the duty and frequency the rule used")
+    if isinstance(chosen, Declined):
+        return chosen
+    schedule, edits, notes = chosen
+    if schedule.period is None:
+        return Declined("the control is not periodic")
+    probe = _ammeter(ctx, diode)
+    if isinstance(probe, Declined):
+        return probe
+    period = schedule.period
+    windows = schedule.on_windows(until=schedule.delay + (DIODE_SLOW_CYCLES + 1) * period)
+    start = windows[DIODE_SLOW_CYCLES - 1][0]
+    end = start + period
+    current = source_current(sense_names(ctx, diode)[2])
+    cap_current = device_vector(cap.name, "i")
+    cards = [
+        integral(
+            "recovery_charge",
+            f"par('max(-{current},0)')",
+            start,
+            end,
+            f"charge flowing backwards through {diode.name} in one cycle",
+        ),
+        integral("tb_diode_charge", current, start, end, f"net charge through {diode.name}"),
+        integral("tb_cap_charge", cap_current, start, end, f"net charge into {cap.name}"),
+        expression(
+            "q_per_cycle",
+            "tb_diode_charge-tb_cap_charge",
+            "charge the boot supply delivers to its loads in one cycle (KCL at the boot net)",
+        ),
+    ]
+    allowed = [v for v in (ctx.value("trr_max"), ctx.value("refresh_window_limit")) if v]
+    threshold = _reverse_threshold(ctx)
+    cards.append(
+        integral(
+            "tb_reverse_time",
+            f"par('u(-{current}-{number(threshold)})')",
+            start,
+            end,
+            f"time in the cycle that {diode.name} conducts backwards (beyond "
+            f"{format_si(threshold, 'A')})",
+        )
+    )
+    limits = (
+        (
+            Limit(
+                "tb_reverse_time",
+                min(allowed),
+                "<=",
+                f"{diode.name} conducts backwards no longer than the recovery time the rule allows",
+                "s",
+            ),
+        )
+        if allowed
+        else ()
+    )
+    stop = end + min(SETTLE_AFTER, period / 10)
+    return Bench(
+        edits={**edits, **probe},
+        stop=stop,
+        step=analysis_step(ctx.design, stop, min(schedule.on_time, period - schedule.on_time)),
+        cards=tuple(cards),
+        claims=tuple([] if ctx.fix is not None else _claims(ctx, "recovery_charge", "q_per_cycle")),
+        limits=limits,
+        notes=(*notes, f"cycle {DIODE_SLOW_CYCLES} is measured, from its turn-on command"),
+        saves=(cap_current,),
+        uic=ctx.design.uses_uic(),
+    )
+
+
+BUILDERS: Mapping[str, Builder] = {
+    "bootstrap-capacitor-small": capacitor_small,
+    "bootstrap-diode-slow": diode_slow,
+    "bootstrap-diode-voltage": diode_voltage,
+    "bootstrap-no-refresh": no_refresh,
+    "dc-hold": dc_hold,
+    "gate-overvoltage": gate_overvoltage,
+}
+
+# Rules whose failure no simulation of the circuit can show, with the reason.
+NOT_SIMULATED: Mapping[str, str] = {}

@@ -1,0 +1,347 @@
+"""One fix applier per rule: the finding's own suggested fix, as changes to the design.
+
+An applier reads the fix from the finding's values (``suggested_capacitance``, the t_rr
+or rating limit, ``max_duty``, the drive level and limit that bound a Zener) and writes it
+as edits at the statements' spans: a new value, a copy of a model card with one parameter
+changed (so that no other device using the old model changes), a part turned round, a
+clamp added. A new part's ratings go in ``* drivelint: part`` directives, carrying the old
+part's other ratings, so that drivelint checks the fixed deck with the part it now holds.
+Where the fix is a different circuit rather than a value or a part (an isolated supply, a
+new refresh path), the applier declines and says why; no fixed deck is written then.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+
+from drivelint.circuit.model import Device
+from drivelint.diagnostics import Span
+from drivelint.netlist.statements import Element, Expr, Field, Word
+from drivelint.netlist.values import format_si
+from drivelint.physics.preferred import next_preferred
+from drivelint.testbench.bench import BenchContext, Declined, Fix
+from drivelint.testbench.builders import gate_kind
+from drivelint.testbench.design import Edit
+from drivelint.testbench.stimulus import number
+
+Applier = Callable[[BenchContext], Fix | Declined]
+
+CAPACITOR_SERIES = "E12"
+RATING_SERIES = "E12"
+ZENER_SERIES = "E24"  # Zener voltages come in E24 steps (common practice)
+# A faster diode is given half the recovery time the finding allows: inside the limit with
+# room for the estimate from TT.
+RECOVERY_SHARE = 0.5
+DIODE_KEYS = ("vrrm", "trr", "qrr", "ir_leak", "vf", "vz")
+CLAMP_NAME = "d_tb_clamp"
+# A generic small-signal Zener for an added clamp (invented for the testbench; the
+# breakdown voltage is the finding's, the rest a typical small Zener's).
+CLAMP_MODEL = "IS=1n N=1.2 RS=2 IBV=5m CJO=100p"
+
+
+# -- helpers ---------------------------------------------------------------------------------
+
+
+def _element(ctx: BenchContext, name: str) -> Element | Declined:
+    element = ctx.design.element_of(name)
+    return element if element is not None else Declined(f"{name}'s statement cannot be found")
+
+
+def _shared(ctx: BenchContext, element: Element) -> str:
+    devices = ctx.design.produced_by(element)
+    return f" (one statement for {', '.join(devices)})" if len(devices) > 1 else ""
+
+
+def _set_capacitance(ctx: BenchContext, name: str, farads: float, why: str) -> Fix | Declined:
+    device = ctx.design.circuit.devices.get(name)
+    element = _element(ctx, name)
+    if isinstance(element, Declined) or device is None:
+        return Declined(f"capacitor {name} cannot be found")
+    if len(element.fields) < 3 or not isinstance(element.fields[2], (Word, Expr)):
+        return Declined(f"{name}'s value is not written as a plain field")
+    old = (device.value or 0.0) * device.multiplier
+    text = number(farads / device.multiplier)
+    return Fix(
+        f"{name}: {format_si(old, 'F')} -> {format_si(farads, 'F')} ({why})"
+        + _shared(ctx, element),
+        {element.span: Edit(fields=((element.fields[2], text),), note=f"fix: {name} = {text}")},
+    )
+
+
+def _model_field(element: Element, device: Device) -> Field | None:
+    wanted = (device.model_name or "").lower()
+    return next(
+        (f for f in element.fields if isinstance(f, Word) and f.text == wanted and wanted), None
+    )
+
+
+def _model_copy(
+    ctx: BenchContext, device: Device, changes: Mapping[str, float], suffix: str
+) -> tuple[str, dict[Span, Edit]] | Declined:
+    """A copy of the device's model card with ``changes``, named ``<model>_<suffix>``,
+    written right after the original (in its scope); the device is pointed at it."""
+    element = _element(ctx, device.name)
+    model = device.model
+    if isinstance(element, Declined):
+        return element
+    card = ctx.design.model_card(model.name, element.span) if model else None
+    field = _model_field(element, device)
+    if model is None or card is None or field is None:
+        return Declined(f"{device.name}'s model card cannot be found where it is used")
+    name = f"{model.name}_{suffix}"
+    while ctx.design.model_card(name, element.span) is not None:
+        name += "_"
+    keys = [a.key for a in card.params]
+    keys += sorted(set(model.params) - set(keys))
+    values = {**model.params, **changes}
+    keys += [k for k in changes if k not in keys]
+    items = [k if k in ("pchan", "nchan") else f"{k}={number(values[k])}" for k in keys]
+    line = f".model {name} {card.type} ({' '.join(items)})"
+    edits = {
+        card.span: Edit(
+            after=(line,), note=f"fix: a copy of {model.name} with {_changes(changes)}"
+        ),
+        element.span: Edit(fields=((field, name),), note=f"fix: {device.name} uses {name}"),
+    }
+    return name, edits
+
+
+def _changes(changes: Mapping[str, float]) -> str:
+    return ", ".join(f"{k.upper()}={number(v)}" for k, v in changes.items())
+
+
+def _part_directives(
+    ctx: BenchContext, element: Element, keys: tuple[str, ...], given: Mapping[str, float]
+) -> tuple[str, ...]:
+    """``part`` directives for every device of ``element``: ``given``, plus the ratings in
+    ``keys`` it had from the parts library or a directive (a model card's go with it)."""
+    out = []
+    for name in ctx.design.produced_by(element):
+        device = ctx.design.circuit.devices.get(name)
+        items: dict[str, float] = {}
+        for key in keys:
+            if key in given:
+                continue
+            rated = ctx.facts.ratings.get(device, key)
+            if rated is not None and not rated.origin.startswith("model"):
+                items[key] = rated.value
+        items.update(given)
+        out.append(f"part {name} " + " ".join(f"{k}={number(v)}" for k, v in sorted(items.items())))
+    return tuple(out)
+
+
+def _swap_nodes(ctx: BenchContext, name: str, why: str) -> Fix | Declined:
+    element = _element(ctx, name)
+    if isinstance(element, Declined):
+        return element
+    nodes = element.fields[:2]
+    if len(nodes) < 2 or not all(isinstance(n, Word) for n in nodes):
+        return Declined(f"{name}'s nodes are not plain node names")
+    first, second = nodes
+    assert isinstance(first, Word) and isinstance(second, Word)
+    return Fix(
+        f"{name} turned round: anode {second.raw}, cathode {first.raw} ({why})"
+        + _shared(ctx, element),
+        {
+            element.span: Edit(
+                fields=((first, second.raw), (second, first.raw)), note=f"fix: {name} turned round"
+            )
+        },
+    )
+
+
+def zener_choice(drive: float | None, limit: float, tolerance: float) -> float | None:
+    """The lowest standard Zener that stays off at the drive level (with its tolerance)
+    and clamps within the limit: what gate-overvoltage's fix text names."""
+    if drive is None or drive <= 0 or not 0 <= tolerance < 1:
+        return None
+    choice = next_preferred(drive / (1.0 - tolerance), ZENER_SERIES)
+    return choice if choice <= limit else None
+
+
+# -- per rule ----------------------------------------------------------------------------------
+
+
+def capacitor_small(ctx: BenchContext) -> Fix | Declined:
+    suggested = ctx.value("suggested_capacitance")
+    cap = ctx.facts.capacitor
+    if suggested is None or cap is None:
+        return Declined("the finding suggests no capacitance")
+    return _set_capacitance(ctx, cap.name, suggested, "the finding's suggested_capacitance")
+
+
+def dc_hold(ctx: BenchContext) -> Fix | Declined:
+    needed = ctx.value("capacitance_for_on_time")
+    cap = ctx.facts.capacitor
+    if needed is None or cap is None:
+        return Declined(
+            "a bootstrap cannot hold a switch on at DC: the fix is a charge pump, an isolated "
+            "gate supply or periodic refresh pulses, a different circuit rather than a value "
+            "or a part"
+        )
+    farads = next_preferred(needed, CAPACITOR_SERIES)
+    return _set_capacitance(
+        ctx, cap.name, farads, f"the finding's capacitance_for_on_time, next {CAPACITOR_SERIES}"
+    )
+
+
+def diode_slow(ctx: BenchContext) -> Fix | Declined:
+    diode = ctx.facts.diode
+    limits = [v for v in (ctx.value("trr_max"), ctx.value("refresh_window_limit")) if v]
+    if diode is None or not limits:
+        return Declined("the finding gives no recovery limit")
+    allowed = min(limits)
+    tt = RECOVERY_SHARE * allowed
+    element = _element(ctx, diode.name)
+    if isinstance(element, Declined):
+        return element
+    copied = _model_copy(ctx, diode, {"tt": tt}, "fast")
+    if isinstance(copied, Declined):
+        return copied
+    name, edits = copied
+    directives = _part_directives(
+        ctx, element, tuple(k for k in DIODE_KEYS if k != "qrr"), {"trr": tt}
+    )
+    return Fix(
+        f"{diode.name}: model {diode.model_name} -> {name}, the same card with TT = "
+        f"{format_si(tt, 's')} (half the finding's limit t_rr <= {format_si(allowed, 's')})"
+        + _shared(ctx, element),
+        edits,
+        directives,
+    )
+
+
+def diode_voltage(ctx: BenchContext) -> Fix | Declined:
+    diode = ctx.facts.diode
+    reverse, derating = ctx.value("diode_reverse_voltage"), ctx.value("derating")
+    if diode is None or reverse is None or not derating:
+        return Declined("the finding gives no reverse voltage and derating")
+    rating = next_preferred(reverse / derating, RATING_SERIES)
+    element = _element(ctx, diode.name)
+    if isinstance(element, Declined):
+        return element
+    model = diode.model
+    old_bv = model.params.get("bv", 0.0) if model else 0.0
+    copied = _model_copy(ctx, diode, {"bv": max(old_bv, rating)}, f"{number(rating)}v")
+    if isinstance(copied, Declined):
+        return copied
+    name, edits = copied
+    directives = _part_directives(ctx, element, DIODE_KEYS, {"vrrm": rating})
+    return Fix(
+        f"{diode.name}: model {diode.model_name} -> {name}, rated {format_si(rating, 'V')} "
+        f"(next {RATING_SERIES} value >= {format_si(reverse, 'V')} / {derating:g})"
+        + _shared(ctx, element),
+        edits,
+        directives,
+        bounds={"diode_reverse_voltage": rating * derating},
+    )
+
+
+def no_refresh(ctx: BenchContext) -> Fix | Declined:
+    stage = ctx.stage
+    if stage.supply.diode_orientation == "reversed" and stage.supply.diode:
+        return _swap_nodes(ctx, stage.supply.diode, "the finding's fix: turn it round")
+    max_duty = ctx.value("max_duty")
+    if max_duty is None:
+        return Declined(
+            "nothing pulls the switch node low: the fix is a refresh path (a low-side switch "
+            "or freewheel diode) or an isolated supply, a different circuit rather than a "
+            "value or a part"
+        )
+    duty = math.floor(max_duty * 1000) / 1000
+    if duty <= 0:
+        return Declined("the finding leaves no duty that sustains the boot supply")
+    return Fix(f"control duty limited to {duty:.1%} (the finding's max_duty)", duty=duty)
+
+
+def gate_overvoltage(ctx: BenchContext) -> Fix | Declined:
+    kind = gate_kind(ctx)
+    tolerance = ctx.options.get("zener_tolerance", 0.05)
+    limit = ctx.value("vgs_limit_positive")
+    drive = ctx.value("vgs_drive")
+    if kind == "clamp reversed":
+        return _swap_nodes(ctx, ctx.finding.device, "the finding's fix: turn it round")
+    if kind == "clamp below drive":
+        zener = zener_choice(drive, limit, tolerance) if limit is not None else None
+        device = ctx.design.circuit.devices.get(ctx.finding.device)
+        if zener is None or device is None:
+            return Declined("no standard Zener stays off at the drive level within the rating")
+        element = _element(ctx, device.name)
+        if isinstance(element, Declined):
+            return element
+        copied = _model_copy(ctx, device, {"bv": zener}, f"{number(zener)}v")
+        if isinstance(copied, Declined):
+            return copied
+        name, edits = copied
+        return Fix(
+            f"{device.name}: model {device.model_name} -> {name}, a {format_si(zener, 'V')} "
+            f"Zener (the lowest {ZENER_SERIES} value that stays off at the "
+            f"{format_si(drive or 0.0, 'V')} drive with ±{tolerance:.0%} and clamps within "
+            f"{format_si(limit or 0.0, 'V')})" + _shared(ctx, element),
+            edits,
+            _part_directives(ctx, element, ("ir_leak", "vf"), {"vz": zener}),
+        )
+    if kind == "negative":
+        return _added_clamp(ctx, drive, limit, tolerance)
+    if kind == "positive":
+        return Declined(
+            "the fix is a lower gate supply or a resistor-fed Zener from a rail, a change of "
+            "the supply design rather than a value or a part"
+        )
+    return Declined("the finding has no testbench, so no fixed deck either")
+
+
+def _added_clamp(
+    ctx: BenchContext, drive: float | None, limit: float | None, tolerance: float
+) -> Fix | Declined:
+    """A Zener (or, with no drive level known, a plain diode) from source to gate."""
+    stage = ctx.stage
+    switch = ctx.design.circuit.devices.get(stage.switch)
+    element = _element(ctx, stage.switch)
+    if switch is None or isinstance(element, Declined):
+        return Declined(f"{stage.switch}'s statement cannot be found")
+    scope = switch.instance
+    gate = ctx.design.local_net(stage.gate, scope)
+    source = ctx.design.local_net(stage.source, scope)
+    if gate is None or source is None:
+        return Declined("the gate and source cannot be named where the switch is written")
+    zener = zener_choice(drive, limit, tolerance) if limit is not None else None
+    name = CLAMP_NAME
+    existing = {n.rsplit(".", 1)[-1] for n in ctx.design.circuit.devices}
+    while name in existing:
+        name += "_"
+    model = f"{name}_model"
+    breakdown = f" BV={number(zener)}" if zener else ""
+    lines = (
+        f"{name.upper()} {source} {gate} {model}",
+        f".model {model} D ({CLAMP_MODEL}{breakdown})",
+    )
+    devices = [f"{p}.{name}" if p else name for p in _instances_of(ctx, element)]
+    what = f"a {format_si(zener, 'V')} Zener" if zener else "a diode"
+    directives = tuple(f"part {d} vz={number(zener)}" for d in devices) if zener else ()
+    return Fix(
+        f"{what} {name} added from the source {stage.source} (anode) to the gate {stage.gate} "
+        "(cathode), the finding's suggested clamp" + _shared(ctx, element),
+        {element.span: Edit(after=lines, note=f"fix: {what} clamp from source to gate")},
+        directives,
+    )
+
+
+def _instances_of(ctx: BenchContext, element: Element) -> list[str]:
+    """The instance prefix of every device the statement produced ("" at the top level)."""
+    out = []
+    for name in ctx.design.produced_by(element):
+        device = ctx.design.circuit.devices.get(name)
+        out.append(device.instance if device else "")
+    return out
+
+
+APPLIERS: Mapping[str, Applier] = {
+    "bootstrap-capacitor-small": capacitor_small,
+    "bootstrap-diode-slow": diode_slow,
+    "bootstrap-diode-voltage": diode_voltage,
+    "bootstrap-no-refresh": no_refresh,
+    "dc-hold": dc_hold,
+    "gate-overvoltage": gate_overvoltage,
+}

@@ -1,0 +1,107 @@
+"""Running a testbench deck in ngspice, within a time and an output bound.
+
+``ngspice -b deck.cir`` runs the deck's ``.tran`` and prints each ``.meas`` result as
+``name = value``; those lines are all that is read back. The run's working directory is
+the deck's own folder, and nothing is written there: the output comes back through a pipe,
+read up to a bound (the rest is discarded), and a run past its time bound is killed.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import subprocess
+import threading
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+DEFAULT_TIMEOUT = 120.0  # seconds per deck
+MAX_OUTPUT = 4 * 1024 * 1024  # bytes of ngspice output kept
+_RESULT = re.compile(
+    r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)(?=\s|$)"
+)
+_FAILED = re.compile(r"measure\s+([A-Za-z_][A-Za-z0-9_]*)\b.*failed", re.IGNORECASE)
+
+
+def find_ngspice() -> str | None:
+    return shutil.which("ngspice")
+
+
+@dataclass(frozen=True, slots=True)
+class RunResult:
+    values: dict[str, float] = field(default_factory=dict)
+    failed: tuple[str, ...] = ()  # cards ngspice could not evaluate
+    error: str | None = None  # why the run did not complete; None when it did
+    log_tail: str = ""
+
+
+def parse_results(text: str, names: Iterable[str]) -> tuple[dict[str, float], tuple[str, ...]]:
+    """The ``name = value`` lines of the cards asked for, and the cards that failed."""
+    wanted = {n.lower() for n in names}
+    values: dict[str, float] = {}
+    failed: set[str] = set()
+    for line in text.splitlines():
+        match = _RESULT.match(line)
+        if match and match.group(1).lower() in wanted and match.group(1).lower() not in values:
+            values[match.group(1).lower()] = float(match.group(2))
+            continue
+        bad = _FAILED.search(line)
+        if bad and bad.group(1).lower() in wanted:
+            failed.add(bad.group(1).lower())
+    return values, tuple(sorted(failed - set(values)))
+
+
+def run_deck(
+    deck: Path,
+    names: Iterable[str],
+    timeout: float = DEFAULT_TIMEOUT,
+    max_output: int = MAX_OUTPUT,
+    executable: str | None = None,
+) -> RunResult:
+    """Run one deck; never raises for anything ngspice does."""
+    program = executable or find_ngspice()
+    if program is None:
+        return RunResult(error="ngspice is not on the PATH")
+    try:
+        process = subprocess.Popen(
+            [program, "-b", deck.name],
+            cwd=deck.parent,
+            stdin=subprocess.DEVNULL,
+            stdout=subprocess.PIPE,
+            stderr=subprocess.STDOUT,
+            env={**os.environ, "LC_ALL": "C"},
+        )
+    except OSError as exc:
+        return RunResult(error=f"cannot start ngspice: {exc.strerror or exc}")
+    kept = bytearray()
+    truncated = [False]
+
+    def drain() -> None:
+        assert process.stdout is not None
+        while chunk := process.stdout.read(65536):
+            room = max_output - len(kept)
+            if room > 0:
+                kept.extend(chunk[:room])
+            if len(chunk) > room:
+                truncated[0] = True
+
+    reader = threading.Thread(target=drain, daemon=True)
+    reader.start()
+    try:
+        code = process.wait(timeout=timeout)
+    except subprocess.TimeoutExpired:
+        process.kill()
+        process.wait()
+        reader.join(timeout=5)
+        return RunResult(error=f"ngspice ran longer than {timeout:g} s and was stopped")
+    reader.join(timeout=5)
+    text = kept.decode("utf-8", "replace")
+    values, failed = parse_results(text, names)
+    tail = "\n".join(text.splitlines()[-20:])
+    if code != 0:
+        return RunResult(values, failed, f"ngspice exited with status {code}", tail)
+    if truncated[0] and not values:
+        return RunResult(values, failed, f"ngspice wrote more than {max_output} bytes", tail)
+    return RunResult(values, failed, None, tail)
