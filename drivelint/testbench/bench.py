@@ -153,18 +153,17 @@ def _pulse_schedule(pulse: Pulse, is_on: object) -> Schedule | None:
 
 
 def periodic_conditions(ctx: BenchContext) -> tuple[float, float] | None:
-    """(period, on-time) the rule used: the fix's duty if any, else the finding's."""
+    """(period, on-time) of the pulse train the rule judged: its frequency and maximum
+    duty (the fix's duty if there is one). The refresh window is what these rules weigh,
+    so the duty decides the on-time even where a condition gives a different one."""
     fsw = ctx.value("fsw") or (ctx.facts.fsw.value if ctx.facts.fsw else None)
     duty = ctx.value("duty_max") or (ctx.facts.duty_max.value if ctx.facts.duty_max else None)
     if not fsw or duty is None:
         return None
     period = 1.0 / fsw
     if ctx.fix is not None and ctx.fix.duty is not None:
-        return period, ctx.fix.duty * period
-    on_time = ctx.value("on_time")
-    if on_time is None or not math.isfinite(on_time) or on_time >= period:
-        on_time = duty * period
-    return period, on_time
+        duty = ctx.fix.duty
+    return period, duty * period
 
 
 def matches(schedule: Schedule | None, period: float, on_time: float) -> bool:

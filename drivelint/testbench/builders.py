@@ -18,9 +18,11 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping
 
+from drivelint.checks.base import Finding
 from drivelint.circuit.model import Device
 from drivelint.diagnostics import Span
 from drivelint.netlist.values import format_si
+from drivelint.stages.model import DriveStage
 from drivelint.testbench.bench import (
     MAX_STOP,
     Bench,
@@ -65,8 +67,41 @@ MIN_CYCLES, MAX_CYCLES = 10, 2000
 DIODE_SLOW_CYCLES = 20
 
 
-def _claims(ctx: BenchContext, *keys: str, sense: str = "estimate") -> list[Claim]:
-    found = (ctx.claim(key, sense) for key in keys)
+# What each kind of finding claims: the value keys its deck measures, one card each.
+# A kind is the rule id, or "rule/kind" where one rule reports several kinds of finding.
+CLAIMS: Mapping[str, tuple[str, ...]] = {
+    "bootstrap-capacitor-small": ("v_boot", "droop_per_cycle", "charge_per_cycle"),
+    "bootstrap-capacitor-small/fixed": ("suggested_droop_per_cycle",),
+    "bootstrap-diode-slow": ("recovery_charge", "q_per_cycle"),
+    "bootstrap-diode-voltage": ("diode_reverse_voltage",),
+    "bootstrap-no-refresh": ("sustained_boot_voltage", "sustained_boot_peak", "delta_v_per_cycle"),
+    "bootstrap-no-refresh/no path": (),
+    "dc-hold": ("hold_time", "i_drain"),
+    "gate-overvoltage/negative": ("vgs_max_negative", "vgs_pulled_down"),
+    "gate-overvoltage/positive": ("vgs_max_positive",),
+    "gate-overvoltage/clamp below drive": (
+        "vgs_max_positive",
+        "clamp_positive_level",
+        "clamp_current_bound",
+    ),
+    "gate-overvoltage/clamp reversed": ("vgs_max_positive", "clamp_positive_level"),
+}
+# Claims that are bounds rather than estimates (the finding says "up to").
+SENSES: Mapping[str, str] = {"clamp_current_bound": "upper bound"}
+
+
+def claim_keys(finding: Finding, stage: DriveStage) -> tuple[str, ...]:
+    """The keys this finding claims (those of its values that its kind measures)."""
+    return tuple(k for k in CLAIMS.get(finding_kind(finding, stage), ()) if k in finding.values)
+
+
+def _claims(ctx: BenchContext) -> list[Claim]:
+    """The claims of this finding, for the kind of finding it is (none on a fixed deck,
+    unless the rule names claims about the fixed design)."""
+    kind = finding_kind(ctx.finding, ctx.stage)
+    if ctx.fix is not None:
+        kind = f"{ctx.finding.rule}/fixed"
+    found = (ctx.claim(key, SENSES.get(key, "estimate")) for key in CLAIMS.get(kind, ()))
     return [c for c in found if c is not None]
 
 
@@ -155,7 +190,6 @@ def capacitor_small(ctx: BenchContext) -> Bench | Declined:
         expression("charge_per_cycle", "-tb_cap_charge", f"charge {cap.name} gives in one on-time"),
         extreme("tb_boot_min", "MIN", boot, start, end, "lowest boot supply in the on-time"),
     ]
-    claims = _claims(ctx, "v_boot", "droop_per_cycle", "charge_per_cycle")
     if ctx.fix is not None:
         cards.append(
             expression(
@@ -164,7 +198,7 @@ def capacitor_small(ctx: BenchContext) -> Bench | Declined:
                 "the droop with the suggested capacitor",
             )
         )
-        claims = _claims(ctx, "suggested_droop_per_cycle")
+    claims = _claims(ctx)
     off = (schedule.period or on_time) - on_time
     stop = end + min(0.1 * off, SETTLE_AFTER) if off > 0 else end + SETTLE_AFTER
     return Bench(
@@ -241,7 +275,7 @@ def dc_hold(ctx: BenchContext) -> Bench | Declined:
         expression("i_drain", "-tb_cap_current", f"mean current drawn from {cap.name} while on"),
         extreme("tb_boot_min", "MIN", boot, start, end, "lowest boot supply while commanded on"),
     ]
-    claims = [] if ctx.fix is not None else _claims(ctx, "hold_time", "i_drain")
+    claims = _claims(ctx)
     return Bench(
         edits=made.edits,
         stop=stop,
@@ -268,7 +302,20 @@ def dc_hold(ctx: BenchContext) -> Bench | Declined:
 
 def gate_kind(ctx: BenchContext) -> str:
     """Which of gate-overvoltage's findings this is, from its device and values."""
-    finding, stage = ctx.finding, ctx.stage
+    return finding_kind(ctx.finding, ctx.stage).split("/", 1)[-1]
+
+
+def finding_kind(finding: Finding, stage: DriveStage) -> str:
+    """The kind of finding, as ``CLAIMS`` keys it: the rule id, or "rule/kind"."""
+    values = finding.values
+    if finding.rule == "bootstrap-no-refresh" and "sustained_boot_voltage" not in values:
+        return "bootstrap-no-refresh/no path"
+    if finding.rule != "gate-overvoltage":
+        return finding.rule
+    return f"gate-overvoltage/{_gate_kind(finding, stage)}"
+
+
+def _gate_kind(finding: Finding, stage: DriveStage) -> str:
     values = finding.values
     clamp = next((c for c in stage.clamps if finding.device in (c.devices or (c.device,))), None)
     if "vgs_pulled_down" in values:
@@ -277,7 +324,8 @@ def gate_kind(ctx: BenchContext) -> str:
         return "positive"
     if "clamp_positive_low" in values:
         return "clamp tolerance"
-    level, drive = ctx.value("clamp_positive_level"), ctx.value("vgs_drive")
+    level = values["clamp_positive_level"].value if "clamp_positive_level" in values else None
+    drive = values["vgs_drive"].value if "vgs_drive" in values else None
     if clamp.orientation == "reversed":
         return "clamp reversed"
     if level is not None and drive is not None and level < drive:
@@ -349,7 +397,7 @@ def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
         extreme("vgs_max_negative", "MIN", vgs, turn_off, stop, "lowest V_GS after turn-off"),
         extreme("vgs_pulled_down", "MIN", vgs, turn_off, stop, "V_GS as the pull-down acts"),
     ]
-    claims = [] if ctx.fix is not None else _claims(ctx, "vgs_max_negative", "vgs_pulled_down")
+    claims = _claims(ctx)
     return Bench(
         edits=made.edits,
         stop=stop,
@@ -417,14 +465,7 @@ def _clamp_in_drive(ctx: BenchContext) -> Bench | Declined:
         extreme("clamp_positive_level", "MAX", vgs, settled, end, "V_GS where the clamp holds it"),
         *current_cards,
     ]
-    claims = (
-        []
-        if ctx.fix is not None
-        else [
-            *_claims(ctx, "vgs_max_positive", "clamp_positive_level"),
-            *_claims(ctx, "clamp_current_bound", sense="upper bound"),
-        ]
-    )
+    claims = _claims(ctx)
     stop = min(end + SETTLE_AFTER, MAX_STOP)
     return Bench(
         edits=edits,
@@ -463,7 +504,7 @@ def _positive_vgs(ctx: BenchContext) -> Bench | Declined:
         stop=stop,
         step=analysis_step(ctx.design, stop, end - start),
         cards=tuple(cards),
-        claims=tuple(_claims(ctx, "vgs_max_positive")),
+        claims=tuple(_claims(ctx)),
         limits=(Limit("vgs_max_positive", limit, "<=", "V_GS stays within its rating", "V"),),
         notes=notes,
         uic=ctx.design.uses_uic(),
@@ -506,7 +547,7 @@ def diode_voltage(ctx: BenchContext) -> Bench | Declined:
         stop=stop,
         step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
         cards=tuple(cards),
-        claims=tuple([] if ctx.fix is not None else _claims(ctx, "diode_reverse_voltage")),
+        claims=tuple(_claims(ctx)),
         limits=(
             Limit(
                 "diode_reverse_voltage",
@@ -572,11 +613,7 @@ def no_refresh(ctx: BenchContext) -> Bench | Declined:
             "the fall over that on-time",
         ),
     ]
-    claims = (
-        []
-        if ctx.fix is not None
-        else _claims(ctx, "sustained_boot_voltage", "sustained_boot_peak", "delta_v_per_cycle")
-    )
+    claims = _claims(ctx)
     stop = end + min(off / 2, SETTLE_AFTER)
     return Bench(
         edits=edits,
@@ -742,7 +779,7 @@ def diode_slow(ctx: BenchContext) -> Bench | Declined:
         stop=stop,
         step=analysis_step(ctx.design, stop, min(schedule.on_time, period - schedule.on_time)),
         cards=tuple(cards),
-        claims=tuple([] if ctx.fix is not None else _claims(ctx, "recovery_charge", "q_per_cycle")),
+        claims=tuple(_claims(ctx)),
         limits=limits,
         notes=(*notes, f"cycle {DIODE_SLOW_CYCLES} is measured, from its turn-on command"),
         saves=(cap_current,),

@@ -408,7 +408,19 @@ def _decks_for(
         count = used_names[stem] = used_names.get(stem, 0) + 1
         if count > 1:
             stem = f"{stem}__{count}"
-        _build(ctx, record, folder, stem, options, conditions)
+        try:
+            _build(ctx, record, folder, stem, options, conditions)
+        except (OSError, _TimeLimit):
+            raise
+        except Exception as exc:  # a bug must cost one finding's deck, not the batch
+            import traceback
+
+            where = traceback.extract_tb(exc.__traceback__)[-1]
+            record.reason = (
+                f"internal error: {type(exc).__name__}: {exc} ({Path(where.filename).name}:"
+                f"{where.lineno}); please report it"
+            )
+            outcome.failed = True
     names = {d.model_name.lower() for d in circuit.devices.values() if d.model_name}
     names |= {i.subckt.lower() for i in circuit.instances.values()}
     parts = parts_text(library, names, ", ".join(library.files) or "no parts file")

@@ -22,7 +22,7 @@ from drivelint.netlist.values import format_si
 from drivelint.physics.preferred import next_preferred
 from drivelint.testbench.bench import BenchContext, Declined, Fix
 from drivelint.testbench.builders import gate_kind
-from drivelint.testbench.design import Edit
+from drivelint.testbench.design import Edit, merge_edits
 from drivelint.testbench.stimulus import number
 
 Applier = Callable[[BenchContext], Fix | Declined]
@@ -261,7 +261,7 @@ def gate_overvoltage(ctx: BenchContext) -> Fix | Declined:
     limit = ctx.value("vgs_limit_positive")
     drive = ctx.value("vgs_drive")
     if kind == "clamp reversed":
-        return _swap_nodes(ctx, ctx.finding.device, "the finding's fix: turn it round")
+        return _turn_clamp_round(ctx, drive, limit, tolerance)
     if kind == "clamp below drive":
         zener = zener_choice(drive, limit, tolerance) if limit is not None else None
         device = ctx.design.circuit.devices.get(ctx.finding.device)
@@ -290,6 +290,35 @@ def gate_overvoltage(ctx: BenchContext) -> Fix | Declined:
             "the supply design rather than a value or a part"
         )
     return Declined("the finding has no testbench, so no fixed deck either")
+
+
+def _turn_clamp_round(
+    ctx: BenchContext, drive: float | None, limit: float | None, tolerance: float
+) -> Fix | Declined:
+    """Turn the clamp round; a Zener that would then conduct within its tolerance at the
+    drive level is also replaced by the one the finding names ("clamps both ways")."""
+    turned = _swap_nodes(ctx, ctx.finding.device, "the finding's fix: turn it round")
+    device = ctx.design.circuit.devices.get(ctx.finding.device)
+    vz = ctx.value(f"{ctx.finding.device}_vz")
+    if isinstance(turned, Declined) or device is None or vz is None or drive is None:
+        return turned
+    if vz * (1 - tolerance) >= drive:
+        return turned
+    zener = zener_choice(drive, limit, tolerance) if limit is not None else None
+    if zener is None:
+        return turned
+    copied = _model_copy(ctx, device, {"bv": zener}, f"{number(zener)}v")
+    element = _element(ctx, device.name)
+    if isinstance(copied, Declined) or isinstance(element, Declined):
+        return turned
+    name, edits = copied
+    return Fix(
+        f"{turned.description}; and {name}, a {format_si(zener, 'V')} Zener, since "
+        f"{format_si(vz, 'V')} would conduct within ±{tolerance:.0%} at the "
+        f"{format_si(drive, 'V')} drive (the Zener the finding names)",
+        merge_edits(turned.edits, edits),
+        _part_directives(ctx, element, ("ir_leak", "vf"), {"vz": zener}),
+    )
 
 
 def _added_clamp(

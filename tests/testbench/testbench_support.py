@@ -1,0 +1,31 @@
+"""Shared support for the testbench tests: building decks for a set of netlists."""
+
+from __future__ import annotations
+
+import shutil
+from collections.abc import Iterable
+from pathlib import Path
+
+import pytest
+
+from drivelint.config import find_config, load_config
+from drivelint.pipeline import collect_paths
+from drivelint.testbench.command import Outcome, TestbenchOptions, make_testbenches
+
+ROOT = Path(__file__).resolve().parents[2]
+EXAMPLES = ROOT / "examples"
+DECKS = Path(__file__).resolve().parent / "decks"
+NGSPICE = shutil.which("ngspice")
+NO_NGSPICE = "ngspice is not installed (Debian package 'ngspice'); cannot simulate"
+
+
+def build(sources: Iterable[Path], output: Path, run: bool = False) -> Outcome:
+    """What ``drivelint testbench SOURCES --output OUTPUT [--run]`` does, in process."""
+    paths = collect_paths(tuple(sources))
+    configs = [load_config(find_config(p)) for p in paths]
+    return make_testbenches(paths, configs, TestbenchOptions(output=output, run=run, jobs=2))
+
+
+def needs_ngspice() -> None:
+    if NGSPICE is None:
+        pytest.skip(NO_NGSPICE)
