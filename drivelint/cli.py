@@ -390,7 +390,7 @@ def testbench_command(
     from drivelint.checks.registry import RuleError, registry
     from drivelint.config import DEFAULT_SUFFIXES, ConfigError, find_config, load_config
     from drivelint.ratings.parts import PartsError
-    from drivelint.testbench.command import TestbenchOptions, make_testbenches, record_text
+    from drivelint.testbench.command import BenchOptions, make_testbenches, record_text
     from drivelint.testbench.ngspice import find_ngspice
 
     if rule_id is not None and rule_id not in registry():
@@ -400,7 +400,7 @@ def testbench_command(
     if "-" in paths:
         raise click.UsageError("a testbench needs a netlist file; standard input is not read")
     files, _ = _expand(paths, DEFAULT_SUFFIXES)
-    options = TestbenchOptions(
+    options = BenchOptions(
         output=output,
         rule=rule_id,
         device=device,

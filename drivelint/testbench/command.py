@@ -44,7 +44,7 @@ MAX_NAME = 96  # characters of a file name taken from a device or netlist name
 
 
 @dataclass(frozen=True, slots=True)
-class TestbenchOptions:
+class BenchOptions:
     output: Path
     rule: str | None = None
     device: str | None = None
@@ -308,7 +308,7 @@ class _Folders:
 
 
 def make_testbenches(
-    paths: Sequence[Path], configs: Sequence[Config], options: TestbenchOptions
+    paths: Sequence[Path], configs: Sequence[Config], options: BenchOptions
 ) -> Outcome:
     """Write the testbench decks of every finding of ``paths`` (one configuration each)."""
     outcome = Outcome()
@@ -322,7 +322,7 @@ def make_testbenches(
 
 
 def _one_file(
-    path: Path, config: Config, options: TestbenchOptions, folders: _Folders, outcome: Outcome
+    path: Path, config: Config, options: BenchOptions, folders: _Folders, outcome: Outcome
 ) -> None:
     batch = BatchOptions(parts=options.parts, seconds_per_file=options.seconds_per_file)
     result = check_job(Job(path, config), batch)
@@ -352,7 +352,7 @@ def _one_file(
         outcome.failed = True
 
 
-def _wanted(finding: Finding, options: TestbenchOptions) -> bool:
+def _wanted(finding: Finding, options: BenchOptions) -> bool:
     if options.rule is not None and finding.rule != options.rule:
         return False
     device = options.device.lower() if options.device else None
@@ -362,7 +362,7 @@ def _wanted(finding: Finding, options: TestbenchOptions) -> bool:
 def _decks_for(
     path: Path,
     config: Config,
-    options: TestbenchOptions,
+    options: BenchOptions,
     folder: Path,
     result: object,
     findings: list[Finding],
@@ -433,7 +433,7 @@ def _build(
     record: Record,
     folder: Path,
     stem: str,
-    options: TestbenchOptions,
+    options: BenchOptions,
     conditions: dict[str, Value],
 ) -> None:
     builder = BUILDERS.get(ctx.finding.rule)
@@ -507,7 +507,7 @@ def _build(
         )
 
 
-def _run_all(outcome: Outcome, options: TestbenchOptions) -> None:
+def _run_all(outcome: Outcome, options: BenchOptions) -> None:
     decks = [d for r in outcome.records for d in (r.deck, r.fixed) if d is not None]
 
     def run(deck: Deck) -> RunResult:

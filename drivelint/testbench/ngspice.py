@@ -11,6 +11,7 @@ from __future__ import annotations
 import os
 import re
 import shutil
+import signal
 import subprocess
 import threading
 from collections.abc import Iterable
@@ -22,7 +23,13 @@ MAX_OUTPUT = 4 * 1024 * 1024  # bytes of ngspice output kept
 _RESULT = re.compile(
     r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)(?=\s|$)"
 )
-_FAILED = re.compile(r"measure\s+([A-Za-z_][A-Za-z0-9_]*)\b.*failed", re.IGNORECASE)
+# ngspice reports a card it cannot evaluate as "Error: measure  NAME …" and then repeats
+# the card with "failed!".
+_FAILED = re.compile(
+    r"(?:error:\s*measure\s+([A-Za-z_][A-Za-z0-9_]*))|"
+    r"(?:^\s*\.meas\w*\s+\w+\s+([A-Za-z_][A-Za-z0-9_]*)\b.*failed)",
+    re.IGNORECASE,
+)
 
 
 def find_ngspice() -> str | None:
@@ -37,6 +44,15 @@ class RunResult:
     log_tail: str = ""
 
 
+def _stop(process: subprocess.Popen[bytes]) -> None:
+    """Kill the run and anything it started (one process group, created for the run)."""
+    try:
+        os.killpg(process.pid, signal.SIGKILL)
+    except (ProcessLookupError, PermissionError, AttributeError):
+        process.kill()
+    process.wait()
+
+
 def parse_results(text: str, names: Iterable[str]) -> tuple[dict[str, float], tuple[str, ...]]:
     """The ``name = value`` lines of the cards asked for, and the cards that failed."""
     wanted = {n.lower() for n in names}
@@ -48,8 +64,9 @@ def parse_results(text: str, names: Iterable[str]) -> tuple[dict[str, float], tu
             values[match.group(1).lower()] = float(match.group(2))
             continue
         bad = _FAILED.search(line)
-        if bad and bad.group(1).lower() in wanted:
-            failed.add(bad.group(1).lower())
+        name = (bad.group(1) or bad.group(2)).lower() if bad else ""
+        if name in wanted:
+            failed.add(name)
     return values, tuple(sorted(failed - set(values)))
 
 
@@ -72,6 +89,7 @@ def run_deck(
             stdout=subprocess.PIPE,
             stderr=subprocess.STDOUT,
             env={**os.environ, "LC_ALL": "C"},
+            start_new_session=True,  # its own process group, so a stop ends all of it
         )
     except OSError as exc:
         return RunResult(error=f"cannot start ngspice: {exc.strerror or exc}")
@@ -92,8 +110,7 @@ def run_deck(
     try:
         code = process.wait(timeout=timeout)
     except subprocess.TimeoutExpired:
-        process.kill()
-        process.wait()
+        _stop(process)
         reader.join(timeout=5)
         return RunResult(error=f"ngspice ran longer than {timeout:g} s and was stopped")
     reader.join(timeout=5)

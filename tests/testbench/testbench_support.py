@@ -10,7 +10,7 @@ import pytest
 
 from drivelint.config import find_config, load_config
 from drivelint.pipeline import collect_paths
-from drivelint.testbench.command import Outcome, TestbenchOptions, make_testbenches
+from drivelint.testbench.command import BenchOptions, Outcome, make_testbenches
 
 ROOT = Path(__file__).resolve().parents[2]
 EXAMPLES = ROOT / "examples"
@@ -23,7 +23,7 @@ def build(sources: Iterable[Path], output: Path, run: bool = False) -> Outcome:
     """What ``drivelint testbench SOURCES --output OUTPUT [--run]`` does, in process."""
     paths = collect_paths(tuple(sources))
     configs = [load_config(find_config(p)) for p in paths]
-    return make_testbenches(paths, configs, TestbenchOptions(output=output, run=run, jobs=2))
+    return make_testbenches(paths, configs, BenchOptions(output=output, run=run, jobs=2))
 
 
 def needs_ngspice() -> None:
