@@ -58,7 +58,7 @@ class BenchOptions:
 
 
 @dataclass(slots=True)
-class Deck:
+class WrittenDeck:
     """One written deck and what it claims, checks and measured."""
 
     path: Path
@@ -83,9 +83,9 @@ class Record:
     """The testbench of one finding."""
 
     finding: Finding
-    deck: Deck | None = None
+    deck: WrittenDeck | None = None
     reason: str | None = None  # why there is no deck
-    fixed: Deck | None = None
+    fixed: WrittenDeck | None = None
     fix: str | None = None  # what the fixed deck changes
     fixed_reason: str | None = None  # why there is no fixed deck
 
@@ -144,7 +144,7 @@ def _limit_json(limit: Limit) -> dict[str, object]:
     }
 
 
-def _measured_json(deck: Deck) -> dict[str, object]:
+def _measured_json(deck: WrittenDeck) -> dict[str, object]:
     out: dict[str, object] = {}
     for claim in deck.claims:
         measured = deck.measured(claim.key)
@@ -326,7 +326,11 @@ def _one_file(
 ) -> None:
     batch = BatchOptions(parts=options.parts, seconds_per_file=options.seconds_per_file)
     result = check_job(Job(path, config), batch)
-    errors = [d for d in result.diagnostics if d.severity is Severity.ERROR]
+    # A directive in a comment that cannot be read does not change what a simulator does;
+    # any other error would leave a deck that does not run.
+    errors = [
+        d for d in result.diagnostics if d.severity is Severity.ERROR and d.code != "directive"
+    ]
     if errors:
         outcome.diagnostics.extend(errors)
         outcome.failed = True
@@ -495,11 +499,13 @@ def _build(
         record.reason = f"the design cannot be edited: {exc}"
         return
     write_atomically(options.output, deck_path, text)
-    record.deck = Deck(deck_path, bench.claims, bench.limits, tuple(c.name for c in bench.cards))
+    record.deck = WrittenDeck(
+        deck_path, bench.claims, bench.limits, tuple(c.name for c in bench.cards)
+    )
     if fixed_text is not None and isinstance(fix, Fix) and isinstance(fixed_bench, Bench):
         write_atomically(options.output, fixed_path, fixed_text)
         record.fix = fix.description
-        record.fixed = Deck(
+        record.fixed = WrittenDeck(
             fixed_path,
             fixed_bench.claims,
             fixed_bench.limits,
@@ -510,7 +516,7 @@ def _build(
 def _run_all(outcome: Outcome, options: BenchOptions) -> None:
     decks = [d for r in outcome.records for d in (r.deck, r.fixed) if d is not None]
 
-    def run(deck: Deck) -> RunResult:
+    def run(deck: WrittenDeck) -> RunResult:
         return run_deck(
             deck.path, deck.cards, options.run_timeout, options.max_output, options.ngspice
         )
@@ -567,7 +573,7 @@ def record_text(record: Record) -> list[str]:
     return lines
 
 
-def _limit_lines(deck: Deck, broken: str, kept: str, fixed: bool = False) -> list[str]:
+def _limit_lines(deck: WrittenDeck, broken: str, kept: str, fixed: bool = False) -> list[str]:
     out = []
     for limit in deck.limits:
         measured = deck.measured(limit.measure)

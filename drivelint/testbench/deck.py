@@ -103,7 +103,8 @@ def render(
     for limit in bench.limits:
         head += _comment(
             f"{'fixed when' if fix else 'the failure shows when this does not hold'}: "
-            f"{limit.what} ({limit.measure} {limit.holds_when} {number(limit.bound)})"
+            f"{limit.what} ({limit.measure} {limit.holds_when} "
+            f"{_quantity(limit.bound, limit.unit) if limit.unit else number(limit.bound)})"
         )
     for note in bench.notes:
         head += _comment(f"stimulus: {note}")
