@@ -24,13 +24,16 @@ from drivelint.stages.model import DriveStage
 from drivelint.testbench.design import Design, Edit
 from drivelint.testbench.measure import Card, Claim, Limit
 from drivelint.testbench.stimulus import (
-    DEAD_MAX,
     Schedule,
     dead_time,
     drive_of,
     partner_source,
     waveform_text,
 )
+
+# The period a one-shot's dead time is scaled from when the design gives none: 10 us,
+# for 100 ns of dead time (stimulus.DEAD_FRACTION).
+ONE_SHOT_PERIOD = 10e-6
 
 # Bounds on what a testbench asks of the simulator, so that a deck runs in seconds.
 MAX_STOP = 0.2  # s of simulated time
@@ -235,12 +238,11 @@ def stimulus(ctx: BenchContext, schedule: Schedule, why: str) -> Stimulus | Decl
         partner_drive = drive_of(partner_wave, False, [source.waveform])
         if partner_element is None or partner_drive is None:
             return Declined(f"the command of the bridge partner {partner.name} cannot be rewritten")
-        period = schedule.period or 0.0
-        dead = (
-            dead_time(source.waveform, partner_wave, period)
-            if schedule.period
-            else min(dead_time(source.waveform, partner_wave, 1.0), DEAD_MAX / 10)
-        )
+        # A one-shot has no period of its own: the design's pulse trains give the dead
+        # time if they can, else a short one (its length hardly matters for one edge).
+        own_period = source.waveform.period() if source.waveform else None
+        period = schedule.period or own_period or ONE_SHOT_PERIOD
+        dead = dead_time(source.waveform, partner_wave, period)
         partner_line = _source_line(
             design,
             partner_element,

@@ -587,6 +587,8 @@ def no_refresh(ctx: BenchContext) -> Bench | Declined:
     else:
         cycles = MIN_CYCLES
     cycles = min(max(cycles, MIN_CYCLES), MAX_CYCLES, int(MAX_STOP / period) - 1)
+    if cycles < 2:
+        return Declined("the period is too long to simulate two cycles within the bound")
     windows = schedule.on_windows(until=schedule.delay + (cycles + 1) * period)
     start, end = windows[cycles - 1]
     previous_end = windows[cycles - 2][1]
@@ -643,7 +645,9 @@ def _runs_down(ctx: BenchContext, boot: str, v_boot_min: float) -> Bench | Decli
     if own is None or own.period is None:
         return Declined("the design's control is not a pulse train to run the stage with")
     period = own.period
-    cycles = MIN_CYCLES * 2
+    cycles = min(MIN_CYCLES * 2, int(MAX_STOP / period) - 1)
+    if cycles < 1:
+        return Declined("the period is too long to simulate a cycle within the bound")
     start, end = own.on_windows(until=own.delay + (cycles + 1) * period)[cycles - 1]
     source = ctx.stage.control.source if ctx.stage.control else "the control"
     stop = end + min(SETTLE_AFTER, period / 10)
@@ -727,8 +731,11 @@ def diode_slow(ctx: BenchContext) -> Bench | Declined:
     if isinstance(probe, Declined):
         return probe
     period = schedule.period
-    windows = schedule.on_windows(until=schedule.delay + (DIODE_SLOW_CYCLES + 1) * period)
-    start = windows[DIODE_SLOW_CYCLES - 1][0]
+    cycles = min(DIODE_SLOW_CYCLES, int(MAX_STOP / period) - 1)
+    if cycles < 2:
+        return Declined("the period is too long to simulate two cycles within the bound")
+    windows = schedule.on_windows(until=schedule.delay + (cycles + 1) * period)
+    start = windows[cycles - 1][0]
     end = start + period
     current = source_current(sense_names(ctx, diode)[2])
     cap_current = device_vector(cap.name, "i")
@@ -781,7 +788,7 @@ def diode_slow(ctx: BenchContext) -> Bench | Declined:
         cards=tuple(cards),
         claims=tuple(_claims(ctx)),
         limits=limits,
-        notes=(*notes, f"cycle {DIODE_SLOW_CYCLES} is measured, from its turn-on command"),
+        notes=(*notes, f"cycle {cycles} is measured, from its turn-on command"),
         saves=(cap_current,),
         uic=ctx.design.uses_uic(),
     )

@@ -104,7 +104,7 @@ def render(
         head += _comment(
             f"{'fixed when' if fix else 'the failure shows when this does not hold'}: "
             f"{limit.what} ({limit.measure} {limit.holds_when} "
-            f"{_quantity(limit.bound, limit.unit) if limit.unit else number(limit.bound)})"
+            f"{format_si(limit.bound, limit.unit) if limit.unit else number(limit.bound)})"
         )
     for note in bench.notes:
         head += _comment(f"stimulus: {note}")

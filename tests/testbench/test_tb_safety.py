@@ -81,6 +81,17 @@ def test_only_the_output_folder_is_written(tmp_path: Path) -> None:
     assert all(p.parts[0] in ("project", "out") for p in written)
 
 
+def test_netlists_with_one_stem_get_folders_of_their_own(tmp_path: Path) -> None:
+    for folder in ("a", "b"):
+        (tmp_path / folder).mkdir()
+        (tmp_path / folder / "drivelint.toml").write_text("", encoding="utf-8")
+        shutil.copy(EXAMPLES / "tool36_leg_totem_pole.cir", tmp_path / folder / "leg.cir")
+        shutil.copy(EXAMPLES / "parts.toml", tmp_path / folder / "parts.toml")
+    outcome = build([tmp_path / "a" / "leg.cir", tmp_path / "b" / "leg.cir"], tmp_path / "out")
+    folders = [r.deck.path.parent.name for r in outcome.records if r.deck]
+    assert folders == ["leg", "leg-2"]
+
+
 def test_a_broken_netlist_is_a_diagnostic_and_the_batch_goes_on(tmp_path: Path) -> None:
     project = tmp_path / "project"
     project.mkdir()
