@@ -127,11 +127,12 @@ def _own_or_periodic(
     return schedule, dict(made.edits), made.notes
 
 
-def _window(schedule: Schedule, index: int) -> tuple[float, float]:
+def _window(schedule: Schedule, index: int) -> tuple[float, float] | Declined:
     """The ``index``-th on-window of the schedule (0-based), or its last."""
-    windows = schedule.on_windows(until=MAX_STOP)
-    chosen = windows[min(index, len(windows) - 1)]
-    return chosen
+    windows = [w for w in schedule.on_windows(until=MAX_STOP) if w[1] <= MAX_STOP]
+    if not windows:
+        return Declined("the control never commands the switch on within the bound")
+    return windows[min(index, len(windows) - 1)]
 
 
 def _boot(ctx: BenchContext) -> str | Declined:
@@ -178,7 +179,10 @@ def capacitor_small(ctx: BenchContext) -> Bench | Declined:
         if isinstance(made, Declined):
             return made
         edits, notes = dict(made.edits), made.notes
-    start, end = _window(schedule, 1)
+    chosen = _window(schedule, 1)
+    if isinstance(chosen, Declined):
+        return chosen
+    start, end = chosen
     current = device_vector(cap.name, "i")
     cards = [
         at("v_boot", boot, start, "V(boot) - V(sw) at the turn-on command: the recharged supply"),
@@ -430,33 +434,39 @@ def _clamp_current(ctx: BenchContext, start: float, end: float) -> tuple[list[Ca
     ], vector
 
 
-def _drive_window(ctx: BenchContext) -> tuple[Schedule, dict[Span, Edit], tuple[str, ...]]:
+def _drive_window(
+    ctx: BenchContext,
+) -> tuple[Schedule, dict[Span, Edit], tuple[str, ...], float, float] | Declined:
     """The design's own command where it is a pulse train; else one long turn-on."""
     own = design_schedule(ctx.stage)
     if own is not None and own.period is not None:
         source = ctx.stage.control.source if ctx.stage.control else "the control"
-        return own, {}, (f"{source}: the design's own command",)
+        return _with_window(own, {}, (f"{source}: the design's own command",))
     start = charge_time(ctx)
     schedule = Schedule.steps((start, True), (start + ONE_SHOT_ON, False))
     made = stimulus(ctx, schedule, "one turn-on long enough for the gate to settle")
     if isinstance(made, Declined):
-        raise _Unavailable(made.reason)
-    return schedule, dict(made.edits), made.notes
+        return made
+    return _with_window(schedule, dict(made.edits), made.notes)
 
 
-class _Unavailable(Exception):
-    pass
+def _with_window(
+    schedule: Schedule, edits: dict[Span, Edit], notes: tuple[str, ...]
+) -> tuple[Schedule, dict[Span, Edit], tuple[str, ...], float, float] | Declined:
+    chosen = _window(schedule, 1)
+    if isinstance(chosen, Declined):
+        return chosen
+    return schedule, edits, notes, *chosen
 
 
 def _clamp_in_drive(ctx: BenchContext) -> Bench | Declined:
     drive = ctx.value("vgs_drive")
     if drive is None:
         return Declined("the finding gives no drive level")
-    try:
-        schedule, edits, notes = _drive_window(ctx)
-    except _Unavailable as exc:
-        return Declined(str(exc))
-    start, end = _window(schedule, 1)
+    laid_out = _drive_window(ctx)
+    if isinstance(laid_out, Declined):
+        return laid_out
+    schedule, edits, notes, start, end = laid_out
     settled = (start + end) / 2  # the second half of the on-time: the steady on-state
     vgs = _vgs(ctx)
     current_cards, save = _clamp_current(ctx, settled, end)
@@ -492,11 +502,10 @@ def _positive_vgs(ctx: BenchContext) -> Bench | Declined:
     limit = ctx.value("vgs_limit_positive")
     if limit is None:
         return Declined("the finding gives no positive V_GS limit")
-    try:
-        schedule, edits, notes = _drive_window(ctx)
-    except _Unavailable as exc:
-        return Declined(str(exc))
-    start, end = _window(schedule, 1)
+    laid_out = _drive_window(ctx)
+    if isinstance(laid_out, Declined):
+        return laid_out
+    schedule, edits, notes, start, end = laid_out
     stop = min(end + SETTLE_AFTER, MAX_STOP)
     cards = [extreme("vgs_max_positive", "MAX", _vgs(ctx), 0.0, stop, "highest V_GS")]
     return Bench(

@@ -132,7 +132,9 @@ def render(
         f".tran {number(bench.step)} {number(bench.stop)} 0 {number(bench.step)}"
         + (" uic" if bench.uic else "")
     )
-    tail += [card.text for card in bench.cards]
+    for card in bench.cards:
+        tail += _comment(f"{card.name}: {card.what}")
+        tail.append(card.text)
     tail.append(".end")
     return "\n".join([*head, *body, *tail]) + "\n"
 
