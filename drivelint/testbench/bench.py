@@ -38,7 +38,7 @@ ONE_SHOT_PERIOD = 10e-6
 # Bounds on what a testbench asks of the simulator, so that a deck runs in seconds.
 MAX_STOP = 0.2  # s of simulated time
 MAX_POINTS = 400_000  # stop / max step
-MIN_STEP = 1e-10
+MIN_STEP = 1e-9  # finer steps make ngspice fail on switch models ("timestep too small")
 
 
 @dataclass(frozen=True, slots=True)
@@ -233,9 +233,9 @@ def stimulus(ctx: BenchContext, schedule: Schedule, why: str) -> Stimulus | Decl
     edits = {element.span: Edit(lines=(line,), note=f"{source.name} drives {why}")}
     has_partner = any(r.kind == "low-side switch" for r in stage.refresh)
     if found is not None:
-        partner, partner_source_device = found
+        partner, partner_source_device, partner_inverting = found
         partner_element = design.element_of(partner_source_device.name)
-        partner_drive = drive_of(partner_wave, False, [source.waveform])
+        partner_drive = drive_of(partner_wave, partner_inverting, [source.waveform])
         if partner_element is None or partner_drive is None:
             return Declined(f"the command of the bridge partner {partner.name} cannot be rewritten")
         # A one-shot has no period of its own: the design's pulse trains give the dead
@@ -243,6 +243,10 @@ def stimulus(ctx: BenchContext, schedule: Schedule, why: str) -> Stimulus | Decl
         own_period = source.waveform.period() if source.waveform else None
         period = schedule.period or own_period or ONE_SHOT_PERIOD
         dead = dead_time(source.waveform, partner_wave, period)
+        if schedule.period is not None:
+            # The partner must get some of the off-time: the dead time takes at most a
+            # quarter of it at each edge.
+            dead = min(dead, (schedule.period - schedule.on_time) / 4)
         partner_line = _source_line(
             design,
             partner_element,

@@ -793,7 +793,10 @@ def diode_slow(ctx: BenchContext) -> Bench | Declined:
     return Bench(
         edits={**edits, **probe},
         stop=stop,
-        step=analysis_step(ctx.design, stop, min(schedule.on_time, period - schedule.on_time)),
+        # fine enough to resolve the recovery time the rule allows
+        step=analysis_step(
+            ctx.design, stop, min(schedule.on_time, period - schedule.on_time, *allowed)
+        ),
         cards=tuple(cards),
         claims=tuple(_claims(ctx)),
         limits=limits,

@@ -24,7 +24,7 @@ from drivelint.batch import DEFAULT_SECONDS_PER_FILE, BatchOptions, Job, check_j
 from drivelint.checks.base import Finding
 from drivelint.checks.facts import StageFacts, devices_by_net
 from drivelint.checks.registry import registry
-from drivelint.checks.runner import RuleSetting
+from drivelint.checks.runner import CheckResult, RuleSetting
 from drivelint.config import Config
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.netlist.values import format_si
@@ -92,7 +92,7 @@ class Record:
     def sort_key(self) -> tuple[str, int, int, str, str]:
         return self.finding.sort_key()
 
-    def to_json(self, root: Path | None = None) -> dict[str, object]:
+    def to_json(self) -> dict[str, object]:
         finding = self.finding
         out: dict[str, object] = {
             "rule": finding.rule,
@@ -116,11 +116,15 @@ class Record:
                 out["failure_shown"] = _negate(self.deck.limits_hold())
                 if self.deck.result.error:
                     out["run_error"] = self.deck.result.error
+                if self.deck.result.trouble:
+                    out["run_messages"] = list(self.deck.result.trouble)
         if self.fixed is not None and self.fixed.result is not None:
             out["fixed_measured"] = _measured_json(self.fixed)
             out["fixed_failure_gone"] = self.fixed.limits_hold()
             if self.fixed.result.error:
                 out["fixed_run_error"] = self.fixed.result.error
+            if self.fixed.result.trouble:
+                out["fixed_run_messages"] = list(self.fixed.result.trouble)
         return dict(sorted(out.items()))
 
 
@@ -368,15 +372,13 @@ def _decks_for(
     config: Config,
     options: BenchOptions,
     folder: Path,
-    result: object,
+    result: CheckResult,
     findings: list[Finding],
     outcome: Outcome,
 ) -> None:
-    from drivelint.checks.runner import CheckResult
     from drivelint.netlist.reader import ReadOptions, read_deck
     from drivelint.pipeline import find_project_root, options_from, parts_for
 
-    assert isinstance(result, CheckResult)
     circuit = result.circuit
     load = options_from(config)
     read = ReadOptions(
@@ -562,12 +564,14 @@ def record_text(record: Record) -> list[str]:
         lines += _limit_lines(deck, "failure shown", "failure not shown")
         if deck.result.error:
             lines.append(f"    run failed: {deck.result.error}")
+        lines += [f"    ngspice: {message}" for message in deck.result.trouble]
     if record.fixed is not None:
         lines.append(f"    fixed deck: {record.fixed.path}: {record.fix}")
         if record.fixed.result is not None:
             lines += _limit_lines(record.fixed, "still fails", "failure gone", fixed=True)
             if record.fixed.result.error:
                 lines.append(f"    fixed run failed: {record.fixed.result.error}")
+            lines += [f"    ngspice (fixed deck): {m}" for m in record.fixed.result.trouble]
     elif record.fixed_reason:
         lines.append(f"    no fixed deck: {record.fixed_reason}")
     return lines

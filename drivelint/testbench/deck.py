@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 import textwrap
 from collections.abc import Iterable, Mapping
 
@@ -127,7 +128,7 @@ def render(
     body = design.render(merge_edits(bench.edits, fix.edits if fix else {}))
     tail = ["", "* ---- testbench analysis (written by drivelint)"]
     if bench.saves:
-        tail.append(".save all " + " ".join(sorted(set(bench.saves))))
+        tail.append(".save " + " ".join(_saved(bench)))
     tail.append(
         f".tran {number(bench.step)} {number(bench.stop)} 0 {number(bench.step)}"
         + (" uic" if bench.uic else "")
@@ -137,6 +138,20 @@ def render(
         tail.append(card.text)
     tail.append(".end")
     return "\n".join([*head, *body, *tail]) + "\n"
+
+
+_VECTOR = re.compile(r"\b([vi])\(([^()']+)\)")
+
+
+def _saved(bench: Bench) -> list[str]:
+    """Every vector the cards use. Device currents (``@c1[i]``) are kept only when asked
+    for; once one is, ngspice keeps only what ``.save`` names (with ``all`` as well, it
+    warns about the vectors behind ``par()``), so the node voltages and source currents the
+    cards read are named too."""
+    found = set(bench.saves)
+    for card in bench.cards:
+        found.update(f"{kind}({name})" for kind, name in _VECTOR.findall(card.text))
+    return sorted(found)
 
 
 def _directives(design: Design, conditions: Mapping[str, Value], fix: Fix | None) -> Iterable[str]:

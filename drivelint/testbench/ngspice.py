@@ -36,12 +36,18 @@ def find_ngspice() -> str | None:
     return shutil.which("ngspice")
 
 
+# Lines of ngspice's output that mean the run may not be what the deck says.
+_TROUBLE = re.compile(r"error|warning|fatal|timestep too small|unrecognized|unknown", re.I)
+MAX_TROUBLE = 20
+
+
 @dataclass(frozen=True, slots=True)
 class RunResult:
     values: dict[str, float] = field(default_factory=dict)
     failed: tuple[str, ...] = ()  # cards ngspice could not evaluate
     error: str | None = None  # why the run did not complete; None when it did
     log_tail: str = ""
+    trouble: tuple[str, ...] = ()  # ngspice's warnings and errors, the first few
 
 
 def _stop(process: subprocess.Popen[bytes]) -> None:
@@ -116,9 +122,16 @@ def run_deck(
     reader.join(timeout=5)
     text = kept.decode("utf-8", "replace")
     values, failed = parse_results(text, names)
-    tail = "\n".join(text.splitlines()[-20:])
+    lines = text.splitlines()
+    tail = "\n".join(lines[-20:])
+    # A card that cannot be evaluated is in ``failed``; everything else ngspice warns about
+    # is kept as it says it.
+    trouble = tuple(
+        line.strip() for line in lines if _TROUBLE.search(line) and not _FAILED.search(line)
+    )[:MAX_TROUBLE]
+    error: str | None = None
     if code != 0:
-        return RunResult(values, failed, f"ngspice exited with status {code}", tail)
-    if truncated[0] and not values:
-        return RunResult(values, failed, f"ngspice wrote more than {max_output} bytes", tail)
-    return RunResult(values, failed, None, tail)
+        error = f"ngspice exited with status {code}"
+    elif truncated[0] and not values:
+        error = f"ngspice wrote more than {max_output} bytes"
+    return RunResult(values, failed, error, tail, trouble)

@@ -203,14 +203,37 @@ def _command_source(
     return circuit.devices[found[0]] if len(found) == 1 else None
 
 
+def _switch_control(
+    circuit: Circuit, by_net: Mapping[str, Sequence[Device]], nets: set[str]
+) -> tuple[str, bool] | None:
+    """A voltage-controlled switch that pulls one of ``nets`` up to a positive rail (the
+    upper switch of a totem): its control net, and whether a high command turns it off."""
+    for net in sorted(nets):
+        for device in by_net.get(net, ()):
+            if device.kind != "switch":
+                continue
+            p, n, cp, cn = (device.net(pin) for pin in ("p", "n", "cp", "cn"))
+            other = n if p == net else p if n == net else None
+            if other is None or circuit.rails.get(other, 0.0) <= 0:
+                continue
+            # It conducts when V(cp, cn) passes VT: a negative VT conducts when it is low.
+            low_on = bool(device.model and device.model.params.get("vt", 0.0) < 0)
+            if cn == GROUND and cp:
+                return cp, low_on
+            if cp == GROUND and cn:
+                return cn, not low_on
+    return None
+
+
 def partner_source(
     circuit: Circuit, stage: DriveStage, by_net: Mapping[str, Sequence[Device]]
-) -> tuple[Device, Device] | None:
-    """The low-side partner of a bridge leg and the source that commands it, if found.
+) -> tuple[Device, Device, bool] | None:
+    """The low-side partner of a bridge leg, the source that commands it, and whether
+    that command is inverted on its way; None when it cannot be traced.
 
-    From the partner's gate, series resistors lead either to a command source or to the
-    low-side output of the stage's driver IC, whose low-side input leads on to one. Only
-    a non-inverting path is recognised; anything else is "not found".
+    From the partner's gate, series resistors lead to a command source, to the low-side
+    output of the stage's driver IC (whose low-side input leads on to one), or to a
+    switch totem whose upper switch is controlled from one.
     """
     partner = next((r for r in stage.refresh if r.kind == "low-side switch"), None)
     device = circuit.devices.get(partner.devices[0]) if partner and partner.devices else None
@@ -218,16 +241,22 @@ def partner_source(
     if device is None or gate is None:
         return None
     reach = _resistor_reach(circuit, by_net, gate)
+    inverting = False
     driver = stage.driver
     low_out = driver.pins.get("low_out") if driver else None
     low_in = driver.pins.get("low_in") if driver else None
     if low_out is not None and low_in is not None and low_out in reach:
         reach = _resistor_reach(circuit, by_net, low_in)
     source = _command_source(circuit, by_net, reach)
+    if source is None:
+        totem = _switch_control(circuit, by_net, reach)
+        if totem is not None:
+            net, inverting = totem
+            source = _command_source(circuit, by_net, _resistor_reach(circuit, by_net, net))
     control = stage.control.source if stage.control else None
     if source is None or source.name == control:
         return None
-    return device, source
+    return device, source, inverting
 
 
 def dead_time(main: Waveform | None, partner: Waveform | None, period: float) -> float:

@@ -167,6 +167,8 @@ def test_every_card_prints_and_the_failure_shows(built: Outcome, finding: Findin
     _simulated(record)
     assert record.deck is not None and record.deck.result is not None
     assert record.deck.result.error is None, record.deck.result.log_tail
+    # nothing ngspice warns about: the run is the deck as written
+    assert record.deck.result.trouble == ()
     assert set(record.deck.cards) <= set(record.deck.result.values), record.deck.result.failed
     assert record.deck.limits and record.deck.limits_hold() is False
 
@@ -187,6 +189,7 @@ def test_fixed_deck_removes_the_finding(built: Outcome, finding: Finding) -> Non
     # ngspice
     _simulated(record)
     assert record.fixed.result is not None and record.fixed.result.error is None
+    assert record.fixed.result.trouble == ()
     assert record.fixed.limits_hold() is True
 
 

@@ -56,6 +56,19 @@ def test_every_finding_of_the_own_decks_has_a_deck(built: Outcome) -> None:
     assert len(built.records) == 5 and all(r.deck for r in built.records)
 
 
+def test_every_own_deck_runs_cleanly(built: Outcome) -> None:
+    needs_ngspice()
+    for record in built.records:
+        for deck in (record.deck, record.fixed):
+            if deck is None:
+                continue
+            assert deck.result is not None and deck.result.error is None, deck.path
+            assert deck.result.trouble == (), (deck.path, deck.result.trouble)
+            # a fixed deck may never reach an event the design's deck times (hold_time)
+            wanted = deck.cards if deck is record.deck else [x.measure for x in deck.limits]
+            assert set(wanted) <= set(deck.result.values), (deck.path, deck.result.failed)
+
+
 def test_included_library_inlined_and_own_analysis_dropped(built: Outcome) -> None:
     record = _record(built, "heater24.cir", "dc-hold")
     assert record.deck is not None
