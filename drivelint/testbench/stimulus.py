@@ -216,12 +216,14 @@ def _switch_control(
             other = n if p == net else p if n == net else None
             if other is None or circuit.rails.get(other, 0.0) <= 0:
                 continue
-            # It conducts when V(cp, cn) passes VT: a negative VT conducts when it is low.
-            low_on = bool(device.model and device.model.params.get("vt", 0.0) < 0)
-            if cn == GROUND and cp:
-                return cp, low_on
-            if cp == GROUND and cn:
-                return cn, not low_on
+            # It conducts while V(cp, cn) > VT: with the command on cp, VT >= 0 is a high
+            # command turning it on; with the command on cn, VT < 0 is a low one. Other
+            # arrangements never or always conduct over a logic swing: not recognised.
+            vt = device.model.params.get("vt", 0.0) if device.model else 0.0
+            if cn == GROUND and cp and vt >= 0:
+                return cp, False
+            if cp == GROUND and cn and vt < 0:
+                return cn, True
     return None
 
 

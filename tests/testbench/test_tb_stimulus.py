@@ -18,6 +18,7 @@ from drivelint.testbench.stimulus import (
     Schedule,
     dead_time,
     drive_of,
+    partner_source,
     waveform_text,
 )
 
@@ -106,3 +107,48 @@ def test_the_designs_schedule_is_read_from_its_control() -> None:
     schedule = design_schedule(next(s for s in stages if s.floating))
     assert schedule is not None and schedule.period is None
     assert schedule.edges == ((pytest.approx(200.5e-6), True),)
+
+
+TOTEM_LEG = """leg whose low side is driven by a switch totem
+VBUS bus 0 DC 48
+VAUX aux 0 DC 12
+D1 aux boot dfast
+C1 boot sw 220n
+S_HUP boot ho hin 0 son
+S_HDN ho sw 0 hin soff
+R_GH ho g 4.7
+M1 bus g sw nfet
+S_LUP aux lo {control}
+S_LDN lo 0 {other}
+R_GL lo gl 2.2
+R_GSL gl 0 10k
+M2 sw gl 0 nfet
+L1 sw out 10u
+R_LD out 0 2.4
+V_HIN hin 0 PULSE(0 5 0 20n 20n 2u 5u)
+V_LIN lin 0 PULSE(0 5 2.5u 20n 20n 2u 5u)
+.model son SW (VT=2.5 VH=0.2 RON=2 ROFF=100meg)
+.model soff SW (VT=-2.5 VH=0.2 RON=1 ROFF=100meg)
+.model dfast D (IS=1n N=1.5 RS=0.2 BV=100 TT=20n)
+.model nfet NMOS (LEVEL=1 VTO=3 KP=20 CGSO=2n CGDO=0.5n)
+.end
+"""
+
+
+@pytest.mark.parametrize(
+    ("control", "other", "inverting"),
+    [("lin 0 son", "0 lin soff", False), ("0 lin soff", "lin 0 son", True)],
+)
+def test_a_totem_driven_partner_is_traced_to_its_command(
+    control: str, other: str, inverting: bool, tmp_path: Path
+) -> None:
+    netlist = tmp_path / "totem.cir"
+    netlist.write_text(TOTEM_LEG.format(control=control, other=other), encoding="utf-8")
+    circuit, stages = load_stages(netlist)
+    stage = next(s for s in stages if s.floating)
+    from drivelint.checks.facts import devices_by_net
+
+    found = partner_source(circuit, stage, devices_by_net(circuit))
+    assert found is not None
+    partner, source, inverted = found
+    assert (partner.name, source.name, inverted) == ("m2", "v_lin", inverting)
