@@ -9,7 +9,7 @@ import stat
 from pathlib import Path
 
 import pytest
-from testbench_support import EXAMPLES, build
+from testbench_support import EXAMPLES, NGSPICE, build
 
 from drivelint.config import Config
 from drivelint.testbench.command import (
@@ -74,11 +74,21 @@ def test_only_the_output_folder_is_written(tmp_path: Path) -> None:
     shutil.copytree(EXAMPLES, project)
     (project / "drivelint.toml").write_text("", encoding="utf-8")
     before = _tree(project)
-    outcome = build([project / "loadswitch24v_dc_enable.cir"], tmp_path / "out")
+    outcome = build(
+        [project / "loadswitch24v_dc_enable.cir"], tmp_path / "out", run=NGSPICE is not None
+    )
     assert outcome.records and not outcome.failed
     assert _tree(project) == before
     written = {p.relative_to(tmp_path) for p in tmp_path.rglob("*") if p.is_file()}
     assert all(p.parts[0] in ("project", "out") for p in written)
+    # in DIR: the decks and the parts they are checked with, nothing ngspice left behind
+    names = sorted(p.name for p in (tmp_path / "out").rglob("*") if p.is_file())
+    assert names == [
+        "dc-hold__ven.cir",
+        "gate-overvoltage__q4.cir",
+        "gate-overvoltage__q4.fixed.cir",
+        "parts.toml",
+    ]
 
 
 def test_netlists_with_one_stem_get_folders_of_their_own(tmp_path: Path) -> None:
