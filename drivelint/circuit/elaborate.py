@@ -341,18 +341,22 @@ class _Elaborator:
         return TransientSettings(tstep=settings["tstep"], tstop=settings["tstop"])
 
     def flatten(self, statements: Sequence[Statement], block: _Block) -> None:
-        seen: set[str] = set()
+        seen: dict[str, Element] = {}
         for statement in statements:
             if not isinstance(statement, Element):
                 continue
-            if statement.name in seen:
+            first = seen.get(statement.name)
+            if first is not None:
+                # ngspice turns an R, C or L given by an expression into sources of its
+                # own, so a plain part of the same name still loads there: a warning.
+                renamed = any(map(_valued_by_expression, (first, statement)))
                 self.report(
-                    Severity.ERROR,
+                    Severity.WARNING if renamed else Severity.ERROR,
                     statement.span,
                     f"duplicate element name '{statement.name}'; this line is ignored",
                 )
                 continue
-            seen.add(statement.name)
+            seen[statement.name] = statement
             try:
                 if statement.letter == "x":
                     self.instantiate(statement, block)
@@ -842,7 +846,7 @@ class _Elaborator:
             # The model is missing: it is named by the last word that is not a number,
             # and the element keeps the kind its letter and node count give.
             named = [
-                i for i, f in enumerate(positional) if isinstance(f, Word) and not _looks_numeric(f)
+                i for i, f in enumerate(positional) if isinstance(f, Word) and _names_a_model(f)
             ]
             count = named[-1] if named else -1
             if count not in counts:
@@ -1166,9 +1170,25 @@ def _flat_values(group: Group) -> list[Field]:
     return out
 
 
+def _valued_by_expression(element: Element) -> bool:
+    if element.letter not in PASSIVE_KEYS:
+        return False
+    keys = PASSIVE_KEYS[element.letter]
+    return any(
+        isinstance(f, Expr) or (isinstance(f, Assign) and f.key in keys) for f in element.fields
+    )
+
+
 def _count_text(counts: Sequence[int]) -> str:
     ordered = sorted(set(counts))
     return str(ordered[0]) if len(ordered) == 1 else f"{ordered[0]} to {ordered[-1]}"
+
+
+def _names_a_model(word: Word) -> bool:
+    """A word that is not a number (model names may start with digits: 1n4148, 2sk456)."""
+    from drivelint.circuit.scope import _is_plain_number
+
+    return not _is_plain_number(word.text)
 
 
 def _looks_numeric(item: Field) -> bool:

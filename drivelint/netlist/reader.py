@@ -728,16 +728,30 @@ class _Reader:
         match = _BEHAVIOURAL.search(line.text)
         if match is None:
             return None
-        head = LogicalLine(line.text[: match.start()], line.path, line.segments)
+        text = line.text
+        head = LogicalLine(text[: match.start()], line.path, line.segments)
         fields = self.parse(head)
-        value = line.text[match.end() :].strip()
-        offset = line.text.index(value, match.end()) if value else match.end()
+        # Instance parameters after the expression (tc1=…, m=…) end it.
+        cut = len(text)
+        state = _Nesting()
+        position = match.end()
+        for assign in _ASSIGN_START.finditer(text, match.end()):
+            _advance(text, position, assign.start(), state)
+            position = assign.start()
+            if state.top_level and text[assign.start() - 1] in " \t":
+                cut = assign.start()
+                break
+        value = text[match.end() : cut].strip()
+        offset = text.index(value, match.end()) if value else match.end()
         if not value:
             raise self.fail(line.span_at(match.end()), f"'{match.group(1)}=' has no expression")
-        if value[0] == "{" and value[-1] == "}" or value[0] == "'" and value[-1] == "'":
-            value, offset = value[1:-1], offset + 1
+        value, offset = _unwrap(value, offset)
         key = match.group(1).lower()
         fields.append(Assign(key, Expr(value, line.span_at(offset)), line.span_at(match.start(1))))
+        if cut < len(text):
+            # Parse the tail in place: padding keeps every offset where it was.
+            tail = LogicalLine(" " * cut + text[cut:], line.path, line.segments)
+            fields.extend(self.parse(tail))
         return fields
 
     def table_form(self, line: LogicalLine) -> list[Field] | None:
@@ -916,8 +930,7 @@ class _Reader:
                 raise self.fail(
                     line.span_at(match.end()), f"parameter '{match.group(1)}' has no value"
                 )
-            if value[0] == "{" and value[-1] == "}" or value[0] == "'" and value[-1] == "'":
-                value, value_offset = value[1:-1], value_offset + 1
+            value, value_offset = _unwrap(value, value_offset)
             yield Assign(
                 match.group(1).lower(),
                 Expr(value, line.span_at(value_offset)),
@@ -925,7 +938,19 @@ class _Reader:
             )
 
     def model_card(self, line: LogicalLine) -> None:
-        fields = self.parse(line)[1:]
+        limit = self.limits.max_expression_depth
+        too_deep = _group_too_deep(line.text, limit)
+        if too_deep is not None:
+            raise self.fail(
+                line.span_at(too_deep),
+                f"parentheses nested more than {limit} levels deep (limit max_expression_depth)",
+                "limit",
+            )
+        # The parentheses of a model card only group its parameters, and libraries are
+        # loose with them (one too many is common): read them as spaces, which keeps
+        # every offset.
+        text = "".join(" " if char in "()" else char for char in line.text)
+        fields = self.parse(LogicalLine(text, line.path, line.segments))[1:]
         if len(fields) < 2 or not isinstance(fields[0], Word) or not isinstance(fields[1], Word):
             raise self.fail(line.span, "expected '.model NAME TYPE (PARAM=VALUE …)'")
         params: list[Assign] = []
@@ -1034,13 +1059,18 @@ class _Reader:
         section = args[1].lower() if library else None
         where = line.span_at(len(card) + 1)
         kind = "library" if library else "include"
-        if Path(name).is_absolute() and not Path(name).exists():
+        if _absent(name, ()):
             # A library at a path of the machine the deck was written on.
             self.note_missing(
                 kind,
                 name,
                 where,
                 f"{kind} file '{name}' is not on this machine; the deck is read without it",
+            )
+            return
+        if _absent(name, (path.parent, *self.options.search_path)):
+            self.note_missing(
+                kind, name, where, f"{kind} file '{name}' not found; the deck is read without it"
             )
             return
         target = self.resolve(name, path, where)
@@ -1128,6 +1158,50 @@ def _advance(text: str, start: int, end: int, state: _Nesting) -> None:
             state.braces += 1
         elif char == "}":
             state.braces -= 1
+
+
+def _absent(name: str, folders: Sequence[Path]) -> bool:
+    """True when ``name`` certainly names no file: absolute and absent, or absent in every
+    folder it is looked for in. A name the file system cannot look up is left to
+    ``resolve``, which says why."""
+
+    def missing(candidate: Path) -> bool:
+        try:
+            os.stat(candidate)
+        except FileNotFoundError:
+            return True
+        except (OSError, ValueError):
+            raise _Unusable from None
+        return False
+
+    try:
+        if name.startswith("~"):
+            return False
+        candidate = Path(name)
+        if candidate.is_absolute():
+            return not folders and missing(candidate)
+        return bool(folders) and all(missing(folder / candidate) for folder in folders)
+    except (_Unusable, ValueError):
+        return False
+
+
+class _Unusable(Exception):
+    """A file name the file system refuses to look up."""
+
+
+def _unwrap(value: str, offset: int) -> tuple[str, int]:
+    """An expression without its outer quotes, or its outer braces when they are one pair."""
+    if value[0] == "'" and value[-1] == "'" and len(value) > 1:
+        return value[1:-1], offset + 1
+    if value[0] == "{" and value[-1] == "}":
+        depth = 0
+        for index, char in enumerate(value):
+            depth += (char == "{") - (char == "}")
+            if depth == 0:
+                if index == len(value) - 1:
+                    return value[1:-1], offset + 1
+                break
+    return value, offset
 
 
 def _group_too_deep(text: str, limit: int) -> int | None:
