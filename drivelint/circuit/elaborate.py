@@ -97,6 +97,13 @@ PASSIVE_KEYS: Mapping[str, tuple[str, str]] = {
     "c": ("c", "capacitance"),
     "l": ("l", "inductance"),
 }
+# Keys an element's own code reads (not evaluated as plain instance parameters).
+SKIPPED_KEYS: Mapping[str, frozenset[str]] = {
+    **{letter: BEHAVIOURAL_KEYS for letter in "ebg"},
+    **{letter: frozenset(keys) for letter, keys in PASSIVE_KEYS.items()},
+    "v": frozenset({"file"}),
+    "i": frozenset({"file"}),
+}
 UNSUPPORTED_WAVEFORMS = frozenset({"sffm", "am", "trnoise", "trrandom", "pat"})
 # Parts allowed beside the one MOSFET in a wrapper subcircuit.
 WRAPPER_PASSIVES = frozenset({"resistor", "inductor", "capacitor", "diode"})
@@ -138,6 +145,8 @@ class _Elaborator:
         self.tran: object = None
         self._models: dict[tuple[int, str], Model | None] = {}
         self._seen_diagnostics: set[tuple[Span, str]] = set()
+        # Each element statement's positional fields and assignments, by id(statement).
+        self._split: dict[int, tuple[list[Field], dict[str, Assign]]] = {}
         self.missing: dict[tuple[str, str], Missing] = {m_key(m): m for m in deck.missing}
 
     # -- diagnostics -------------------------------------------------------------------
@@ -529,15 +538,24 @@ class _Elaborator:
 
     def device(self, element: Element, block: _Block) -> Device:
         letter = element.letter
-        fields = self.temperature_coefficients(element) if letter in "rcl" else element.fields
-        positional = [f for f in fields if not isinstance(f, Assign)]
-        assigns = {f.key: f for f in fields if isinstance(f, Assign)}
+        split = self._split.get(id(element))
+        if split is None:
+            # Once per statement, however many instances flatten it.
+            fields = element.fields
+            if letter in "rcl" and any(_is_tc(f) for f in fields):
+                fields = self.temperature_coefficients(element)
+            split = (
+                [f for f in fields if not isinstance(f, Assign)],
+                {f.key: f for f in fields if isinstance(f, Assign)},
+            )
+            self._split[id(element)] = split
+        positional, assigns = split
         name = block.prefix + element.name
         scope = block.scope
         params: dict[str, float] = {}
-        skipped = BEHAVIOURAL_KEYS if letter in "ebg" else frozenset(PASSIVE_KEYS.get(letter, ()))
+        skipped = SKIPPED_KEYS.get(letter, frozenset())
         for key, assign in assigns.items():
-            if key in skipped or (letter in "vi" and key == "file"):
+            if key in skipped:
                 continue
             try:
                 params[key] = scope.number(assign.value)
@@ -796,11 +814,15 @@ class _Elaborator:
         value: float | None = None
         behaviour: Behaviour | None = None
         if given is not None:
-            behaviour = self.behaviour_of(given, block)
-            if behaviour is not None and not (
-                behaviour.nets or behaviour.currents or behaviour.dynamic
-            ):
-                behaviour = None  # an expression of parameters only: a plain value
+            # Only an expression that reads voltages, currents or time is behavioural; one
+            # of parameters only is a plain value (the common case, kept fast).
+            expression = (
+                block.scope.compile(given)
+                if isinstance(given, Expr) and _may_be_behavioural(given.text)
+                else None
+            )
+            if expression is not None and expression.behavioural:
+                behaviour = self.behaviour(expression, block, given.span)
             if behaviour is None:
                 value = block.scope.number(given)
             else:
@@ -1168,6 +1190,21 @@ def _flat_values(group: Group) -> list[Field]:
         elif not isinstance(item, Assign):
             out.append(item)
     return out
+
+
+def _is_tc(item: Field) -> bool:
+    return (isinstance(item, Assign) and item.key == "tc") or (
+        isinstance(item, Word) and item.text == "tc"
+    )
+
+
+def _may_be_behavioural(text: str) -> bool:
+    """A cheap test before compiling: a reading needs "(" (V(), I(), ddt()) or a name of
+    the simulator's state (time, temp)."""
+    if "(" in text:
+        return True
+    lowered = text.lower()
+    return "time" in lowered or "temp" in lowered
 
 
 def _valued_by_expression(element: Element) -> bool:

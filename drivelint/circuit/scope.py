@@ -163,7 +163,9 @@ class Scope:
             return number
         try:
             expression = compile_expression(stripped, self.limits)
-            return expression.evaluate(self.environment(depth))  # type: ignore[arg-type]
+            if expression.calls:
+                return expression.evaluate(self.environment(depth))  # type: ignore[arg-type]
+            return expression.evaluate(lambda name: self.param(name, depth))
         except ExpressionError as exc:
             offset = max(exc.offset, 0) + (len(text) - len(text.lstrip()))
             raise self.error(
