@@ -135,22 +135,25 @@ class LogicalLine:
     segments: list[tuple[int, int, int]]
     # Continuation pieces not yet joined onto ``text`` (joined once, by ``finish``, so a
     # statement of many '+' lines is built in linear time).
-    pieces: list[str] = field(default_factory=list, repr=False)
-    length: int = -1
+    pieces: list[str] | None = field(default=None, repr=False)
+    extra: int = 0  # characters in ``pieces``
 
-    def __post_init__(self) -> None:
-        self.length = len(self.text)
+    @property
+    def length(self) -> int:
+        return len(self.text) + self.extra
 
     def append(self, piece: str, line: int, column: int) -> None:
         """Add a continuation line's text, after one space."""
         self.segments.append((self.length + 1, line, column))
+        if self.pieces is None:
+            self.pieces = []
         self.pieces.append(" " + piece)
-        self.length += 1 + len(piece)
+        self.extra += 1 + len(piece)
 
     def finish(self) -> LogicalLine:
         if self.pieces:
             self.text = self.text + "".join(self.pieces)
-            self.pieces = []
+            self.pieces, self.extra = None, 0
         return self
 
     def span_at(self, offset: int) -> Span:
