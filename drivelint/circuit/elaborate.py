@@ -966,6 +966,17 @@ class _Elaborator:
                     while index < len(items) and _looks_numeric(items[index]):
                         args.append(scope.number(items[index]))
                         index += 1
+            elif (
+                word in ("tbl", "table")
+                and index + 1 < len(items)
+                and isinstance(items[index + 1], Group)
+            ):
+                # LTspice's table source: its value a piecewise-linear function of the
+                # voltage across it (from memory: the LTspice help, "Current Source").
+                # Read as behavioural, table(V(n+, n-), x1, y1, ...).
+                group = items[index + 1]
+                assert isinstance(group, Group)
+                return self.source_table(element, base, nodes, group, block)
             elif word in UNSUPPORTED_WAVEFORMS:
                 self.report(
                     Severity.WARNING,
@@ -1006,6 +1017,25 @@ class _Elaborator:
             value=dc if dc is not None else (waveform.dc_level() if kind is None else None),
             waveform=waveform,
         )
+
+    def source_table(
+        self, element: Element, base: Device, nodes: Sequence[str], group: Group, block: _Block
+    ) -> Device:
+        from drivelint.netlist.expressions import ExpressionError, compile_expression
+
+        numbers = [block.scope.number(v) for v in _flat_values(group)]
+        text = "table(v(p, n), " + ", ".join(f"{n!r}" for n in numbers) + ")"
+        behaviour: Behaviour | None = None
+        try:
+            expression = compile_expression(text, self.limits)
+        except ExpressionError as exc:
+            raise self.fail(group.span, f"source '{element.name}': {exc.message}") from None
+        # The table reads the source's own terminals, named p and n here.
+        local = _Block(
+            block.scope, block.prefix, {**block.ports, "p": nodes[0], "n": nodes[1]}, block.chain
+        )
+        behaviour = self.behaviour(expression, local, group.span)
+        return _with(base, pins=tuple(zip(("p", "n"), nodes)), expression=text, behaviour=behaviour)
 
     def advance_sine(self, element: Element, args: list[float]) -> list[float]:
         """A SIN with a negative delay: the same sine started earlier, as a phase.

@@ -100,12 +100,18 @@ class Scope:
         return None
 
     def environment(self, depth: int = 0) -> object:
-        """The lookup expressions of this scope are evaluated with: parameters, .func."""
+        """The lookup expressions of this scope are evaluated with: parameters, .func.
+
+        A parameter value that reads the temperature (``temper``, e.g. a model
+        parameter) is taken at the nominal 27 °C, where ngspice evaluates it for the
+        operating point (ngspice manual, ".options": TEMP and TNOM default to 27 °C).
+        Node voltages and time have no value here.
+        """
         from drivelint.netlist.expressions import Environment
 
         return Environment(
             lambda name: self.param(name, depth),
-            None,
+            _nominal_temperature,
             self.find_function,
             self.limits.max_function_depth,
         )
@@ -163,7 +169,7 @@ class Scope:
             return number
         try:
             expression = compile_expression(stripped, self.limits)
-            if expression.calls:
+            if expression.calls or expression.dynamic:
                 return expression.evaluate(self.environment(depth))  # type: ignore[arg-type]
             return expression.evaluate(lambda name: self.param(name, depth))
         except ExpressionError as exc:
@@ -212,6 +218,10 @@ class Scope:
         if isinstance(item, Group):
             raise self.error(item.span, "expected a number, found a parenthesised list")
         raise self.error(item.span, f"expected a number, found '{item.key}=…'")
+
+
+def _nominal_temperature(kind: str, a: str, b: str | None) -> float | None:
+    return 27.0 if kind == "temp" else None
 
 
 _EXCERPT_CHARS = 60

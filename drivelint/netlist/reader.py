@@ -952,7 +952,7 @@ class _Reader:
         # The parentheses of a model card only group its parameters, and libraries are
         # loose with them (one too many is common): read them as spaces, which keeps
         # every offset.
-        text = "".join(" " if char in "()" else char for char in line.text)
+        text = _parentheses_as_spaces(line.text)
         fields = self.parse(LogicalLine(text, line.path, line.segments))[1:]
         if len(fields) < 2 or not isinstance(fields[0], Word) or not isinstance(fields[1], Word):
             raise self.fail(line.span, "expected '.model NAME TYPE (PARAM=VALUE …)'")
@@ -1161,6 +1161,15 @@ def _advance(text: str, start: int, end: int, state: _Nesting) -> None:
             state.braces += 1
         elif char == "}":
             state.braces -= 1
+
+
+def _parentheses_as_spaces(text: str) -> str:
+    """The text with its parentheses outside braces and quotes turned into spaces."""
+    chars = list(text)
+    for offset, char in _top_level(text):
+        if char in "()":
+            chars[offset] = " "
+    return "".join(chars)
 
 
 def _absent(name: str, folders: Sequence[Path]) -> bool:

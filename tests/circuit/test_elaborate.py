@@ -221,3 +221,39 @@ def test_instance_multiplier_parallels_the_devices_inside() -> None:
     )
     assert c.devices["xp.x1.r1"].multiplier == 30
     assert c.devices["x2"].multiplier == 2
+
+
+# ---------------------------------------------------------------------------
+# Dialect forms (issue 8); more in tests/dialects.
+
+
+def test_temperature_in_a_model_parameter_is_read_at_27_degrees() -> None:
+    # ngspice evaluates temper at the circuit temperature, 27 degC by default (ngspice
+    # manual, ".options": TEMP/TNOM); the braces keep their parentheses in a model card.
+    c = circuit(
+        "t\nV1 a 0 1\n.model dt d is={temper >= 25 ? 1e-10 : (temper+1)*1e-11}\nD1 a 0 dt\n"
+    )
+    assert errors(c) == []
+    assert c.devices["d1"].model is not None
+    assert c.devices["d1"].model.params["is"] == pytest.approx(1e-10)
+
+
+def test_ltspice_table_source_is_behavioural() -> None:
+    c = circuit("t\nV1 a 0 1\nI1 a 0 TBL(0 0 1 2m 2 3m)\n")
+    assert errors(c) == []
+    behaviour = c.devices["i1"].behaviour
+    assert behaviour is not None and behaviour.reads == ("a", "0")
+    assert behaviour.evaluate({"a": 1.5}) == pytest.approx(2.5e-3)
+
+
+def test_behavioural_value_inside_a_subcircuit_reads_flat_nets() -> None:
+    c = circuit(
+        "t\nV1 boot 0 12\nV2 sw 0 0\nX1 boot sw hold\n"
+        ".subckt hold b s\nC1 b s C='1u/(1+(V(b,s)/10)^2)'\nR1 b n 1k\nR2 n 0 R='1k+V(n)'\n.ends\n"
+    )
+    cap = c.devices["x1.c1"].behaviour
+    assert cap is not None and cap.reads == ("boot", "sw")
+    assert cap.evaluate({"boot": 10.0, "sw": 0.0}) == pytest.approx(0.5e-6)
+    assert c.devices["x1.c1"].value == pytest.approx(1e-6)
+    assert c.devices["x1.r2"].behaviour is not None
+    assert c.devices["x1.r2"].behaviour.reads == ("x1.n",)
