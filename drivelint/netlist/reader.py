@@ -674,10 +674,19 @@ class _Reader:
             elif card == ".global":
                 fields = self.parse(line)[1:]
                 self.emit(GlobalCard(tuple(f for f in fields if isinstance(f, Word)), line.span))
-            elif card in OPTION_CARDS:
-                self.emit(OptionCard(tuple(self.parse(line)[1:]), line.span))
-            elif card == ".tran":
-                self.emit(TranCard(tuple(self.parse(line)[1:]), line.span))
+            elif card in OPTION_CARDS or card == ".tran":
+                # Analysis and option cards never fail a read: a line that does not
+                # parse is a warning and left out.
+                try:
+                    fields = tuple(self.parse(line)[1:])
+                except DiagnosticError as exc:
+                    d = exc.diagnostic
+                    self.report(Severity.WARNING, d.span, f"'{card}' ignored: {d.message}", d.code)
+                    return
+                if card == ".tran":
+                    self.emit(TranCard(fields, line.span))
+                else:
+                    self.emit(OptionCard(fields, line.span))
             elif card in (".data", ".alter"):
                 self.report(
                     Severity.WARNING,
