@@ -678,15 +678,15 @@ class _Reader:
                 # Analysis and option cards never fail a read: a line that does not
                 # parse is a warning and left out.
                 try:
-                    fields = tuple(self.parse(line)[1:])
+                    card_fields = tuple(self.parse(line)[1:])
                 except DiagnosticError as exc:
                     d = exc.diagnostic
                     self.report(Severity.WARNING, d.span, f"'{card}' ignored: {d.message}", d.code)
                     return
                 if card == ".tran":
-                    self.emit(TranCard(fields, line.span))
+                    self.emit(TranCard(card_fields, line.span))
                 else:
-                    self.emit(OptionCard(fields, line.span))
+                    self.emit(OptionCard(card_fields, line.span))
             elif card in (".data", ".alter"):
                 self.report(
                     Severity.WARNING,
