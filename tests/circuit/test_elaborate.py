@@ -238,7 +238,7 @@ def test_temperature_in_a_model_parameter_is_read_at_27_degrees() -> None:
     assert c.devices["d1"].model.params["is"] == pytest.approx(1e-10)
 
 
-def test_ltspice_table_source_is_behavioural() -> None:
+def test_table_source_is_behavioural() -> None:
     c = circuit("t\nV1 a 0 1\nI1 a 0 TBL(0 0 1 2m 2 3m)\n")
     assert errors(c) == []
     behaviour = c.devices["i1"].behaviour
@@ -257,3 +257,23 @@ def test_behavioural_value_inside_a_subcircuit_reads_flat_nets() -> None:
     assert c.devices["x1.c1"].value == pytest.approx(1e-6)
     assert c.devices["x1.r2"].behaviour is not None
     assert c.devices["x1.r2"].behaviour.reads == ("x1.n",)
+
+
+def test_poly_and_table_are_bounded() -> None:
+    poly = circuit("t\nV1 a 0 1\nE1 o 0 POLY(40) " + "a 0 " * 40 + "1\n")
+    assert any("max_poly_dimensions" in m for m in errors(poly))
+    points = " ".join(f"({i},{i})" for i in range(2000))
+    table = circuit(f"t\nV1 a 0 1\nG1 o 0 TABLE {{V(a)}} = {points}\n")
+    assert errors(table) == []
+    assert any(
+        "TABLE of 'g1' is not evaluated" in d.message
+        for d in table.diagnostics
+        if d.severity is Severity.WARNING
+    )
+    assert table.devices["g1"].behaviour is None
+
+
+def test_if_condition_on_node_voltages_is_refused() -> None:
+    c = circuit("t\nV1 a 0 1\n.if (v(a) > 0)\nR1 a 0 1\n.endif\n")
+    assert any("must depend on parameters only" in m for m in errors(c))
+    assert "r1" not in c.devices

@@ -9,7 +9,7 @@ worked out by hand from the deck (the header says how), not taken from drivelint
 ``"ngspice": true`` marks the decks that ngspice 39 reads without a complaint
 (``ngspice -b``); those also join the ngspice cross-check in
 ``tests/circuit/test_ngspice_crosscheck.py``. The others use a construct ngspice does not
-have (PWL FILE=, .global_param, LTspice's limit/uramp/u, PSpice's "TC a b", ...).
+have (PWL FILE=, .global_param, the limit/uramp/u functions, "TC a b", ...).
 """
 
 from __future__ import annotations

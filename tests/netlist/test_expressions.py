@@ -568,7 +568,7 @@ def test_ngspice_evaluates_the_same_values(tmp_path: Path) -> None:
 # Dialect forms (issue 8). Function semantics: the ngspice manual's lists of
 # expression and B-source functions (chapters ".param" and "B source (ASRC)", section
 # numbers from memory), checked against ngspice 39 by the decks of tests/dialects where
-# ngspice has the function; limit, uramp, u, stp, table and if are PSpice/LTspice forms.
+# ngspice has the function; limit, uramp, u, stp, table and if come from other dialects.
 
 from drivelint.netlist.expressions import (  # noqa: E402
     BehaviouralValue,
