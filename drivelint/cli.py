@@ -281,7 +281,9 @@ def check_command(
         sys.exit(EXIT_ERROR)
     if exit_zero:
         sys.exit(EXIT_OK)
-    if stats.failed or any(f.severity >= threshold for r in results for f in r.findings):
+    # A file checked in part (status "partial") counts as a warning.
+    partial = threshold <= Severity.WARNING and any(r.circuit.partial for r in results)
+    if stats.failed or partial or any(f.severity >= threshold for r in results for f in r.findings):
         sys.exit(EXIT_FINDINGS)
     sys.exit(EXIT_OK)
 

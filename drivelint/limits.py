@@ -19,6 +19,10 @@ class Limits:
     max_expression_depth: int = 64
     max_param_recursion: int = 64
     max_devices: int = 2_000_000
+    max_if_nesting: int = 32
+    max_function_depth: int = 64
+    max_pwl_points: int = 1_000_000
+    max_poly_dimensions: int = 16
 
     @classmethod
     def names(cls) -> tuple[str, ...]:

@@ -11,6 +11,7 @@ from drivelint.checks.facts import StageFacts, devices_by_net
 from drivelint.checks.registry import Rule, registry
 from drivelint.circuit.model import Circuit
 from drivelint.diagnostics import Diagnostic, Severity
+from drivelint.netlist.statements import Missing
 from drivelint.ratings.directives import Acceptance, DirectiveSet, parse_directives
 from drivelint.ratings.parts import PartsLibrary
 from drivelint.ratings.ratings import RatingError, Ratings
@@ -51,6 +52,21 @@ def check_circuit(
     by_net = devices_by_net(circuit)
     for stage in stages:
         if not stage.floating:
+            continue
+        needs = _needs(circuit, stage)
+        if needs:
+            # A stage built around something the deck names but does not hold is not
+            # checked: its numbers would come from what is not there.
+            diagnostics.append(
+                Diagnostic(
+                    Severity.WARNING,
+                    stage.span,
+                    f"stage of {stage.switch} not checked: needs "
+                    + ", ".join(m.describe() for m in needs),
+                    circuit.line_text(stage.span),
+                    "not-checked",
+                )
+            )
             continue
         facts = StageFacts(stage, circuit, ratings, directives, conditions, by_net)
         for rule in rules.values():
@@ -108,6 +124,16 @@ def check_circuit(
         tuple(diagnostics),
         tuple(sorted(accepted, key=Finding.sort_key)),
     )
+
+
+def _needs(circuit: Circuit, stage: DriveStage) -> tuple[Missing, ...]:
+    """What is missing that the stage's devices or its gate, source and boot nets need."""
+    if not circuit.missing:
+        return ()
+    nets = [stage.gate, stage.source, stage.drain]
+    if stage.supply.boot_net:
+        nets.append(stage.supply.boot_net)
+    return circuit.needs((stage.switch, *stage.related), nets)
 
 
 def _with_severity(finding: Finding, severity: Severity) -> Finding:

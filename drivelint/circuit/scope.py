@@ -9,10 +9,14 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 from drivelint.diagnostics import Diagnostic, DiagnosticError, Severity, Span
 from drivelint.limits import Limits
-from drivelint.netlist.statements import Expr, Field, Group, ModelCard, Subckt, Word
+from drivelint.netlist.statements import Expr, Field, FuncCard, Group, ModelCard, Subckt, Word
+
+if TYPE_CHECKING:
+    from drivelint.netlist.expressions import Expression, UserFunction
 
 
 @dataclass(slots=True)
@@ -35,8 +39,10 @@ class Scope:
     params: dict[str, ParamDef] = field(default_factory=dict)
     subckts: dict[str, Subckt] = field(default_factory=dict)
     models: dict[str, ModelCard] = field(default_factory=dict)
+    funcs: dict[str, FuncCard] = field(default_factory=dict)
     _values: dict[str, float] = field(default_factory=dict)
     _busy: list[str] = field(default_factory=list)
+    _compiled: dict[str, UserFunction] = field(default_factory=dict)
 
     # -- look-ups through the hierarchy ---------------------------------------------
 
@@ -57,6 +63,58 @@ class Scope:
                 return found, scope
             scope = scope.parent
         return None
+
+    def forget(self, name: str) -> None:
+        """Drop a memoised value (its definition has just been replaced)."""
+        self._values.pop(name, None)
+
+    def find_function(self, name: str) -> UserFunction | None:
+        """A ``.func`` visible here, compiled once per defining scope."""
+        from drivelint.netlist.expressions import (
+            ExpressionError,
+            UserFunction,
+            compile_expression,
+        )
+
+        scope: Scope | None = self
+        while scope is not None:
+            card = scope.funcs.get(name)
+            if card is not None:
+                compiled = scope._compiled.get(name)
+                if compiled is None:
+                    try:
+                        body = compile_expression(card.body.text, self.limits)
+                    except ExpressionError as exc:
+                        raise self.error(
+                            Span(
+                                card.body.span.path,
+                                card.body.span.line,
+                                card.body.span.column + exc.offset,
+                            ),
+                            f"in '.func {name}': {exc.message}",
+                        ) from None
+                    compiled = UserFunction(name, card.params, body)
+                    scope._compiled[name] = compiled
+                return compiled
+            scope = scope.parent
+        return None
+
+    def environment(self, depth: int = 0) -> object:
+        """The lookup expressions of this scope are evaluated with: parameters, .func.
+
+        A parameter value that reads the temperature (``temper``, e.g. a model
+        parameter) is taken at the nominal 27 °C, where ngspice evaluates it for the
+        operating point (ngspice manual, ".options": TEMP and TNOM default to 27 °C).
+        Node voltages and time have no value here.
+        """
+        from drivelint.netlist.expressions import Environment
+
+        return Environment(
+            lambda name: self.param(name, depth),
+            _nominal_temperature,
+            self.find_function,
+            self.limits.max_function_depth,
+        )
 
     def param(self, name: str, depth: int = 0) -> float | None:
         scope: Scope | None = self
@@ -111,7 +169,34 @@ class Scope:
             return number
         try:
             expression = compile_expression(stripped, self.limits)
+            if expression.calls or expression.dynamic:
+                return expression.evaluate(self.environment(depth))  # type: ignore[arg-type]
             return expression.evaluate(lambda name: self.param(name, depth))
+        except ExpressionError as exc:
+            offset = max(exc.offset, 0) + (len(text) - len(text.lstrip()))
+            raise self.error(
+                Span(span.path, span.line, span.column + offset),
+                f"in expression '{_excerpt(stripped)}': {exc.message}",
+            ) from None
+
+    def compile(self, item: Field) -> Expression | None:
+        """The compiled expression of a value field, or None for a plain number."""
+        from drivelint.netlist.expressions import ExpressionError, compile_expression
+        from drivelint.netlist.values import parse_number
+
+        if isinstance(item, Word):
+            if parse_number(item.text) is not None:
+                return None
+            text, span = item.text, item.span
+        elif isinstance(item, Expr):
+            text, span = item.text, item.span
+        else:
+            return None
+        stripped = text.strip()
+        if _is_plain_number(stripped):
+            return None
+        try:
+            return compile_expression(stripped, self.limits)
         except ExpressionError as exc:
             offset = max(exc.offset, 0) + (len(text) - len(text.lstrip()))
             raise self.error(
@@ -133,6 +218,10 @@ class Scope:
         if isinstance(item, Group):
             raise self.error(item.span, "expected a number, found a parenthesised list")
         raise self.error(item.span, f"expected a number, found '{item.key}=…'")
+
+
+def _nominal_temperature(kind: str, a: str, b: str | None) -> float | None:
+    return 27.0 if kind == "temp" else None
 
 
 _EXCERPT_CHARS = 60

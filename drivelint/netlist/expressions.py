@@ -3,6 +3,13 @@
 Text is parsed with the lark grammar ``grammar/expr.lark`` and compiled into nested
 closures; no Python ``eval`` is involved at any point. Operator precedence and the
 power operator follow ngspice's front end (see the grammar file's header).
+
+An expression that reads node voltages or branch currents (``V(n)``, ``V(a,b)``,
+``I(Vsense)``), the simulation time or temperature, or a time-dependent function
+(``ddt``, ``sdt``, ``delay``) is *behavioural*: it compiles like any other, lists what it
+reads in ``probes`` and ``dynamic``, and evaluates only against a lookup that can answer
+those readings (see :class:`Environment`). User functions (``.func``) are looked up at
+evaluation time through the same lookup, with their recursion depth bounded.
 """
 
 from __future__ import annotations
@@ -10,7 +17,7 @@ from __future__ import annotations
 import math
 import operator
 import re
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Final, NoReturn, TypeAlias
@@ -23,6 +30,9 @@ from drivelint.netlist.values import parse_number
 
 Lookup: TypeAlias = Callable[[str], float | None]
 _Run: TypeAlias = Callable[[Lookup], float]
+# A behavioural reading: ("v", node, other node or None), ("i", source, None), or
+# ("time", "", None) / ("temp", "", None).
+Probe: TypeAlias = tuple[str, str, str | None]
 
 
 class ExpressionError(Exception):
@@ -36,6 +46,66 @@ class ExpressionError(Exception):
     def __reduce__(self) -> tuple[type[ExpressionError], tuple[str, int]]:
         # Keep the offset when the error crosses a process boundary (--jobs).
         return (type(self), (self.message, self.offset))
+
+
+class BehaviouralValue(ExpressionError):
+    """Raised when a behavioural expression is evaluated without node voltages to read.
+
+    Not an error in the netlist: the value exists in the simulator, only not here.
+    """
+
+
+@dataclass(frozen=True, slots=True)
+class UserFunction:
+    """A ``.func NAME(PARAMS) BODY`` definition, compiled."""
+
+    name: str
+    params: tuple[str, ...]
+    body: Expression
+
+
+class Environment:
+    """A lookup for behavioural expressions and user functions.
+
+    Called with a name it answers a parameter (as a plain lookup does); ``probe``
+    answers a node voltage, branch current, time or temperature; ``function`` finds a
+    ``.func`` definition. Subclass or pass callables; any of them may be None.
+    """
+
+    __slots__ = ("params", "probes", "functions", "depth", "limit")
+
+    def __init__(
+        self,
+        params: Lookup,
+        probes: Callable[[str, str, str | None], float | None] | None = None,
+        functions: Callable[[str], UserFunction | None] | None = None,
+        limit: int = 64,
+        depth: int = 0,
+    ) -> None:
+        self.params = params
+        self.probes = probes
+        self.functions = functions
+        self.limit = limit
+        self.depth = depth
+
+    def __call__(self, name: str) -> float | None:
+        return self.params(name)
+
+    def probe(self, kind: str, a: str, b: str | None) -> float | None:
+        return None if self.probes is None else self.probes(kind, a, b)
+
+    def function(self, name: str) -> UserFunction | None:
+        return None if self.functions is None else self.functions(name)
+
+    def inner(self, bound: Mapping[str, float]) -> Environment:
+        """The environment of a function body: its arguments first, then the caller's."""
+        outer = self.params
+
+        def params(name: str) -> float | None:
+            value = bound.get(name)
+            return value if value is not None else outer(name)
+
+        return Environment(params, self.probes, self.functions, self.limit, self.depth + 1)
 
 
 @dataclass(frozen=True)
@@ -52,10 +122,22 @@ class Expression:
     names: frozenset[str]
     constants: frozenset[str]
     _run: _Run = field(repr=False, compare=False)
+    probes: frozenset[Probe] = frozenset()
+    dynamic: bool = False  # reads time, temperature or a time-dependent function
+    calls: frozenset[str] = frozenset()  # user functions it calls
 
     def evaluate(self, lookup: Lookup) -> float:
-        """Value of the expression; ``lookup(name)`` gives a parameter's value or None."""
+        """Value of the expression; ``lookup(name)`` gives a parameter's value or None.
+
+        A behavioural expression needs an :class:`Environment` that answers its
+        readings; a plain lookup raises :class:`BehaviouralValue` instead.
+        """
         return self._run(lookup)
+
+    @property
+    def behavioural(self) -> bool:
+        """Reads node voltages, branch currents, time or temperature."""
+        return bool(self.probes) or self.dynamic
 
 
 def compile_expression(text: str, limits: Limits = Limits()) -> Expression:  # noqa: B008
@@ -139,6 +221,45 @@ def _sign(x: float) -> float:
     return 1.0 if x > 0 else -1.0 if x < 0 else 0.0
 
 
+def _signed_power(base: float, exponent: float) -> float:
+    """pwrs(x, y) = sgn(x)·|x|^y (ngspice manual, B source functions)."""
+    return _sign(base) * _magnitude_power(base, exponent)
+
+
+def _limit(x: float, a: float, b: float) -> float:
+    """The middle one of the three values: limit(x, lo, hi) clamps x when lo <= hi.
+
+    PSpice and ngspice's B sources document LIMIT(x, min, max); LTspice documents the
+    intermediate value of its three arguments, which is the same for min <= max and
+    does not depend on the order of the bounds, so that reading is kept.
+    """
+    return sorted((x, a, b))[1]
+
+
+def _step(x: float) -> float:
+    """u(x) / stp(x): 1 for x > 0, else 0 (ngspice manual, B source: u is the unit step)."""
+    return 1.0 if x > 0 else 0.0
+
+
+def _table(*values: float) -> float:
+    """table(x, x1, y1, x2, y2, …): linear interpolation, held flat beyond the ends.
+
+    The PSpice TABLE and LTspice table() forms; the points are sorted by x first.
+    """
+    x, rest = values[0], values[1:]
+    if len(rest) < 2 or len(rest) % 2:
+        raise _DomainError(f"table needs x, y pairs after its input; got {len(rest)} values")
+    points = sorted(zip(rest[0::2], rest[1::2], strict=True))
+    if x <= points[0][0]:
+        return points[0][1]
+    if x >= points[-1][0]:
+        return points[-1][1]
+    for (x0, y0), (x1, y1) in zip(points, points[1:], strict=False):
+        if x0 <= x <= x1:
+            return y0 if x1 == x0 else y0 + (y1 - y0) * (x - x0) / (x1 - x0)
+    return points[-1][1]  # pragma: no cover - the loop covers every x inside
+
+
 @dataclass(frozen=True, slots=True)
 class _Function:
     arity: int
@@ -181,9 +302,43 @@ _FUNCTIONS: Final[dict[str, _Function]] = {
     "max": _Function(2, True, lambda *args: max(args)),
     "pow": _Function(2, False, _pow),
     "pwr": _Function(2, False, _magnitude_power),
+    "pwrs": _Function(2, False, _signed_power),
+    "sqr": _unary(lambda x: x * x),
+    "fabs": _unary(abs),
+    "sign": _unary(_sign),
+    "limit": _Function(3, False, _limit),
+    "uramp": _unary(lambda x: x if x > 0 else 0.0),
+    "u": _unary(_step),
+    "stp": _unary(_step),
+    "hypot": _Function(2, False, math.hypot),
+    "atan2": _Function(2, False, math.atan2),
+    "table": _Function(3, True, _table),
+    "tbl": _Function(3, True, _table),
+    # Statistical functions of Monte Carlo decks read at their nominal value (the first
+    # argument), which is what one operating point of the design uses.
+    "agauss": _Function(3, False, lambda nominal, *_: nominal),
+    "gauss": _Function(3, False, lambda nominal, *_: nominal),
+    "aunif": _Function(2, False, lambda nominal, *_: nominal),
+    "unif": _Function(2, False, lambda nominal, *_: nominal),
 }
 
-FUNCTION_NAMES: Final = frozenset(_FUNCTIONS)
+# Time- or state-dependent functions: their value at the DC operating point (t = 0,
+# nothing integrated yet, a delay passing its input through), and they make the
+# expression behavioural.
+_DYNAMIC_FUNCTIONS: Final[dict[str, _Function]] = {
+    "ddt": _unary(lambda x: 0.0),
+    "sdt": _unary(lambda x: 0.0),
+    "idt": _Function(1, True, lambda *args: args[1] if len(args) > 1 else 0.0),
+    "delay": _Function(2, True, lambda x, *_: x),
+    "absdelay": _Function(2, True, lambda x, *_: x),
+}
+# if(c, a, b) (PSpice, LTspice) and ngspice's ternary_fcn(c, a, b): only the chosen
+# branch is evaluated, as with c ? a : b.
+_CONDITIONALS: Final = frozenset({"if", "ternary_fcn"})
+# Names that read the simulator's state rather than a parameter.
+_DYNAMIC_NAMES: Final = {"time": "time", "temp": "temp", "temper": "temp"}
+
+FUNCTION_NAMES: Final = frozenset(_FUNCTIONS) | frozenset(_DYNAMIC_FUNCTIONS) | _CONDITIONALS
 """Every built-in function name (lower case)."""
 
 
@@ -199,6 +354,9 @@ class _Node:
     names: frozenset[str] = frozenset()
     constants: frozenset[str] = frozenset()
     constant: bool = False
+    probes: frozenset[Probe] = frozenset()
+    dynamic: bool = False
+    calls: frozenset[str] = frozenset()
 
 
 def _no_parameters(name: str) -> float | None:
@@ -209,12 +367,15 @@ def _overflow(offset: int, what: str) -> NoReturn:
     raise ExpressionError(f"overflow: {what} is too large for a floating-point number", offset)
 
 
-def _make(run: _Run, children: Sequence[_Node], offset: int) -> _Node:
+def _make(run: _Run, children: Sequence[_Node], offset: int, dynamic: bool = False) -> _Node:
     """A node over ``children``; folded to a constant when they all are and it evaluates."""
-    depth = 1 + max(child.depth for child in children)
+    depth = 1 + max((child.depth for child in children), default=0)
     names = frozenset().union(*(child.names for child in children))
     constants = frozenset().union(*(child.constants for child in children))
-    if all(child.constant for child in children):
+    probes: frozenset[Probe] = frozenset().union(*(child.probes for child in children))
+    calls = frozenset().union(*(child.calls for child in children))
+    dynamic = dynamic or any(child.dynamic for child in children)
+    if children and all(child.constant for child in children) and not dynamic:
         try:
             value = run(_no_parameters)
         except ExpressionError:
@@ -222,7 +383,20 @@ def _make(run: _Run, children: Sequence[_Node], offset: int) -> _Node:
             pass
         else:
             return _Node(lambda lookup: value, depth, offset, names, constants, True)
-    return _Node(run, depth, offset, names, constants, False)
+    return _Node(run, depth, offset, names, constants, False, probes, dynamic, calls)
+
+
+def _read_probe(lookup: Lookup, probe: Probe, offset: int) -> float:
+    """A behavioural reading from the lookup, or BehaviouralValue when it cannot answer."""
+    reader = getattr(lookup, "probe", None)
+    value = reader(*probe) if reader is not None else None
+    if value is None:
+        kind, a, b = probe
+        what = {"time": "the simulation time", "temp": "the temperature"}.get(kind)
+        if what is None:
+            what = f"{kind.upper()}({a}{', ' + b if b else ''})"
+        raise BehaviouralValue(f"behavioural: the value depends on {what}", offset)
+    return float(value)
 
 
 Item: TypeAlias = "_Node | Token | tuple[_Node, ...] | None"
@@ -252,6 +426,16 @@ def _compile_name(items: list[Item]) -> _Node:
     name = str(token).lower()
     offset = token.start_pos or 0
     fallback = _CONSTANTS.get(name)
+    state = _DYNAMIC_NAMES.get(name)
+    if state is not None:
+        reading: Probe = (state, "", None)
+
+        def run_state(lookup: Lookup) -> float:
+            # A parameter of the same name wins, as for pi and e.
+            value = lookup(name)
+            return float(value) if value is not None else _read_probe(lookup, reading, offset)
+
+        return _Node(run_state, 1, offset, names=frozenset({name}), dynamic=True)
 
     def run(lookup: Lookup) -> float:
         value = lookup(name)
@@ -433,9 +617,15 @@ def _compile_call(items: list[Item]) -> _Node:
     args: tuple[_Node, ...] = arguments or ()
     name = str(token).lower()
     offset = token.start_pos or 0
+    if name in _CONDITIONALS:
+        return _compile_conditional_call(name, args, offset)
     function = _FUNCTIONS.get(name)
+    dynamic = False
     if function is None:
-        raise ExpressionError(f"unknown function '{token}'", offset)
+        function = _DYNAMIC_FUNCTIONS.get(name)
+        dynamic = function is not None
+    if function is None:
+        return _compile_user_call(str(token), args, offset)
     count = len(args)
     if function.variadic and count < function.arity:
         raise ExpressionError(
@@ -464,7 +654,78 @@ def _compile_call(items: list[Item]) -> _Node:
             _overflow(offset, f"the result of {name}()")
         return float(value)
 
+    return _make(run, args, offset, dynamic)
+
+
+def _compile_conditional_call(name: str, args: tuple[_Node, ...], offset: int) -> _Node:
+    if len(args) != 3:
+        raise ExpressionError(f"expected 3 arguments to {name}, got {len(args)}", offset)
+    test, yes, no = (arg.run for arg in args)
+
+    def run(lookup: Lookup) -> float:
+        return yes(lookup) if test(lookup) else no(lookup)
+
     return _make(run, args, offset)
+
+
+def _compile_user_call(spelled: str, args: tuple[_Node, ...], offset: int) -> _Node:
+    """A call of a ``.func`` user function, found through the lookup when evaluated."""
+    name = spelled.lower()
+    runs = tuple(arg.run for arg in args)
+
+    def run(lookup: Lookup) -> float:
+        finder = getattr(lookup, "function", None)
+        definition: UserFunction | None = finder(name) if finder is not None else None
+        if definition is None:
+            raise ExpressionError(f"unknown function '{spelled}'", offset)
+        if len(runs) != len(definition.params):
+            count = len(definition.params)
+            raise ExpressionError(
+                f"function '{name}' takes {count} {_plural(count)}, got {len(runs)}", offset
+            )
+        assert isinstance(lookup, Environment)
+        if lookup.depth >= lookup.limit:
+            raise ExpressionError(
+                f"user functions call each other more than {lookup.limit} levels deep "
+                "(limit max_function_depth)",
+                offset,
+            )
+        bound = {param: argument(lookup) for param, argument in zip(definition.params, runs)}
+        try:
+            return definition.body.evaluate(lookup.inner(bound))
+        except BehaviouralValue:
+            raise
+        except ExpressionError as error:
+            raise ExpressionError(f"in function '{name}': {error.message}", offset) from None
+
+    node = _make(run, args, offset)
+    return _Node(
+        run,
+        node.depth,
+        offset,
+        node.names,
+        node.constants,
+        False,
+        node.probes,
+        node.dynamic,
+        node.calls | {name},
+    )
+
+
+def _compile_probe(items: list[Item]) -> _Node:
+    token = _token(items[0])
+    kind = str(token)[0].lower()
+    first = str(_token(items[1])).lower()
+    second = str(_token(items[2])).lower() if items[2] is not None else None
+    if kind == "i" and second is not None:
+        raise ExpressionError("I(...) reads one source's current: expected I(name)", 0)
+    probe: Probe = (kind, first, second)
+    offset = token.start_pos or 0
+
+    def run(lookup: Lookup) -> float:
+        return _read_probe(lookup, probe, offset)
+
+    return _Node(run, 1, offset, probes=frozenset({probe}))
 
 
 # One handler per tree the grammar can build; tests check this table against it.
@@ -480,6 +741,7 @@ _HANDLERS: Final[dict[str, Callable[[list[Item]], _Node | tuple[_Node, ...]]]] =
     "disjunction": _compile_disjunction,
     "ternary": _compile_ternary,
     "call": _compile_call,
+    "probe": _compile_probe,
     "arguments": _compile_arguments,
 }
 
@@ -516,35 +778,38 @@ def _depth_error(limit: int, offset: int) -> ExpressionError:
 
 
 def _check_parentheses(text: str, limit: int) -> None:
-    """Balance and nesting of parentheses, checked before lark sees the text."""
-    opened: list[int] = []
+    """Balance and nesting of parentheses and braces, checked before lark sees the text."""
+    opened: list[tuple[str, int]] = []
+    closers = {")": "(", "}": "{"}
     for offset, char in enumerate(text):
-        if char == "(":
-            opened.append(offset)
+        if char in "({":
+            opened.append((char, offset))
             if len(opened) > limit:
                 raise _depth_error(limit, offset)
-        elif char == ")":
-            if not opened:
-                raise ExpressionError("unbalanced parenthesis: ')' has no matching '('", offset)
+        elif char in closers:
+            if not opened or opened[-1][0] != closers[char]:
+                kind = "parenthesis" if char == ")" else "brace"
+                raise ExpressionError(
+                    f"unbalanced {kind}: '{char}' has no matching '{closers[char]}'", offset
+                )
             opened.pop()
     if opened:
-        raise ExpressionError("unbalanced parenthesis: '(' is never closed", opened[-1])
+        char, offset = opened[-1]
+        kind = "parenthesis" if char == "(" else "brace"
+        raise ExpressionError(f"unbalanced {kind}: '{char}' is never closed", offset)
 
 
 # The parser waits for an operand exactly when it would take a number or a name
 # there (+, - and '(' also start operands, but they can follow one too).
 _OPERANDS: Final = frozenset({"NUMBER", "NAME"})
-_OPERAND_STARTS: Final = frozenset({"NUMBER", "NAME", "LPAR", "BANG"})
+_OPERAND_STARTS: Final = frozenset({"NUMBER", "NAME", "LPAR", "LBRACE", "PROBE", "BANG"})
 
 # Characters people type from other languages, with what to write instead.
 _CHARACTER_HINTS: Final = {
     "=": "; to compare write '=='",
-    "&": "; logical and is '&&'",
-    "|": "; logical or is '||'",
     "%": "; modulo ('%') is not supported",
     "\\": "; integer division ('\\') is not supported",
-    "{": "; braces cannot be nested inside an expression",
-    "}": "; braces cannot be nested inside an expression",
+    "}": "; a '}' without its '{'",
     "'": "; quotes cannot be nested inside an expression",
     '"': "; strings are not values",
 }
@@ -570,6 +835,12 @@ def _syntax_error(text: str, error: UnexpectedInput) -> ExpressionError:
         return ExpressionError(f"unexpected character '{char}'{hint}", offset)
     assert isinstance(error, UnexpectedToken)
     token = error.token
+    if token.type == "PROBED":
+        # Lexed as a node name only because nothing else matched: a stray character.
+        offset = token.start_pos or 0
+        char = text[offset] if offset < len(text) else ""
+        hint = _CHARACTER_HINTS.get(char, "")
+        return ExpressionError(f"unexpected character '{char}'{hint}", offset)
     expected = set(error.expected)
     at_end = token.type == "$END"
     offset = len(text) if at_end else (token.start_pos or 0)
@@ -642,7 +913,9 @@ def _compile_cached(text: str, limits: Limits) -> Expression:
     except UnexpectedInput as error:
         raise _syntax_error(text, error) from None
     root = _compile_tree(tree, limits.max_expression_depth)
-    return Expression(text, root.names, root.constants, root.run)
+    return Expression(
+        text, root.names, root.constants, root.run, root.probes, root.dynamic, root.calls
+    )
 
 
 def _fail_empty() -> NoReturn:

@@ -27,8 +27,11 @@ from drivelint.netlist.statements import (
     Element,
     Expr,
     Field,
+    FuncCard,
     GlobalCard,
     Group,
+    IfBlock,
+    Missing,
     ModelCard,
     OptionCard,
     ParamCard,
@@ -39,9 +42,9 @@ from drivelint.netlist.statements import (
 )
 
 DIRECTIVE_PREFIX = "drivelint:"
-ELEMENT_LETTERS = frozenset("rclkdqmjvieifghbswx")
+ELEMENT_LETTERS = frozenset("rclkdqmjvieifghbswxt")
 # Element kinds SPICE knows but drivelint does not model; they are skipped with a warning.
-UNSUPPORTED_LETTERS = frozenset("toupyzan")
+UNSUPPORTED_LETTERS = frozenset("oupyzan")
 # Analysis, output and control cards: recognised and skipped without comment.
 IGNORED_CARDS = frozenset(
     {
@@ -66,6 +69,9 @@ IGNORED_CARDS = frozenset(
         ".width",
         ".title",
         ".csparam",
+        ".protect",
+        ".unprotect",
+        ".end_of_file",
         ".step",
         ".backanno",
         ".savebias",
@@ -80,6 +86,8 @@ IGNORED_CARDS = frozenset(
     }
 )
 OPTION_CARDS = frozenset({".option", ".options", ".opt"})
+# .model types of numerical (device-simulation) models, whose sub-lines are a mesh.
+NUMERICAL_DEVICES = frozenset({"numd", "nbjt", "numos"})
 INCLUDE_CARDS = frozenset({".include", ".inc", ".incl"})
 
 _ASSIGN_START = re.compile(r"([A-Za-z_][A-Za-z0-9_.]*)\s*=(?!=)")
@@ -87,10 +95,24 @@ _ASSIGN_START = re.compile(r"([A-Za-z_][A-Za-z0-9_.]*)\s*=(?!=)")
 # grammar: same fields, a tenth of the time. tests/netlist/test_reader.py holds the two
 # paths to the same output.
 _FLAT_CHARS = frozenset("(),")
-_BEHAVIOURAL = re.compile(r"\s(v|i|value|vol|cur)\s*=\s*", re.IGNORECASE)
+# ``V=``/``I=`` of B sources, ``VALUE=`` of E/G (the '=' may be left out before a brace, as
+# PSpice writes ``VALUE {…}``).
+_BEHAVIOURAL = re.compile(r"\s(v|i|value|vol|cur)\s*(?:=\s*|(?=\{))", re.IGNORECASE)
+# PSpice's table form of E/G: ``TABLE {expr} [=] (x1,y1) (x2,y2) …``.
+_TABLE_FORM = re.compile(r"\stable\s*(?=\{)", re.IGNORECASE)
+_TABLE_ITEM = re.compile(r"\{[^{}]*\}|[^\s(),={}]+")
+# The same nested-brace pattern as BRACE_EXPR in grammar/netlist.lark.
+_BRACED = r"\{(?:[^{}]|\{(?:[^{}]|\{(?:[^{}]|\{[^{}]*\})*\})*\})*\}"
 _FLAT_FIELD = re.compile(
-    r"\s*(?:([^\s=(),{}']+)(?:\s*=\s*([^\s=(),{}']+|\{[^{}]*\}|'[^']*'))?|(\{[^{}]*\}|'[^']*'))\s*"
+    r"\s*(?:([^\s=(),{}']+)(?:\s*=\s*([^\s=(),{}']+|"
+    + _BRACED
+    + r"|'[^']*'))?|("
+    + _BRACED
+    + r"|'[^']*'))\s*"
 )
+_FUNC_HEAD = re.compile(r"\.func\s+([A-Za-z_][A-Za-z0-9_.]*)\s*\(([^)]*)\)\s*=?\s*", re.IGNORECASE)
+# A lone '=' in a .if condition, which ngspice reads as '=='.
+_LONE_EQUALS = re.compile(r"(?<![=!<>])=(?!=)")
 
 
 @dataclass(frozen=True, slots=True)
@@ -111,6 +133,28 @@ class LogicalLine:
     path: str
     # (offset in text, physical line, physical column of that offset), sorted by offset.
     segments: list[tuple[int, int, int]]
+    # Continuation pieces not yet joined onto ``text`` (joined once, by ``finish``, so a
+    # statement of many '+' lines is built in linear time).
+    pieces: list[str] | None = field(default=None, repr=False)
+    extra: int = 0  # characters in ``pieces``
+
+    @property
+    def length(self) -> int:
+        return len(self.text) + self.extra
+
+    def append(self, piece: str, line: int, column: int) -> None:
+        """Add a continuation line's text, after one space."""
+        self.segments.append((self.length + 1, line, column))
+        if self.pieces is None:
+            self.pieces = []
+        self.pieces.append(" " + piece)
+        self.extra += 1 + len(piece)
+
+    def finish(self) -> LogicalLine:
+        if self.pieces:
+            self.text = self.text + "".join(self.pieces)
+            self.pieces, self.extra = None, 0
+        return self
 
     def span_at(self, offset: int) -> Span:
         if len(self.segments) == 1:
@@ -124,6 +168,18 @@ class LogicalLine:
     def span(self) -> Span:
         start, line, column = self.segments[0]
         return Span(self.path, line, column)
+
+
+@dataclass(slots=True)
+class _OpenIf:
+    """An ``.if`` block being collected: its branches so far."""
+
+    span: Span
+    branches: list[tuple[Expr | None, list[Statement]]]
+    has_else: bool = False
+
+    def block(self) -> IfBlock:
+        return IfBlock(tuple((c, tuple(b)) for c, b in self.branches), self.span)
 
 
 class _LineParser:
@@ -268,9 +324,10 @@ class _Reader:
         self.sources: dict[str, tuple[str, ...]] = {}
         self.stack: list[tuple[Path, str | None]] = []
         self.title = ""
-        # Open .subckt blocks: (header statement fields, body being collected).
-        self.blocks: list[tuple[Element, list[Statement]]] = []
+        # Open .subckt blocks (header statement, body being collected) and .if blocks.
+        self.blocks: list[tuple[Element, list[Statement]] | _OpenIf] = []
         self.top: list[Statement] = []
+        self.missing: list[Missing] = []
 
     # -- diagnostics ---------------------------------------------------------------
 
@@ -352,8 +409,19 @@ class _Reader:
         dropped = False
         for number, raw in enumerate(lines, start=1):
             if has_title and number == 1:
-                self.title = raw.strip()
-                continue
+                head = raw.lstrip()[:8].lower()
+                if not (head.startswith(".subckt") or head.startswith(".model")):
+                    self.title = raw.strip()
+                    continue
+                # A model library checked on its own: its first line is a card, not a
+                # title (ngspice would drop it as one, and the library's .ends with it).
+                self.report(
+                    Severity.NOTE,
+                    Span(shown, number, 1),
+                    f"first line is a '{head.split()[0]}' card, read as one: the file is taken "
+                    "for a library without a title line",
+                    "title",
+                )
             if len(raw) > self.limits.max_line_chars:
                 self.report(
                     Severity.ERROR,
@@ -366,7 +434,7 @@ class _Reader:
                 if head == "*":
                     continue  # a comment line, transparent however long
                 if current is not None and head != "+":
-                    yield current
+                    yield current.finish()
                 current, comment_line, dropped = None, None, True
                 continue
             stripped = raw.lstrip()
@@ -395,7 +463,7 @@ class _Reader:
                     )
                     continue
                 piece = strip_inline_comment(stripped[1:])
-                if len(current.text) + len(piece) > self.limits.max_line_chars:
+                if current.length + len(piece) > self.limits.max_line_chars:
                     self.report(
                         Severity.ERROR,
                         Span(shown, number, indent + 1),
@@ -404,13 +472,12 @@ class _Reader:
                     )
                     current, dropped = None, True
                     continue
-                current.segments.append((len(current.text) + 1, number, indent + 2))
-                current.text += " " + piece
+                current.append(piece, number, indent + 2)
                 continue
             text = strip_inline_comment(stripped)
             dropped = False
             if current is not None:
-                yield current
+                yield current.finish()
                 current = None
             if not text.strip():
                 # A line of inline comment only (``; …``, ``$ …``). Unlike a '*' line it
@@ -421,7 +488,7 @@ class _Reader:
             comment_line = None
             current = LogicalLine(text, shown, [(0, number, indent + 1)])
         if current is not None:
-            yield current
+            yield current.finish()
 
     def note_directive(self, comment: str, shown: str, number: int, indent: int) -> None:
         body = comment[1:].lstrip()
@@ -435,7 +502,69 @@ class _Reader:
     # -- statements ------------------------------------------------------------------
 
     def emit(self, statement: Statement) -> None:
-        (self.blocks[-1][1] if self.blocks else self.top).append(statement)
+        if not self.blocks:
+            self.top.append(statement)
+            return
+        block = self.blocks[-1]
+        if isinstance(block, _OpenIf):
+            block.branches[-1][1].append(statement)
+        else:
+            block[1].append(statement)
+
+    def note_missing(self, kind: str, name: str, span: Span, message: str) -> None:
+        """Record something the deck names that is not there; the read goes on without it."""
+        self.missing.append(Missing(kind, name, span))
+        self.report(Severity.WARNING, span, message, "missing")
+
+    # -- .if / .elseif / .else / .endif ------------------------------------------------
+
+    def conditional(self, line: LogicalLine, card: str) -> None:
+        rest = line.text[len(card) :]
+        start = len(card) + len(rest) - len(rest.lstrip())
+        condition = Expr(_LONE_EQUALS.sub("==", rest.strip()), line.span_at(start))
+        top = self.blocks[-1] if self.blocks else None
+        if card == ".if":
+            depth = sum(isinstance(b, _OpenIf) for b in self.blocks)
+            if depth >= self.limits.max_if_nesting:
+                raise self.fail(
+                    line.span,
+                    f"'.if' blocks nested deeper than {self.limits.max_if_nesting} "
+                    "(limit max_if_nesting)",
+                    "limit",
+                )
+            if not condition.text:
+                raise self.fail(line.span, "'.if' needs a condition: expected '.if (EXPRESSION)'")
+            self.blocks.append(_OpenIf(line.span, [(condition, [])]))
+            return
+        if not isinstance(top, _OpenIf):
+            raise self.fail(line.span, f"'{card}' without an open '.if'", "if")
+        if top.has_else and card != ".endif":
+            raise self.fail(
+                line.span, f"'{card}' after the '.else' of the '.if' on line {top.span.line}", "if"
+            )
+        if card == ".elseif":
+            if not condition.text:
+                raise self.fail(line.span, "'.elseif' needs a condition")
+            top.branches.append((condition, []))
+        elif card == ".else":
+            top.branches.append((None, []))
+            top.has_else = True
+        else:  # .endif
+            self.blocks.pop()
+            self.emit(top.block())
+
+    def close_open_ifs(self, span: Span, why: str) -> None:
+        """Close the .if blocks on top of the stack, reporting each as unbalanced."""
+        while self.blocks and isinstance(self.blocks[-1], _OpenIf):
+            open_if = self.blocks.pop()
+            assert isinstance(open_if, _OpenIf)
+            self.report(
+                Severity.ERROR,
+                open_if.span,
+                f"'.if' has no '.endif' ({why} at {span.path}:{span.line})",
+                "if",
+            )
+            self.emit(open_if.block())
 
     def read_file(self, path: Path, section: str | None, origin: Span | None) -> bool:
         """Read one file (or one library section of it); False if the section was absent."""
@@ -530,8 +659,12 @@ class _Reader:
                 self.include(line, path, library=False)
             elif card in IGNORED_CARDS:
                 return
-            elif card == ".param":
+            elif card in (".param", ".global_param"):
                 self.emit(ParamCard(tuple(self.assignments(line, len(card))), line.span))
+            elif card in (".if", ".elseif", ".else", ".endif"):
+                self.conditional(line, card)
+            elif card == ".func":
+                self.emit(self.function(line))
             elif card == ".subckt":
                 self.open_subckt(line)
             elif card == ".ends":
@@ -541,11 +674,20 @@ class _Reader:
             elif card == ".global":
                 fields = self.parse(line)[1:]
                 self.emit(GlobalCard(tuple(f for f in fields if isinstance(f, Word)), line.span))
-            elif card in OPTION_CARDS:
-                self.emit(OptionCard(tuple(self.parse(line)[1:]), line.span))
-            elif card == ".tran":
-                self.emit(TranCard(tuple(self.parse(line)[1:]), line.span))
-            elif card in (".func", ".if", ".elseif", ".else", ".endif", ".data", ".alter"):
+            elif card in OPTION_CARDS or card == ".tran":
+                # Analysis and option cards never fail a read: a line that does not
+                # parse is a warning and left out.
+                try:
+                    card_fields = tuple(self.parse(line)[1:])
+                except DiagnosticError as exc:
+                    d = exc.diagnostic
+                    self.report(Severity.WARNING, d.span, f"'{card}' ignored: {d.message}", d.code)
+                    return
+                if card == ".tran":
+                    self.emit(TranCard(card_fields, line.span))
+                else:
+                    self.emit(OptionCard(card_fields, line.span))
+            elif card in (".data", ".alter"):
                 self.report(
                     Severity.WARNING,
                     line.span,
@@ -562,11 +704,17 @@ class _Reader:
             return
         letter = card[:1]
         if letter in ELEMENT_LETTERS:
-            behavioural = self.behavioural(line) if letter in "beg" else None
+            behavioural = None
+            if letter in "eg":
+                behavioural = self.table_form(line)
+            if behavioural is None and letter in "beg":
+                behavioural = self.behavioural(line)
             fields = behavioural if behavioural is not None else self.parse(line)
             name = fields[0]
             if not isinstance(name, Word):
                 raise self.fail(line.span, "expected an element name at the start of the line")
+            if letter in "vi":
+                fields = self.pwl_file(fields, path)
             self.emit(Element(name.text, tuple(fields[1:]), line.span))
         elif letter in UNSUPPORTED_LETTERS:
             self.report(
@@ -592,17 +740,132 @@ class _Reader:
         match = _BEHAVIOURAL.search(line.text)
         if match is None:
             return None
-        head = LogicalLine(line.text[: match.start()], line.path, line.segments)
+        text = line.text
+        head = LogicalLine(text[: match.start()], line.path, line.segments)
         fields = self.parse(head)
-        value = line.text[match.end() :].strip()
-        offset = line.text.index(value, match.end()) if value else match.end()
+        # Instance parameters after the expression (tc1=…, m=…) end it.
+        cut = len(text)
+        state = _Nesting()
+        position = match.end()
+        for assign in _ASSIGN_START.finditer(text, match.end()):
+            _advance(text, position, assign.start(), state)
+            position = assign.start()
+            if state.top_level and text[assign.start() - 1] in " \t":
+                cut = assign.start()
+                break
+        value = text[match.end() : cut].strip()
+        offset = text.index(value, match.end()) if value else match.end()
         if not value:
             raise self.fail(line.span_at(match.end()), f"'{match.group(1)}=' has no expression")
-        if value[0] == "{" and value[-1] == "}" or value[0] == "'" and value[-1] == "'":
-            value, offset = value[1:-1], offset + 1
+        value, offset = _unwrap(value, offset)
         key = match.group(1).lower()
         fields.append(Assign(key, Expr(value, line.span_at(offset)), line.span_at(match.start(1))))
+        if cut < len(text):
+            # Parse the tail in place: padding keeps every offset where it was.
+            tail = LogicalLine(" " * cut + text[cut:], line.path, line.segments)
+            fields.extend(self.parse(tail))
         return fields
+
+    def table_form(self, line: LogicalLine) -> list[Field] | None:
+        """``E1 n+ n- TABLE {expr} [=] (x1, y1) (x2, y2) …`` as ``table=`` and its points.
+
+        The points are read as a flat list of values however they are grouped, since
+        real libraries are loose with the parentheses around them.
+        """
+        match = _TABLE_FORM.search(line.text)
+        if match is None:
+            return None
+        head = LogicalLine(line.text[: match.start()], line.path, line.segments)
+        fields = self.parse(head)
+        brace = match.end()
+        depth, end = 0, brace
+        for end in range(brace, len(line.text)):
+            char = line.text[end]
+            depth += (char == "{") - (char == "}")
+            if depth == 0:
+                break
+        if depth:
+            raise self.fail(line.span_at(brace), "the TABLE input expression is never closed")
+        expression = Expr(line.text[brace + 1 : end], line.span_at(brace + 1))
+        points: list[Field] = []
+        for item in _TABLE_ITEM.finditer(line.text, end + 1):
+            text = item.group()
+            span = line.span_at(item.start())
+            if text[0] == "{":
+                points.append(Expr(text[1:-1], line.span_at(item.start() + 1)))
+            else:
+                points.append(Word(text.lower(), text, span))
+        if len(points) < 2 or len(points) % 2:
+            raise self.fail(
+                line.span_at(end + 1),
+                f"TABLE needs (input, output) pairs after its expression; found {len(points)} "
+                "values",
+            )
+        fields.append(Assign("table", expression, line.span_at(match.start() + 1)))
+        fields.append(Group(tuple(points), line.span_at(end + 1)))
+        return fields
+
+    def pwl_file(self, fields: list[Field], path: Path) -> list[Field]:
+        """``PWL FILE=name``: the file's time-value pairs, read in place of the keyword.
+
+        The file is read as an include is (the same root sandbox, size bound and
+        refusal of binary files), and its numbers keep their own spans.
+        """
+        for index, item in enumerate(fields):
+            if not (isinstance(item, Assign) and item.key == "file" and index > 0):
+                continue
+            before = fields[index - 1]
+            if not (isinstance(before, Word) and before.text == "pwl"):
+                continue
+            value = item.value
+            name = value.raw if isinstance(value, Word) else getattr(value, "text", "")
+            name = name.strip().strip('"')
+            target = self.resolve(name, path, value.span)
+            if target is None:
+                return fields
+            if not target.exists():
+                self.note_missing(
+                    "include",
+                    name,
+                    value.span,
+                    f"PWL file '{name}' not found; the source is read without its waveform",
+                )
+                return fields[: index - 1] + fields[index + 1 :]
+            shown = self.display(target)
+            lines = self.sources.get(shown) or self.load(target, shown, value.span)
+            if lines is None:
+                return fields[: index - 1] + fields[index + 1 :]
+            points: list[Field] = []
+            for number, text in enumerate(lines, start=1):
+                body = text.split("*", 1)[0].split(";", 1)[0]
+                for token in re.finditer(r"[^\s,()]+", body):
+                    if len(points) >= self.limits.max_pwl_points:
+                        raise self.fail(
+                            value.span,
+                            f"PWL file '{name}' holds more than {self.limits.max_pwl_points} "
+                            "values (limit max_pwl_points)",
+                            "limit",
+                        )
+                    word = token.group()
+                    points.append(Word(word.lower(), word, Span(shown, number, token.start() + 1)))
+            return [*fields[:index], Group(tuple(points), value.span), *fields[index + 1 :]]
+        return fields
+
+    def function(self, line: LogicalLine) -> FuncCard:
+        """``.func NAME(A, B) {BODY}`` (also with quotes, or with nothing around the body)."""
+        match = _FUNC_HEAD.match(line.text)
+        if match is None:
+            raise self.fail(line.span, "expected '.func NAME(PARAM, …) {EXPRESSION}'")
+        params = tuple(p.lower() for p in re.split(r"[\s,]+", match.group(2).strip()) if p)
+        body = line.text[match.end() :].strip()
+        offset = line.text.index(body, match.end()) if body else match.end()
+        if body[:1] + body[-1:] in ("{}", "''"):
+            body, offset = body[1:-1], offset + 1
+        if not body.strip():
+            raise self.fail(line.span_at(match.end()), f"'.func {match.group(1)}' has no body")
+        if len(set(params)) != len(params):
+            raise self.fail(line.span, f"'.func {match.group(1)}' names a parameter twice")
+        return FuncCard(match.group(1).lower(), params, Expr(body, line.span_at(offset)), line.span)
 
     def parse(self, line: LogicalLine) -> list[Field]:
         if _FLAT_CHARS.isdisjoint(line.text):
@@ -653,9 +916,22 @@ class _Reader:
         return _convert(tree, line)
 
     def assignments(self, line: LogicalLine, start: int) -> Iterator[Assign]:
-        """``name = expression`` pairs, where an expression may contain spaces."""
+        """``name = expression`` pairs, where an expression may contain spaces.
+
+        One pass over the text: the nesting between two candidate ``name=`` matches is
+        carried forward (``_advance``), so a card of many assignments is read in time
+        linear in its length.
+        """
         text = line.text
-        matches = [m for m in _ASSIGN_START.finditer(text, start) if self._top_level(text, m)]
+        matches: list[re.Match[str]] = []
+        state = _Nesting()
+        position = start
+        for match in _ASSIGN_START.finditer(text, start):
+            _advance(text, position, match.start(), state)
+            position = match.start()
+            before = text[match.start() - 1] if match.start() > 0 else " "
+            if state.top_level and not (before.isalnum() or before in "_."):
+                matches.append(match)
         if not matches and text[start:].strip():
             raise self.fail(line.span_at(start + 1), "expected name=value after the card")
         for index, match in enumerate(matches):
@@ -666,43 +942,81 @@ class _Reader:
                 raise self.fail(
                     line.span_at(match.end()), f"parameter '{match.group(1)}' has no value"
                 )
-            if value[0] == "{" and value[-1] == "}" or value[0] == "'" and value[-1] == "'":
-                value, value_offset = value[1:-1], value_offset + 1
+            value, value_offset = _unwrap(value, value_offset)
             yield Assign(
                 match.group(1).lower(),
                 Expr(value, line.span_at(value_offset)),
                 line.span_at(match.start()),
             )
 
-    @staticmethod
-    def _top_level(text: str, match: re.Match[str]) -> bool:
-        before = text[: match.start()]
-        return (
-            before.count("(") == before.count(")")
-            and before.count("{") == before.count("}")
-            and before.count("'") % 2 == 0
-            and (not before or not (before[-1].isalnum() or before[-1] in "_."))
-        )
-
     def model_card(self, line: LogicalLine) -> None:
-        fields = self.parse(line)[1:]
+        limit = self.limits.max_expression_depth
+        too_deep = _group_too_deep(line.text, limit)
+        if too_deep is not None:
+            raise self.fail(
+                line.span_at(too_deep),
+                f"parentheses nested more than {limit} levels deep (limit max_expression_depth)",
+                "limit",
+            )
+        # The parentheses of a model card only group its parameters, and libraries are
+        # loose with them (one too many is common): read them as spaces, which keeps
+        # every offset.
+        text = _parentheses_as_spaces(line.text)
+        fields = self.parse(LogicalLine(text, line.path, line.segments))[1:]
         if len(fields) < 2 or not isinstance(fields[0], Word) or not isinstance(fields[1], Word):
             raise self.fail(line.span, "expected '.model NAME TYPE (PARAM=VALUE …)'")
         params: list[Assign] = []
-        for item in fields[2:]:
-            items = item.items if isinstance(item, Group) else (item,)
-            for sub in items:
-                if isinstance(sub, Assign):
-                    params.append(sub)
-                elif isinstance(sub, Word) and sub.text in ("pchan", "nchan"):
-                    # VDMOS channel flags are bare words; keep them as flags set to 1.
-                    params.append(Assign(sub.text, Word("1", "1", sub.span), sub.span))
-                else:
-                    raise self.fail(sub.span, "expected PARAM=VALUE in the model's parameter list")
+        skipped: list[str] = []
+        kind = fields[1].text.split("(", 1)[0]
+        if kind in NUMERICAL_DEVICES:
+            # Numerical device models (a mesh and doping profile on sub-lines): nothing in
+            # them feeds a gate-drive check.
+            self.report(
+                Severity.WARNING,
+                line.span,
+                f"'.model {fields[0].raw}' is a numerical device model ({kind}); its "
+                "parameters are skipped",
+                "unsupported",
+            )
+            self.emit(ModelCard(fields[0].text, kind, (), line.span))
+            return
+        items = [
+            sub
+            for item in fields[2:]
+            for sub in (item.items if isinstance(item, Group) else (item,))
+        ]
+        index = 0
+        while index < len(items):
+            sub = items[index]
+            index += 1
+            value = sub.value if isinstance(sub, Assign) else None
+            if isinstance(value, Word) and value.raw.startswith("["):
+                # An XSPICE array, cntl_array=[0 1]: its items run to the closing bracket.
+                while "]" not in value.raw and index < len(items):
+                    last = items[index]
+                    index += 1
+                    if isinstance(last, Word) and "]" in last.raw:
+                        break
+                assert isinstance(sub, Assign)
+                skipped.append(sub.key)
+            elif isinstance(sub, Assign):
+                params.append(sub)
+            elif isinstance(sub, Word):
+                # A flag without '=' (VDMOS pchan, LTRA steplimit, ...): set to 1.
+                params.append(Assign(sub.text, Word("1", "1", sub.span), sub.span))
+            else:
+                raise self.fail(sub.span, "expected PARAM=VALUE in the model's parameter list")
+        if skipped:
+            self.report(
+                Severity.WARNING,
+                line.span,
+                f"'.model {fields[0].raw}': array parameters skipped ({', '.join(skipped)})",
+                "unsupported",
+            )
         self.emit(ModelCard(fields[0].text, fields[1].text, tuple(params), line.span))
 
     def open_subckt(self, line: LogicalLine) -> None:
-        if len(self.blocks) >= self.limits.max_subckt_nesting:
+        if sum(not isinstance(b, _OpenIf) for b in self.blocks) >= self.limits.max_subckt_nesting:
             raise self.fail(
                 line.span,
                 f"subcircuit definitions nested deeper than {self.limits.max_subckt_nesting} "
@@ -715,9 +1029,12 @@ class _Reader:
         self.blocks.append((Element(fields[1].text, tuple(fields[2:]), line.span), []))
 
     def close_subckt(self, line: LogicalLine) -> None:
+        self.close_open_ifs(line.span, "'.ends' comes first")
         if not self.blocks:
             raise self.fail(line.span, "'.ends' without a '.subckt' to close")
-        header, body = self.blocks.pop()
+        block = self.blocks.pop()
+        assert not isinstance(block, _OpenIf)
+        header, body = block
         words = line.text.split()
         if len(words) > 1 and words[1].lower() != header.name:
             self.report(
@@ -752,8 +1069,32 @@ class _Reader:
             raise self.fail(line.span, f"expected {form}", "include")
         name = args[0]
         section = args[1].lower() if library else None
-        target = self.resolve(name, path, line.span_at(len(card) + 1))
+        where = line.span_at(len(card) + 1)
+        kind = "library" if library else "include"
+        if _absent(name, ()):
+            # A library at a path of the machine the deck was written on.
+            self.note_missing(
+                kind,
+                name,
+                where,
+                f"{kind} file '{name}' is not on this machine; the deck is read without it",
+            )
+            return
+        if _absent(name, (path.parent, *self.options.search_path)):
+            self.note_missing(
+                kind, name, where, f"{kind} file '{name}' not found; the deck is read without it"
+            )
+            return
+        target = self.resolve(name, path, where)
         if target is None:
+            return
+        if not target.exists():
+            self.note_missing(
+                kind,
+                name,
+                where,
+                f"{kind} file '{name}' not found; the deck is read without it",
+            )
             return
         if not self.read_file(target, section, line.span):
             self.report(
@@ -799,6 +1140,89 @@ class _Reader:
                 )
                 return None
         return resolved
+
+
+@dataclass(slots=True)
+class _Nesting:
+    """Parentheses, braces and quotes open at some point of a line."""
+
+    parens: int = 0
+    braces: int = 0
+    quoted: bool = False
+
+    @property
+    def top_level(self) -> bool:
+        return not (self.parens or self.braces or self.quoted)
+
+
+def _advance(text: str, start: int, end: int, state: _Nesting) -> None:
+    """Carry ``state`` over ``text[start:end]``; every character is looked at once."""
+    for char in text[start:end]:
+        if char == "'":
+            state.quoted = not state.quoted
+        elif state.quoted:
+            continue
+        elif char == "(":
+            state.parens += 1
+        elif char == ")":
+            state.parens -= 1
+        elif char == "{":
+            state.braces += 1
+        elif char == "}":
+            state.braces -= 1
+
+
+def _parentheses_as_spaces(text: str) -> str:
+    """The text with its parentheses outside braces and quotes turned into spaces."""
+    chars = list(text)
+    for offset, char in _top_level(text):
+        if char in "()":
+            chars[offset] = " "
+    return "".join(chars)
+
+
+def _absent(name: str, folders: Sequence[Path]) -> bool:
+    """True when ``name`` certainly names no file: absolute and absent, or absent in every
+    folder it is looked for in. A name the file system cannot look up is left to
+    ``resolve``, which says why."""
+
+    def missing(candidate: Path) -> bool:
+        try:
+            os.stat(candidate)
+        except FileNotFoundError:
+            return True
+        except (OSError, ValueError):
+            raise _Unusable from None
+        return False
+
+    try:
+        if name.startswith("~"):
+            return False
+        candidate = Path(name)
+        if candidate.is_absolute():
+            return not folders and missing(candidate)
+        return bool(folders) and all(missing(folder / candidate) for folder in folders)
+    except (_Unusable, ValueError):
+        return False
+
+
+class _Unusable(Exception):
+    """A file name the file system refuses to look up."""
+
+
+def _unwrap(value: str, offset: int) -> tuple[str, int]:
+    """An expression without its outer quotes, or its outer braces when they are one pair."""
+    if value[0] == "'" and value[-1] == "'" and len(value) > 1:
+        return value[1:-1], offset + 1
+    if value[0] == "{" and value[-1] == "}":
+        depth = 0
+        for index, char in enumerate(value):
+            depth += (char == "{") - (char == "}")
+            if depth == 0:
+                if index == len(value) - 1:
+                    return value[1:-1], offset + 1
+                break
+    return value, offset
 
 
 def _group_too_deep(text: str, limit: int) -> int | None:
@@ -850,8 +1274,13 @@ def read_deck(
                 reader.diagnostics.append(exc.diagnostic)
             reader.stack.pop()
     while reader.blocks:
-        header, _ = reader.blocks.pop()
-        reader.report(Severity.ERROR, header.span, f"subcircuit '{header.name}' has no '.ends'")
+        end = Span(shown, max(len(reader.sources.get(shown, ())), 1), 1)
+        reader.close_open_ifs(end, "the deck ends")
+        if reader.blocks:
+            block = reader.blocks.pop()
+            assert not isinstance(block, _OpenIf)
+            header = block[0]
+            reader.report(Severity.ERROR, header.span, f"subcircuit '{header.name}' has no '.ends'")
     return Deck(
         path=shown,
         title=reader.title,
@@ -860,4 +1289,5 @@ def read_deck(
         directives=tuple(reader.directives),
         diagnostics=tuple(reader.diagnostics),
         sources=reader.sources,
+        missing=tuple(reader.missing),
     )

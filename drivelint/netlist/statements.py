@@ -104,6 +104,41 @@ class Subckt:
 
 
 @dataclass(frozen=True, slots=True)
+class FuncCard:
+    """``.func NAME(PARAMS) BODY``: a user function; ``body`` is expression text."""
+
+    name: str
+    params: tuple[str, ...]
+    body: Expr
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class IfBlock:
+    """``.if (c) … .elseif (c) … .else … .endif``: the branches in order.
+
+    Each branch is its condition (None for ``.else``) and its statements. Which one
+    applies is decided by elaboration, where the parameters are known.
+    """
+
+    branches: tuple[tuple[Expr | None, tuple[Statement, ...]], ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Missing:
+    """Something the netlist names that is not there: what kind, its name, where named."""
+
+    kind: str  # "include", "library", "subckt" or "model"
+    name: str
+    span: Span
+
+    def describe(self) -> str:
+        what = {"include": "include file", "library": "library file"}.get(self.kind, self.kind)
+        return f"{what} '{self.name}'"
+
+
+@dataclass(frozen=True, slots=True)
 class Directive:
     """A ``* drivelint: …`` comment; ``text`` is what follows the prefix."""
 
@@ -112,7 +147,17 @@ class Directive:
     column: int
 
 
-Statement: TypeAlias = Element | ModelCard | ParamCard | GlobalCard | OptionCard | TranCard | Subckt
+Statement: TypeAlias = (
+    Element
+    | ModelCard
+    | ParamCard
+    | GlobalCard
+    | OptionCard
+    | TranCard
+    | Subckt
+    | FuncCard
+    | IfBlock
+)
 
 
 @dataclass(frozen=True, slots=True)
@@ -126,6 +171,7 @@ class Deck:
     directives: tuple[Directive, ...]
     diagnostics: tuple[Diagnostic, ...]
     sources: dict[str, tuple[str, ...]]
+    missing: tuple[Missing, ...] = ()
 
     def line_text(self, span: Span) -> str:
         lines = self.sources.get(span.path, ())

@@ -759,9 +759,14 @@ class Sine(Waveform):
 
 def _settled(elapsed: float, tau: float) -> float:
     """1 − e^(−elapsed/τ); a zero τ (no .tran to default from) settles at once."""
+    return 1.0 - _remaining(elapsed, tau)
+
+
+def _remaining(elapsed: float, tau: float) -> float:
+    """e^(−elapsed/τ), the part not yet settled; 0 for a zero τ."""
     if tau == 0.0:
-        return 1.0
-    return 1.0 - math.exp(-elapsed / tau)
+        return 0.0
+    return math.exp(-elapsed / tau)
 
 
 @dataclass(frozen=True, slots=True)
@@ -779,17 +784,18 @@ class Exponential(Waveform):
     def value_at(self, t: float) -> float:
         if t <= self.td1:
             return self.v1
-        rise = self.v1 + (self.v2 - self.v1) * _settled(t - self.td1, self.tau1)
         if t <= self.td2:
-            return rise
-        return rise + (self.v1 - self.v2) * _settled(t - self.td2, self.tau2)
+            return self.v1 + (self.v2 - self.v1) * _settled(t - self.td1, self.tau1)
+        # The rise and the fall written as one difference of exponentials, so a fall
+        # that cancels the rise leaves V1 exactly rather than its rounding error.
+        return self.v1 + (self.v2 - self.v1) * (
+            _remaining(t - self.td2, self.tau2) - _remaining(t - self.td1, self.tau1)
+        )
 
     def _after_fall_start(self, t: float) -> float:
         """The value just after TD2 onward (the right-hand limit at TD2 itself)."""
-        return (
-            self.v1
-            + (self.v2 - self.v1) * _settled(t - self.td1, self.tau1)
-            + (self.v1 - self.v2) * _settled(max(t - self.td2, 0.0), self.tau2)
+        return self.v1 + (self.v2 - self.v1) * (
+            _remaining(max(t - self.td2, 0.0), self.tau2) - _remaining(t - self.td1, self.tau1)
         )
 
     def _turning_point(self) -> float | None:
@@ -830,6 +836,9 @@ class Exponential(Waveform):
     def _extremes(self) -> tuple[float, float]:
         values = [piece.start_value for piece in self._pieces()]
         values.append(self.v1)
+        # A fall far faster than the rise turns round within one float step of TD2,
+        # where no turning point can be placed: the next float time holds that extreme.
+        values.append(self._after_fall_start(math.nextafter(self.td2, INF)))
         return max(values), min(values)
 
     def high(self) -> float:

@@ -19,6 +19,20 @@ JSON_VERSION = 1
 _COLORS = {Severity.ERROR: "red", Severity.WARNING: "yellow", Severity.NOTE: "cyan"}
 
 
+def file_status(result: CheckResult) -> str:
+    """``error``, ``partial``, ``findings`` or ``clean``, in that order of precedence.
+
+    ``partial``: the file was read and checked around something it names but does not
+    hold (an include, a library, a model, a subcircuit); its findings, if any, are still
+    reported, and the stages that need what is missing are "not checked".
+    """
+    if any(d.severity is Severity.ERROR for d in result.circuit.diagnostics):
+        return "error"
+    if result.circuit.partial:
+        return "partial"
+    return "findings" if result.findings else "clean"
+
+
 def finding_text(
     finding: Finding, explain: bool = False, color: bool = False, source_line: str = ""
 ) -> str:
@@ -87,6 +101,13 @@ def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
             + (", …" if len(failed) > 5 else "")
             + ")"
         )
+    partial = [r.circuit.path for r in results if file_status(r) == "partial"]
+    if partial:
+        lines.append(
+            f"  files checked in part: {len(partial)} ({', '.join(partial[:5])}"
+            + (", …" if len(partial) > 5 else "")
+            + ")"
+        )
     return "\n".join(lines)
 
 
@@ -94,12 +115,11 @@ def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:
     files = []
     findings: list[Finding] = []
     for result in sorted(results, key=lambda r: r.circuit.path):
-        errors = any(d.severity is Severity.ERROR for d in result.circuit.diagnostics)
         files.append(
             {
                 "path": result.circuit.path,
                 "stages": sum(1 for s in result.stages if s.floating),
-                "status": "error" if errors else ("findings" if result.findings else "clean"),
+                "status": file_status(result),
                 "diagnostics": [d.to_json() for d in result.diagnostics],
             }
         )

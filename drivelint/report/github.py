@@ -72,4 +72,12 @@ def format_github(results: Sequence[CheckResult], options: ReportOptions) -> str
             span = finding.span
             key = (portable_path(span.path), span.line, span.column, finding.rule, finding.device)
             keyed.append((key, finding_annotation(finding, options.explain)))
+        if result.circuit.partial:
+            # The file status "partial": checked around what it names but does not hold.
+            path = result.circuit.path
+            needs = ", ".join(m.describe() for m in result.circuit.missing)
+            line = annotation(
+                Severity.NOTE, Span(path, 1, 1), "partial", f"checked in part: {needs}"
+            )
+            keyed.append(((portable_path(path), 0, 0, "partial", ""), line))
     return "".join(line + "\n" for _, line in sorted(keyed))

@@ -50,9 +50,11 @@ def _e(text: object) -> str:
 
 
 def _status(result: CheckResult) -> str:
+    from drivelint.report.findings import file_status
+
     if any(d.severity is Severity.ERROR for d in result.diagnostics):
         return "error"
-    return "findings" if result.findings else "clean"
+    return file_status(result)
 
 
 def _input_errors(result: CheckResult) -> list[Diagnostic]:
@@ -939,7 +941,7 @@ def _designs_table(results: Sequence[CheckResult], anchors: Mapping[str, str]) -
         by = Counter(f.severity for f in result.findings)
         problems = sum(1 for d in result.diagnostics if d.severity >= Severity.WARNING)
         status = _status(result)
-        rank = {"error": 2, "findings": 1, "clean": 0}[status]
+        rank = {"error": 3, "partial": 2, "findings": 1, "clean": 0}[status]
         numbers = [
             len(result.stages),
             sum(1 for s in result.stages if s.floating),
@@ -1011,6 +1013,7 @@ font-weight:650;text-transform:uppercase;letter-spacing:.4px;color:#fff;vertical
 .sev.warning{background:var(--warn)}
 .sev.note{background:var(--note)}
 .status.findings{background:var(--warn)}
+.status.partial{background:var(--warn);font-style:italic}
 .status.clean{background:var(--ok)}
 article.design{border-top:2px solid var(--ink);margin-top:22px;padding-top:2px}
 .design-title{margin:0 0 4px;font-style:italic}

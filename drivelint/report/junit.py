@@ -32,10 +32,16 @@ def _xml_safe(text: str) -> str:
 
 
 def file_status(result: CheckResult) -> str:
-    """``error`` (input errors), ``failure`` (findings) or ``passed``."""
+    """``error`` (input errors), ``failure`` (findings), ``partial`` or ``passed``.
+
+    A partial file (read around something missing) with findings is a failure; without
+    findings it is reported as skipped in part, since some of its stages were not checked.
+    """
     if any(d.severity is Severity.ERROR for d in result.diagnostics):
         return "error"
-    return "failure" if result.findings else "passed"
+    if result.findings:
+        return "failure"
+    return "partial" if result.circuit.partial else "passed"
 
 
 def _testcase(result: CheckResult, explain: bool) -> ET.Element:
@@ -62,6 +68,9 @@ def _testcase(result: CheckResult, explain: bool) -> ET.Element:
             case, "failure", {"message": _xml_safe(finding.message), "type": finding.rule}
         )
         failure.text = _xml_safe(finding_text(finding, explain))
+    if result.circuit.partial and not errors and not result.findings:
+        needs = ", ".join(m.describe() for m in result.circuit.missing)
+        ET.SubElement(case, "skipped", {"message": _xml_safe(f"partial: read without {needs}")})
     # What does not fail the file is still worth seeing beside it.
     notes = [d.render() for d in result.diagnostics if d.severity is Severity.WARNING]
     notes += [f"accepted: {finding_text(f)}" for f in result.accepted]
@@ -80,7 +89,8 @@ def junit_tree(results: Sequence[CheckResult], explain: bool = False) -> ET.Elem
         "errors": str(statuses.count("error")),
     }
     root = ET.Element("testsuites", {"name": SUITE, **counts})
-    suite = ET.SubElement(root, "testsuite", {"name": SUITE, **counts, "skipped": "0"})
+    skipped = str(statuses.count("partial"))
+    suite = ET.SubElement(root, "testsuite", {"name": SUITE, **counts, "skipped": skipped})
     suite.extend(_testcase(r, explain) for r in ordered)
     return root
 

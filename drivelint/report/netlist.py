@@ -26,7 +26,16 @@ def device_json(device: Device) -> dict[str, Any]:
         "line": device.span.line,
         **({"wrapper": device.wrapper.subckt} if device.wrapper else {}),
         **({"controls": list(device.controls)} if device.controls else {}),
+        **({"behaviour": _behaviour_json(device)} if device.behaviour else {}),
     }
+
+
+def _behaviour_json(device: Device) -> dict[str, Any]:
+    assert device.behaviour is not None
+    record = device.behaviour.to_json()
+    value = record["value_at_0"]
+    record["value_at_0"] = None if value is None else _number(value)
+    return record
 
 
 def netlist_json(circuit: Circuit) -> dict[str, Any]:
@@ -43,8 +52,17 @@ def netlist_json(circuit: Circuit) -> dict[str, Any]:
             if d.waveform is not None
         ],
         "instances": [
-            {"name": i.name, "subckt": i.subckt, "ports": dict(i.ports)}
+            {
+                "name": i.name,
+                "subckt": i.subckt,
+                "ports": dict(i.ports),
+                **({"opaque": True} if i.opaque else {}),
+            }
             for i in circuit.instances.values()
+        ],
+        "missing": [
+            {"kind": m.kind, "name": m.name, "path": m.span.path, "line": m.span.line}
+            for m in circuit.missing
         ],
         "diagnostics": [d.to_json() for d in circuit.diagnostics],
     }
@@ -68,10 +86,14 @@ def netlist_text(circuit: Circuit) -> str:
             extra.append(format_si(device.value))
         if device.waveform is not None and device.waveform.kind != "dc":
             extra.append(device.waveform.kind)
+        if device.behaviour is not None:
+            extra.append(f"behavioural: {device.behaviour.expression}"[:80])
         lines.append(f"    {device.name:<14} {device.kind:<10} {pins}  {' '.join(extra)}".rstrip())
     if circuit.rails:
         rails = ", ".join(f"{net}={format_si(v, 'V')}" for net, v in circuit.rails.items())
         lines.append(f"  rails: {rails}")
+    if circuit.missing:
+        lines.append("  read in part, without: " + ", ".join(m.describe() for m in circuit.missing))
     for diagnostic in circuit.diagnostics:
         lines.append(diagnostic.render())
     return "\n".join(lines)

@@ -109,12 +109,16 @@ class _Artifacts:
         location["index"] = self.index[portable_path(path)]
         return location
 
-    def table(self) -> list[dict[str, Any]]:
+    def table(self, partial: Mapping[str, list[str]] | None = None) -> list[dict[str, Any]]:
         out = []
         for path in self.paths:
             location = self.location(path)
             del location["index"]
-            out.append({"location": location, "roles": ["analysisTarget"]})
+            entry: dict[str, Any] = {"location": location, "roles": ["analysisTarget"]}
+            if partial and path in partial:
+                # Checked around something missing: the file status "partial".
+                entry["properties"] = {"status": "partial", "missing": partial[path]}
+            out.append(entry)
         return out
 
 
@@ -285,7 +289,13 @@ def sarif_log(results: Sequence[CheckResult]) -> dict[str, Any]:
         "originalUriBaseIds": {
             SOURCE_ROOT: {"description": {"text": "the folder drivelint was run from"}}
         },
-        "artifacts": artifacts.table(),
+        "artifacts": artifacts.table(
+            {
+                portable_path(r.circuit.path): [m.describe() for m in r.circuit.missing]
+                for r in ordered
+                if r.circuit.partial
+            }
+        ),
         # Spans count characters of the decoded line, not UTF-16 code units.
         "columnKind": "unicodeCodePoints",
         "results": [_result(r, f, rule_index, artifacts, accepted) for r, f, accepted in entries],

@@ -118,8 +118,14 @@ def test_undefined_model_and_subckt_and_wrong_node_counts() -> None:
         "R1 a\nQ1 c b\n.model dd D\nM1 d g s dd\n"
     )
     messages = errors(c)
-    assert any("model 'nodiode' is not defined" in m for m in messages)
-    assert any("subcircuit 'nosub' is not defined" in m for m in messages)
+    # A missing model or subcircuit leaves a partial result, not an error: the diode
+    # keeps its kind, the instance is an opaque block, and both are recorded.
+    warnings = [d.message for d in c.diagnostics if d.severity is Severity.WARNING]
+    assert any("model 'nodiode' is not defined" in m for m in warnings)
+    assert any("subcircuit 'nosub' is not defined" in m for m in warnings)
+    assert c.devices["d1"].kind == "diode" and c.devices["d1"].model is None
+    assert c.instances["x1"].opaque and dict(c.instances["x1"].ports) == {"1": "a", "2": "b"}
+    assert {(m.kind, m.name) for m in c.missing} == {("model", "nodiode"), ("subckt", "nosub")}
     assert any("connects 1 nodes but subcircuit 'two' has 2 ports" in m for m in messages)
     assert any("'r1' needs 2 nodes" in m for m in messages)
     assert any("'q1' needs" in m for m in messages)
@@ -215,3 +221,59 @@ def test_instance_multiplier_parallels_the_devices_inside() -> None:
     )
     assert c.devices["xp.x1.r1"].multiplier == 30
     assert c.devices["x2"].multiplier == 2
+
+
+# ---------------------------------------------------------------------------
+# Dialect forms (issue 8); more in tests/dialects.
+
+
+def test_temperature_in_a_model_parameter_is_read_at_27_degrees() -> None:
+    # ngspice evaluates temper at the circuit temperature, 27 degC by default (ngspice
+    # manual, ".options": TEMP/TNOM); the braces keep their parentheses in a model card.
+    c = circuit(
+        "t\nV1 a 0 1\n.model dt d is={temper >= 25 ? 1e-10 : (temper+1)*1e-11}\nD1 a 0 dt\n"
+    )
+    assert errors(c) == []
+    assert c.devices["d1"].model is not None
+    assert c.devices["d1"].model.params["is"] == pytest.approx(1e-10)
+
+
+def test_table_source_is_behavioural() -> None:
+    c = circuit("t\nV1 a 0 1\nI1 a 0 TBL(0 0 1 2m 2 3m)\n")
+    assert errors(c) == []
+    behaviour = c.devices["i1"].behaviour
+    assert behaviour is not None and behaviour.reads == ("a", "0")
+    assert behaviour.evaluate({"a": 1.5}) == pytest.approx(2.5e-3)
+
+
+def test_behavioural_value_inside_a_subcircuit_reads_flat_nets() -> None:
+    c = circuit(
+        "t\nV1 boot 0 12\nV2 sw 0 0\nX1 boot sw hold\n"
+        ".subckt hold b s\nC1 b s C='1u/(1+(V(b,s)/10)^2)'\nR1 b n 1k\nR2 n 0 R='1k+V(n)'\n.ends\n"
+    )
+    cap = c.devices["x1.c1"].behaviour
+    assert cap is not None and cap.reads == ("boot", "sw")
+    assert cap.evaluate({"boot": 10.0, "sw": 0.0}) == pytest.approx(0.5e-6)
+    assert c.devices["x1.c1"].value == pytest.approx(1e-6)
+    assert c.devices["x1.r2"].behaviour is not None
+    assert c.devices["x1.r2"].behaviour.reads == ("x1.n",)
+
+
+def test_poly_and_table_are_bounded() -> None:
+    poly = circuit("t\nV1 a 0 1\nE1 o 0 POLY(40) " + "a 0 " * 40 + "1\n")
+    assert any("max_poly_dimensions" in m for m in errors(poly))
+    points = " ".join(f"({i},{i})" for i in range(2000))
+    table = circuit(f"t\nV1 a 0 1\nG1 o 0 TABLE {{V(a)}} = {points}\n")
+    assert errors(table) == []
+    assert any(
+        "TABLE of 'g1' is not evaluated" in d.message
+        for d in table.diagnostics
+        if d.severity is Severity.WARNING
+    )
+    assert table.devices["g1"].behaviour is None
+
+
+def test_if_condition_on_node_voltages_is_refused() -> None:
+    c = circuit("t\nV1 a 0 1\n.if (v(a) > 0)\nR1 a 0 1\n.endif\n")
+    assert any("must depend on parameters only" in m for m in errors(c))
+    assert "r1" not in c.devices

@@ -19,7 +19,13 @@ on ngspice 39: a flattened device is ``<letter>.<instance path>.<name>``, a node
   wrapper's instance path are folded into the wrapper's name before the name sets are
   compared (decks 12, 13 and 17 hold wrappers, one level down in 13);
 * ``E``/``G`` with ``VALUE=`` are split by ngspice into two devices (itself plus a B
-  source), so the decks write behavioural sources as ``B`` elements instead.
+  source, ``be1`` for ``e1``); an R, C or L whose value is an expression of node
+  voltages or time becomes B/E/F sources around a plain part (``br1`` for ``r1``;
+  ``bc1``, ``ec1``, ``cc1`` for ``c1``; ``bl1``, ``fl1``, ``ll1`` for ``l1``), and a
+  ``POLY`` source becomes one XSPICE device ``a$poly$e1`` (names as ngspice 39 lists
+  them). Each drivelint device is mapped to the ngspice instances it stands for
+  (``ngspice_names``) before the sets are compared; the older decks write behavioural
+  sources as ``B`` elements.
 """
 
 from __future__ import annotations
@@ -43,7 +49,15 @@ from drivelint.netlist.statements import Element, Statement, Subckt
 from drivelint.pipeline import LoadOptions, load_circuit
 
 DECKS_DIR = Path(__file__).resolve().parent.parent / "decks"
-DECKS = sorted(DECKS_DIR.glob("*.cir"))
+# The dialect decks that ngspice 39 reads join the cross-check (tests/dialects: each
+# one's expected reading says whether ngspice reads it, and a test there confirms it).
+DIALECTS_DIR = Path(__file__).resolve().parent.parent / "dialects"
+DIALECT_DECKS = sorted(
+    deck
+    for deck in DIALECTS_DIR.glob("*.cir")
+    if json.loads(deck.with_suffix(".expect.json").read_text())["ngspice"]
+)
+DECKS = sorted(DECKS_DIR.glob("*.cir")) + DIALECT_DECKS
 NGSPICE = shutil.which("ngspice")
 NO_NGSPICE = "ngspice is not installed (Debian package 'ngspice'); cross-check skipped"
 needs_ngspice = pytest.mark.skipif(NGSPICE is None, reason=NO_NGSPICE)
@@ -143,11 +157,39 @@ def parse_show(text: str) -> dict[str, float | None]:
     return multipliers
 
 
+def poly_elements(deck: Path) -> frozenset[str]:
+    """Names of the POLY controlled sources of a deck (top level), as read."""
+    return frozenset(
+        s.name
+        for s in read_deck(deck).statements
+        if isinstance(s, Element) and any(getattr(f, "text", None) == "poly" for f in s.fields)
+    )
+
+
+def ngspice_names(device: Device, polys: frozenset[str]) -> frozenset[str]:
+    """The ngspice instances (in drivelint's naming) one drivelint device stands for."""
+    path, _, last = device.name.rpartition(".")
+    prefix = path + "." if path else ""
+    if last in polys:
+        return frozenset({prefix + "a$poly$" + last})
+    if device.behaviour is not None and device.kind in ("vcvs", "vccs"):
+        return frozenset({device.name, prefix + "b" + last})
+    if device.behaviour is not None and device.kind == "resistor":
+        return frozenset({prefix + "b" + last})
+    if device.behaviour is not None and device.kind == "capacitor":
+        return frozenset(prefix + letter + last for letter in "bce")
+    if device.behaviour is not None and device.kind == "inductor":
+        return frozenset(prefix + letter + last for letter in "bfl")
+    return frozenset({device.name})
+
+
 def run_ngspice(deck: Path, workdir: Path) -> NgspiceRun:
     """Run a copy of the deck (the decks folder is copied, so includes resolve alike)."""
     copy = workdir / deck.name
     raw, listing = f"{deck.stem}.raw", f"{deck.stem}.show"
-    copy.write_text(with_control_block(deck.read_text(), raw, listing))
+    # Latin-1 both ways keeps every byte as it is (a BOM, a cp1252 deck).
+    text = deck.read_bytes().decode("latin-1")
+    copy.write_bytes(with_control_block(text, raw, listing).encode("latin-1"))
     assert NGSPICE is not None
     result = subprocess.run(
         [NGSPICE, "-b", copy.name], cwd=workdir, capture_output=True, text=True, timeout=30
@@ -168,6 +210,7 @@ def ngspice(tmp_path_factory: pytest.TempPathFactory) -> Callable[[Path], Ngspic
         pytest.skip(NO_NGSPICE)
     workdir = tmp_path_factory.mktemp("decks")
     shutil.copytree(DECKS_DIR, workdir, dirs_exist_ok=True)
+    shutil.copytree(DIALECTS_DIR, workdir, dirs_exist_ok=True)
     runs: dict[Path, NgspiceRun] = {}
 
     def get(deck: Path) -> NgspiceRun:
@@ -256,13 +299,14 @@ def test_device_instances_match_ngspice(deck: Path, ngspice: Callable[[Path], Ng
     sizes = subckt_sizes(deck)
     # Count: every drivelint device is one ngspice instance, except a wrapper, which is
     # as many as its subcircuit body holds.
-    expected = len(circuit.devices) + sum(
+    polys = poly_elements(deck)
+    expected = sum(len(ngspice_names(d, polys)) for d in circuit.devices.values()) + sum(
         sizes[d.wrapper.subckt] - 1 for d in wrapped.values() if d.wrapper
     )
     assert len(run.devices) == expected
     # Names: the same instances, wrapper bodies folded into the wrapper's name.
     names = fold_wrappers((drivelint_name(n) for n in run.devices), wrapped)
-    assert names == frozenset(circuit.devices)
+    assert names == frozenset().union(*(ngspice_names(d, polys) for d in circuit.devices.values()))
 
 
 @needs_ngspice
@@ -305,7 +349,7 @@ def test_multipliers_match_ngspice(deck: Path, ngspice: Callable[[Path], Ngspice
     circuit = drivelint_circuit(deck)
     compared = 0
     for name, device in circuit.devices.items():
-        if device.kind not in MULTIPLIED_KINDS:
+        if device.kind not in MULTIPLIED_KINDS or device.behaviour is not None:
             continue
         # A wrapper is compared with the MOSFET inside it.
         reference = by_name[device.wrapper.inner_device if device.wrapper else name]

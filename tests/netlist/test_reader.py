@@ -127,10 +127,10 @@ def test_every_element_letter_is_read(letter: str) -> None:
 
 
 def test_unsupported_element_letter_warns_and_skips() -> None:
-    deck = read("t\nT1 a 0 b 0 Z0=50 TD=1n\nR1 a 0 1\n")
+    deck = read("t\nU1 a 0 b urc_line L=1m N=4\nR1 a 0 1\n")
     assert [e.name for e in elements(deck)] == ["r1"]
     (warning,) = deck.diagnostics
-    assert warning.severity is Severity.WARNING and "T" in warning.message
+    assert warning.severity is Severity.WARNING and "U" in warning.message
 
 
 def test_model_card_forms() -> None:
@@ -303,7 +303,12 @@ def test_include_cycle_depth_missing_dir_binary(tmp_path: Path) -> None:
     deck = read_deck(top, ReadOptions(root=tmp_path))
     messages = " | ".join(d.message for d in errors(deck))
     assert "include cycle" in messages
-    assert "not found" in messages
+    # A missing include is a warning: the deck is read without it (a partial result).
+    assert any(
+        "'nothere.inc' not found" in d.message and d.severity is Severity.WARNING
+        for d in deck.diagnostics
+    )
+    assert [m.name for m in deck.missing] == ["nothere.inc"]
     assert "is a directory" in messages
     assert "binary file" in messages
 
@@ -380,3 +385,68 @@ def test_flat_split_matches_grammar(fields: list[str], gap: str) -> None:
 
 def test_grammar_is_loaded_once() -> None:
     assert _LineParser.get() is _LineParser.get()
+
+
+# ---------------------------------------------------------------------------
+# Dialect constructs (issue 8); each also has a deck in tests/dialects.
+
+
+def test_param_card_of_many_assignments_is_read_in_one_pass(monkeypatch) -> None:
+    # The nesting between candidate 'name=' matches is carried forward: every character
+    # of the card is scanned once, however many assignments it holds (count, not time).
+    from drivelint.limits import Limits
+    from drivelint.netlist import reader as module
+
+    scanned: list[int] = []
+    original = module._advance
+
+    def counting(text: str, start: int, end: int, state: object) -> None:
+        scanned.append(end - start)
+        original(text, start, end, state)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(module, "_advance", counting)
+    for count in (1_000, 110_000):
+        scanned.clear()
+        # Continuation lines of 1,000 assignments: one logical line under max_line_chars.
+        pieces = [
+            " ".join(f"p{i}={i}" for i in range(j, min(j + 1000, count)))
+            for j in range(0, count, 1000)
+        ]
+        text = "t\n.param " + "\n+ ".join(pieces) + "\n"
+        deck = read(text, limits=Limits(max_line_chars=4_000_000))
+        (card,) = [s for s in deck.statements if isinstance(s, ParamCard)]
+        assert len(card.assigns) == count and card.assigns[-1].key == f"p{count - 1}"
+        assert sum(scanned) <= len(text)
+
+
+def test_if_blocks_unbalanced_are_diagnostics_with_position() -> None:
+    deck = read("t\n.endif\n.if (a)\nR1 a 0 1\n.else\nR2 a 0 1\n.elseif (b)\n")
+    found = [(d.span.line, d.message) for d in errors(deck)]
+    assert (2, "'.endif' without an open '.if'") in found
+    assert any(line == 7 and "after the '.else'" in m for line, m in found)
+    assert any(line == 3 and "'.if' has no '.endif'" in m for line, m in found)
+
+
+def test_if_nesting_is_bounded() -> None:
+    from drivelint.limits import Limits
+
+    text = "t\n" + ".if (1)\n" * 5 + "R1 a 0 1\n" + ".endif\n" * 5
+    deck = read(text, limits=Limits(max_if_nesting=3))
+    assert any("max_if_nesting" in d.message for d in errors(deck))
+
+
+def test_func_card_and_behavioural_tail() -> None:
+    deck = read("t\n.func g(a, b) 'a*b'\nB1 o 0 i=v(1) tc1=1m\n")
+    func = deck.statements[0]
+    assert func.name == "g" and func.params == ("a", "b") and func.body.text == "a*b"  # type: ignore[union-attr]
+    (b1,) = elements(deck)
+    keys = [f.key for f in b1.fields if isinstance(f, Assign)]
+    assert keys == ["i", "tc1"]
+    assert b1.fields[-2].value.text == "v(1)"  # type: ignore[union-attr]
+
+
+def test_pwl_file_is_refused_outside_the_root(tmp_path: Path) -> None:
+    write(tmp_path / "waves.txt", "0 0\n1u 5\n")
+    top = write(tmp_path / "project" / "top.cir", "t\nV1 a 0 PWL FILE=../waves.txt\n")
+    deck = read_deck(top, ReadOptions(root=tmp_path / "project"))
+    assert any("outside the project root" in d.message for d in errors(deck))
