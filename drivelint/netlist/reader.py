@@ -134,17 +134,9 @@ class _LineParser:
     @classmethod
     def get(cls) -> Any:
         if cls._parser is None:
-            from lark import Lark
+            from drivelint.netlist.parsers import parser
 
-            from drivelint.netlist.resources import grammar_path
-
-            cls._parser = Lark(
-                grammar_path("netlist.lark").read_text(encoding="utf-8"),
-                parser="lalr",
-                lexer="contextual",
-                maybe_placeholders=False,
-                cache=True,
-            )
+            cls._parser = parser("netlist.lark")
         return cls._parser
 
 
