@@ -122,6 +122,30 @@ def _suffixes(relative: str) -> list[str]:
     return ["/".join(parts[i:]) for i in range(1, len(parts))]
 
 
+def may_widen(config: Config, netlist: Path, scan_roots: tuple[Path, ...] | list[Path]) -> bool:
+    """Whether ``config`` may let includes of ``netlist`` leave its project root.
+
+    Only a configuration from outside what is being checked may: one whose folder lies
+    neither inside the netlist's project root nor inside any path named to be scanned
+    (a user-level file above the project, or the invoking project's own file when it
+    checks a tree below it). A scanned tree's own ``drivelint.toml`` cannot widen its
+    own sandbox; ``--allow-outside-root`` on the command line always can.
+    """
+    if config.path is None or not config.allow_outside_root:
+        return False
+    from drivelint.pipeline import find_project_root
+
+    try:
+        folder = config.path.parent.resolve()
+        root = find_project_root(netlist)
+        scanned = [p.resolve() for p in scan_roots]
+    except (OSError, RuntimeError):
+        return False
+    if folder.is_relative_to(root):
+        return False
+    return not any(folder.is_relative_to(s) for s in scanned)
+
+
 def find_config(start: Path) -> Path | None:
     """The nearest drivelint.toml, or pyproject.toml with a [tool.drivelint] table."""
     folder = start.resolve()

@@ -10,14 +10,58 @@ from dataclasses import dataclass
 
 
 def positional_reduce(self: object) -> tuple[object, tuple[object, ...]]:
-    """Pickle a frozen dataclass as its class and its fields in order.
+    """Serialise a frozen dataclass as its class and its fields in order.
 
-    The default for slotted frozen dataclasses looks its fields up again for every object
-    it restores, which made reading the result cache several times slower; rebuilding
-    through the constructor does not. Only for classes whose fields are all positional.
+    Results travel from worker processes to the parent this way; the default for slotted
+    frozen dataclasses looks its fields up again for every object it restores, which was
+    several times slower than rebuilding through the constructor. Only for classes whose
+    fields are all positional.
     """
     cls = type(self)
     return (cls, tuple(getattr(self, name) for name in cls.__match_args__))  # type: ignore[attr-defined]
+
+
+# Characters a report must never pass on raw: C0 controls but TAB (ESC starts terminal
+# escape sequences, CR and LF forge lines), DEL, C1 controls (CSI, OSC), the Unicode line
+# and paragraph separators, and the bidirectional overrides that make text read otherwise
+# than it is.
+_UNPRINTABLE = {
+    code: f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}"
+    for code in (
+        *(c for c in range(0x20) if c != 0x09),
+        0x7F,
+        *range(0x80, 0xA0),
+        0x2028,
+        0x2029,
+        *range(0x202A, 0x202F),
+        *range(0x2066, 0x206A),
+    )
+}
+
+# How much of a netlist line a report may quote.
+EXCERPT_CHARS = 120
+
+
+def printable(text: str) -> str:
+    """``text`` with every control character written as a visible escape (``\\x1b``)."""
+    return text.translate(_UNPRINTABLE)
+
+
+def excerpt(line: str, limit: int = EXCERPT_CHARS) -> str:
+    """The start of a source line, at most ``limit`` characters, marked with … where cut."""
+    line = line.rstrip("\r\n")
+    return line if len(line) <= limit else line[:limit] + "…"
+
+
+def quoted_line(line: str, column: int) -> str:
+    """A source line as a terminal report shows it: a printable excerpt, and a caret under
+    ``column`` when the column falls inside the excerpt."""
+    line = line.rstrip("\r\n").expandtabs(1)
+    text = printable(excerpt(line))
+    if column - 1 > EXCERPT_CHARS:
+        return f"    {text}"
+    caret = len(printable(line[: max(column - 1, 0)]))
+    return f"    {text}\n    {' ' * caret}^"
 
 
 @dataclass(frozen=True, slots=True, order=True)
@@ -71,12 +115,19 @@ class Diagnostic:
     __reduce__ = positional_reduce
 
     def render(self) -> str:
-        head = f"{self.span}: {self.severity.label}: {self.message}"
+        """For a terminal: position, severity, message, and a short excerpt with a caret."""
+        head = f"{printable(str(self.span))}: {self.severity.label}: {printable(self.message)}"
         if not self.source_line:
             return head
-        text = self.source_line.rstrip("\r\n").expandtabs(1)
-        caret = " " * (max(self.span.column, 1) - 1) + "^"
-        return f"{head}\n    {text}\n    {caret}"
+        return f"{head}\n{quoted_line(self.source_line, self.span.column)}"
+
+    def shortened(self) -> Diagnostic:
+        """The same diagnostic keeping no more of its line than a report would quote."""
+        if len(self.source_line) <= EXCERPT_CHARS + 1:
+            return self
+        from dataclasses import replace
+
+        return replace(self, source_line=self.source_line[: EXCERPT_CHARS + 1])
 
     def to_json(self) -> dict[str, object]:
         return {

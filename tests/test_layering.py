@@ -22,6 +22,7 @@ RANKS = {
     "pipeline": 6,
     "config": 6,
     "batch": 6,
+    "cache": 6,
     "cli": 7,
     "__main__": 7,
     "__init__": 7,

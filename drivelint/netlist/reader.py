@@ -101,6 +101,8 @@ class ReadOptions:
     allow_outside_root: bool = False
     search_path: tuple[Path, ...] = ()
     limits: Limits = field(default_factory=Limits)
+    # Includes under dot-folders or VCS folders are refused unless this is set.
+    allow_hidden_includes: bool = False
 
 
 @dataclass(slots=True)
@@ -258,6 +260,7 @@ class _Reader:
         self.directives: list[Directive] = []
         self.files: list[str] = []
         self.sources: dict[str, tuple[str, ...]] = {}
+        self.inputs: list[tuple[str, str, str]] = []
         self.stack: list[tuple[Path, str | None]] = []
         self.title = ""
         # Open .subckt blocks: (header statement fields, body being collected).
@@ -297,29 +300,20 @@ class _Reader:
                 "limit",
             )
             return None
-        try:
-            if path.is_dir():
-                self.report(Severity.ERROR, where, f"'{shown}' is a directory, not a netlist", code)
-                return None
-            size = path.stat().st_size
-            if size > self.limits.max_file_bytes:
-                self.report(
-                    Severity.ERROR,
-                    where,
-                    f"'{shown}' is {size} bytes, over the limit of {self.limits.max_file_bytes} "
-                    "bytes (limit max_file_bytes)",
-                    "limit",
-                )
-                return None
-            data = path.read_bytes()
-        except FileNotFoundError:
-            self.report(Severity.ERROR, where, f"file '{shown}' not found", code)
+        data = read_bounded(path, self.limits.max_file_bytes)
+        if isinstance(data, _Refusal):
+            self.report(Severity.ERROR, where, data.message.format(shown=shown), data.code or code)
             return None
-        except OSError as exc:
-            self.report(Severity.ERROR, where, f"cannot read '{shown}': {exc.strerror}", code)
-            return None
-        if b"\x00" in data[:65536]:
-            self.report(Severity.ERROR, where, f"'{shown}' is a binary file, not a netlist", code)
+        self.inputs.append(("file", str(path), _sha256(data)))
+        return self.accept(data, shown, where, code)
+
+    def accept(self, data: bytes, shown: str, where: Span, code: str) -> tuple[str, ...] | None:
+        """Check the bytes of a netlist (read from a file or standard input) and keep its lines."""
+        refusal = refuse_content(data, self.limits.max_file_bytes)
+        if refusal is not None:
+            self.report(
+                Severity.ERROR, where, refusal.message.format(shown=shown), refusal.code or code
+            )
             return None
         text, fallback = _decode(data)
         lines = split_physical_lines(text)
@@ -770,8 +764,16 @@ class _Reader:
             else [including.parent / candidate, *(p / candidate for p in self.options.search_path)]
         )
         try:
-            found = next((t for t in tries if t.exists()), tries[0])
-            resolved = found.resolve()
+            found = None
+            for attempt in tries:
+                # Every lookup is recorded, found or not: a file created later where one
+                # was missing (or shadowing a search-path file) must change the result key.
+                if attempt.exists():
+                    found = attempt
+                    self.inputs.append(("lookup", str(attempt.absolute()), str(attempt.resolve())))
+                    break
+                self.inputs.append(("lookup", str(attempt.absolute()), ""))
+            resolved = (found or tries[0]).resolve()
         except (OSError, ValueError) as exc:
             # A name the file system cannot look up: too long, or holding a NUL byte or
             # a character with no encoding in file names.
@@ -780,17 +782,122 @@ class _Reader:
                 span, f"include '{name}' is not a usable file name: {reason}", "include"
             ) from None
         root = self.options.root
-        if root is not None and not self.options.allow_outside_root:
-            if not resolved.is_relative_to(root.resolve()):
-                self.report(
-                    Severity.ERROR,
-                    span,
-                    f"include '{name}' resolves outside the project root '{self.display(root)}'; "
-                    "refused (set allow_outside_root to permit it)",
-                    "include",
-                )
-                return None
+        inside = root is not None and resolved.is_relative_to(root.resolve())
+        if root is not None and not inside and not self.options.allow_outside_root:
+            self.report(
+                Severity.ERROR,
+                span,
+                f"include '{name}' resolves outside the project root '{self.display(root)}'; "
+                "refused (--allow-outside-root permits it)",
+                "include",
+            )
+            return None
+        hidden = hidden_part(Path(name), resolved, root.resolve() if inside and root else None)
+        if hidden is not None and not self.options.allow_hidden_includes:
+            self.report(
+                Severity.ERROR,
+                span,
+                f"include '{name}' is in a hidden or version-control location ('{hidden}'); "
+                "refused: such files hold settings and secrets, not netlists",
+                "include",
+            )
+            return None
         return resolved
+
+
+# Folders of version-control systems; names starting with '.' are refused as well.
+VCS_FOLDERS = frozenset({".git", ".hg", ".svn", ".bzr", "_darcs", "cvs", ".pijul", ".fossil"})
+
+
+def hidden_part(written: Path, resolved: Path, root: Path | None) -> str | None:
+    """The first dot-file, dot-folder or version-control folder on an include's way, if any.
+
+    Checked on the name as written, on the resolved file's name, and on the folders between
+    the project root and the file (the folders above the root are the user's business).
+    """
+    parts = [p for p in written.parts if p not in (".", "..", "/", "~")]
+    below = resolved.relative_to(root).parts if root is not None else (resolved.name,)
+    for part in (*parts, *below, resolved.name):
+        if part.startswith(".") and part not in (".", "..") or part.lower() in VCS_FOLDERS:
+            return part
+    return None
+
+
+@dataclass(frozen=True, slots=True)
+class _Refusal:
+    message: str  # with {shown} for the file's name
+    code: str = ""  # "" : the caller's code (file or include)
+
+
+def _sha256(data: bytes) -> str:
+    import hashlib
+
+    return hashlib.sha256(data).hexdigest()
+
+
+def read_bounded(path: Path, max_bytes: int) -> bytes | _Refusal:
+    """A regular file's bytes, at most ``max_bytes``; never blocks on a FIFO or a device.
+
+    The file is opened without blocking and checked on the open descriptor, so a FIFO or a
+    device swapped in after a check cannot hang the read.
+    """
+    import stat
+
+    try:
+        flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0)
+        fd = os.open(path, flags)
+    except FileNotFoundError:
+        return _Refusal("file '{shown}' not found")
+    except IsADirectoryError:
+        return _Refusal("'{shown}' is a directory, not a netlist")
+    except OSError as exc:
+        return _Refusal(f"cannot read '{{shown}}': {exc.strerror or exc}")
+    try:
+        info = os.fstat(fd)
+        if stat.S_ISDIR(info.st_mode):
+            return _Refusal("'{shown}' is a directory, not a netlist")
+        if not stat.S_ISREG(info.st_mode):
+            return _Refusal("'{shown}' is not a regular file (a FIFO, socket or device); not read")
+        if info.st_size > max_bytes:
+            return _Refusal(_too_big(info.st_size, max_bytes), "limit")
+        chunks = []
+        total = 0
+        while total <= max_bytes:  # the size can grow between fstat and the read
+            chunk = os.read(fd, min(1 << 20, max_bytes + 1 - total))
+            if not chunk:
+                break
+            chunks.append(chunk)
+            total += len(chunk)
+        return b"".join(chunks)
+    except OSError as exc:
+        return _Refusal(f"cannot read '{{shown}}': {exc.strerror or exc}")
+    finally:
+        os.close(fd)
+
+
+def _too_big(size: int, max_bytes: int) -> str:
+    return (
+        f"'{{shown}}' is {size} bytes, over the limit of {max_bytes} bytes (limit max_file_bytes)"
+    )
+
+
+# C0 control characters that text files do not hold (TAB, LF, VT, FF, CR and ESC aside).
+_CONTROL_BYTES = bytes(b for b in range(32) if b not in (9, 10, 11, 12, 13, 27)) + b"\x7f"
+
+
+def refuse_content(data: bytes, max_bytes: int) -> _Refusal | None:
+    """Why these bytes are not a netlist to read: too large, binary; or None."""
+    if len(data) > max_bytes:
+        return _Refusal(_too_big(len(data), max_bytes), "limit")
+    if b"\x00" in data:
+        return _Refusal("'{shown}' is a binary file, not a netlist")
+    # Text with a stray control character is still text; a file that is mostly control
+    # bytes is not (an image, an archive, a compiled model without NULs).
+    sample = data[: 1 << 16]
+    controls = len(sample) - len(sample.translate(None, _CONTROL_BYTES))
+    if sample and controls * 20 > len(sample):
+        return _Refusal("'{shown}' is a binary file (mostly control bytes), not a netlist")
+    return None
 
 
 def _group_too_deep(text: str, limit: int) -> int | None:
@@ -815,32 +922,34 @@ def _split_path_args(text: str) -> list[str]:
 
 
 def read_deck(
-    path: str | Path, options: ReadOptions | None = None, text: str | None = None
+    path: str | Path, options: ReadOptions | None = None, text: str | bytes | None = None
 ) -> Deck:
-    """Read a top-level netlist and everything it includes. Never raises for bad input."""
+    """Read a top-level netlist and everything it includes. Never raises for bad input.
+
+    ``text`` is the netlist itself (standard input, or a test's string): it goes through the
+    same size, NUL and binary checks as a file's bytes.
+    """
     options = options or ReadOptions()
     cwd = Path.cwd()
     reader = _Reader(options, cwd)
     target = Path(path)
     if text is not None:
         shown = str(path)
-        lines = split_physical_lines(text)
-        reader.files.append(shown)
-        reader.sources[shown] = lines
-        reader.stack.append((target.resolve(), None))
-        reader.read_lines(lines, shown, target.resolve(), None, has_title=True)
-        reader.stack.pop()
+        data = text.encode("utf-8", "surrogatepass") if isinstance(text, str) else text
+        absolute = target.resolve()
+        loaded = reader.accept(data, shown, Span(shown, 1, 1), "file")
     else:
         shown = reader.display(target.absolute()) if target.is_absolute() else str(path)
         absolute = target.resolve()
+        reader.inputs.append(("lookup", str(target.absolute()), str(absolute)))
         loaded = reader.load(absolute, shown, None)
-        if loaded is not None:
-            reader.stack.append((absolute, None))
-            try:
-                reader.read_lines(loaded, shown, absolute, None, has_title=True)
-            except DiagnosticError as exc:
-                reader.diagnostics.append(exc.diagnostic)
-            reader.stack.pop()
+    if loaded is not None:
+        reader.stack.append((absolute, None))
+        try:
+            reader.read_lines(loaded, shown, absolute, None, has_title=True)
+        except DiagnosticError as exc:
+            reader.diagnostics.append(exc.diagnostic)
+        reader.stack.pop()
     while reader.blocks:
         header, _ = reader.blocks.pop()
         reader.report(Severity.ERROR, header.span, f"subcircuit '{header.name}' has no '.ends'")
@@ -852,4 +961,5 @@ def read_deck(
         directives=tuple(reader.directives),
         diagnostics=tuple(reader.diagnostics),
         sources=reader.sources,
+        inputs=tuple(reader.inputs),
     )
