@@ -42,9 +42,13 @@ _UNPRINTABLE = {
 EXCERPT_CHARS = 120
 
 
-def printable(text: str) -> str:
-    """``text`` with every control character written as a visible escape (``\\x1b``)."""
-    return text.translate(_UNPRINTABLE)
+_LINE_BREAKS_KEPT = {k: v for k, v in _UNPRINTABLE.items() if k not in (0x0A, 0x0D)}
+
+
+def printable(text: str, keep_line_breaks: bool = False) -> str:
+    """``text`` with every control character written as a visible escape (``\\x1b``);
+    with ``keep_line_breaks``, CR and LF are left for the caller's own escaping."""
+    return text.translate(_LINE_BREAKS_KEPT if keep_line_breaks else _UNPRINTABLE)
 
 
 def excerpt(line: str, limit: int = EXCERPT_CHARS) -> str:
@@ -114,12 +118,15 @@ class Diagnostic:
 
     __reduce__ = positional_reduce
 
+    def headline(self) -> str:
+        """Position, severity and message, printable: what machine-readable reports carry."""
+        return f"{printable(str(self.span))}: {self.severity.label}: {printable(self.message)}"
+
     def render(self) -> str:
-        """For a terminal: position, severity, message, and a short excerpt with a caret."""
-        head = f"{printable(str(self.span))}: {self.severity.label}: {printable(self.message)}"
+        """For a terminal: the headline, and a short excerpt of the line with a caret."""
         if not self.source_line:
-            return head
-        return f"{head}\n{quoted_line(self.source_line, self.span.column)}"
+            return self.headline()
+        return f"{self.headline()}\n{quoted_line(self.source_line, self.span.column)}"
 
     def shortened(self) -> Diagnostic:
         """The same diagnostic keeping no more of its line than a report would quote."""
