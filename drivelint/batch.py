@@ -91,6 +91,8 @@ def plan(
     """One job per file not excluded by its configuration; configurations read once."""
     configs: dict[Path | None, Config] = {}
     found: dict[Path, Path | None] = {}  # folder -> its configuration file
+    from drivelint.ratings.parts import load_libraries
+
     roots = options.scan_roots or tuple(paths)
 
     def config_for(path: Path) -> Config:
@@ -102,7 +104,11 @@ def plan(
                 found[folder] = find_config(path)
             where = found[folder]
         if where not in configs:
-            configs[where] = load_config(where)
+            config = load_config(where)
+            # The parts libraries named by the configuration or the command line are
+            # checked once, here: a bad one stops the run (PartsError) before any file.
+            load_libraries((*config.parts, *options.parts))
+            configs[where] = config
         return configs[where]
 
     def job(path: Path, text: bytes | str | None = None) -> Job:

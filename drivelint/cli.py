@@ -88,10 +88,11 @@ def _plan(files: list[Path], options: object, stdin: tuple[str, bytes] | None = 
     """Jobs for the files, or exit 2 naming the configuration or parts file at fault."""
     from drivelint.batch import plan
     from drivelint.config import ConfigError
+    from drivelint.ratings.parts import PartsError
 
     try:
         return plan(files, options, stdin)  # type: ignore[arg-type]
-    except ConfigError as exc:
+    except (ConfigError, PartsError) as exc:
         _fail(str(exc))
 
 

@@ -173,6 +173,7 @@ def check_path(
     """
     from drivelint.checks.runner import check_circuit
     from drivelint.config import find_config, load_config, may_widen
+    from drivelint.ratings.parts import PartsError
     from drivelint.ratings.values import Value
     from drivelint.stages.recognise import recognise
 
@@ -182,7 +183,19 @@ def check_path(
     if load is None:
         load = options_from(config, may_widen(config, target, (target,)))
     circuit = load_circuit(target, load, text=text, inputs=inputs)
-    library = parts_for(target, (*config.parts, *parts))
+    try:
+        library = parts_for(target, (*config.parts, *parts))
+    except PartsError as exc:
+        # A parts.toml beside the netlist that cannot be used: this file is not checked
+        # (checking against defaults would report what the library would have settled).
+        from dataclasses import replace
+
+        from drivelint.checks.runner import CheckResult
+        from drivelint.diagnostics import Diagnostic, Severity, Span
+
+        problem = Diagnostic(Severity.ERROR, Span(str(target), 1, 1), str(exc), "", "parts")
+        circuit = replace(circuit, diagnostics=(*circuit.diagnostics, problem))
+        return CheckResult(circuit, (), (), circuit.diagnostics)
     stages = recognise(circuit, library)
     from drivelint.ratings.directives import CONDITION_KEYS
 
