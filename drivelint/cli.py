@@ -195,6 +195,8 @@ def stages_command(
         import json
 
         payload = stages_json([s for _, stages in results for s in stages])  # type: ignore[misc]
+        # What could not be read is said, not only left out of the stages.
+        payload["diagnostics"] = [d.to_json() for c, _ in results for d in c.diagnostics]
         click.echo(json.dumps(payload, indent=2))
     else:
         click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))  # type: ignore[arg-type]
