@@ -68,7 +68,8 @@ class BatchStats:
 
 def shard_of(path: Path, count: int) -> int:
     """A stable shard number in 0..count-1 for a path (by its POSIX form)."""
-    value = hashlib.sha256(path.as_posix().encode("utf-8")).digest()
+    # File names that are not UTF-8 arrive with surrogate escapes: hash their own bytes.
+    value = hashlib.sha256(path.as_posix().encode("utf-8", "surrogateescape")).digest()
     return int.from_bytes(value[:8], "big") % count
 
 
@@ -300,11 +301,11 @@ def _settings_digest(job: Job, options: BatchOptions) -> bytes:
         pieces = [
             f"format {CACHE_FORMAT} drivelint {__version__}".encode(),
             code_digest().encode(),
-            str(config.path).encode(),
+            os.fsencode(str(config.path)),
             file_digest(config.path).encode() if config.path is not None else b"none",
         ]
         for part in parts:
-            pieces.append(str(part.absolute()).encode() + b"=" + file_digest(part).encode())
+            pieces.append(os.fsencode(part.absolute()) + b"=" + file_digest(part).encode())
         found = digest(*pieces).encode()
         _SETTINGS_DIGESTS[key] = found
     return found
@@ -327,11 +328,11 @@ def cache_key(job: Job, options: BatchOptions) -> str | None:
     except (OSError, RuntimeError):
         return None
     return digest(
-        str(job.path).encode(),  # reports show the path as given ...
-        str(Path.cwd()).encode(),  # ... relative to the folder drivelint runs in
-        str(resolved).encode(),
-        str(root).encode(),  # a root marker added or removed moves the sandbox
-        os.path.expanduser("~").encode(),  # '~' in an include name
+        os.fsencode(job.path),  # reports show the path as given ...
+        os.fsencode(Path.cwd()),  # ... relative to the folder drivelint runs in
+        os.fsencode(resolved),
+        os.fsencode(root),  # a root marker added or removed moves the sandbox
+        os.fsencode(os.path.expanduser("~")),  # '~' in an include name
         b"outside=%d hidden=%d" % (job.allow_outside_root, job.allow_hidden_includes),
         content,
         _settings_digest(job, options),

@@ -388,7 +388,8 @@ def write_entry(folder: Path, key: str, inputs: list[tuple[str, str, str]], resu
         "inputs": [list(item) for item in inputs],
         "result": encode(result),
     }
-    text = json.dumps(entry, separators=(",", ":"), ensure_ascii=False)
+    # ASCII: a file name that is not UTF-8 (surrogate escapes) stays representable.
+    text = json.dumps(entry, separators=(",", ":"))
     target = entry_path(folder, key)
     try:
         target.parent.mkdir(mode=0o700, exist_ok=True)

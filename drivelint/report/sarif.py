@@ -58,8 +58,10 @@ def artifact_uri(path: str) -> tuple[str, str | None]:
     """The URI of a checked file and its base id (None for an absolute ``file:`` URI)."""
     portable = portable_path(path)
     if PurePath(portable).is_absolute():
-        return "file://" + quote(portable if portable.startswith("/") else "/" + portable), None
-    return quote(portable), SOURCE_ROOT
+        absolute = portable if portable.startswith("/") else "/" + portable
+        return "file://" + quote(absolute, errors="surrogateescape"), None
+    # A file name that is not UTF-8 keeps its own bytes, percent-encoded.
+    return quote(portable, errors="surrogateescape"), SOURCE_ROOT
 
 
 def _unwrap(text: str) -> str:
@@ -183,7 +185,7 @@ def _fingerprint(finding: Finding) -> str:
     key = "\0".join(
         (portable_path(finding.span.path), finding.rule, finding.switch, finding.device)
     )
-    return hashlib.sha256(key.encode("utf-8")).hexdigest()[:32]
+    return hashlib.sha256(key.encode("utf-8", "surrogateescape")).hexdigest()[:32]
 
 
 def _acceptance_reason(result: CheckResult, finding: Finding) -> str:

@@ -170,3 +170,24 @@ def test_a_terminal_that_cannot_encode_gets_escapes_not_a_crash(
     assert b"UnicodeEncodeError" not in run.stderr and b"Traceback" not in run.stderr
     assert run.returncode == 1
     assert len(run.stdout) > 100
+
+
+@pytest.mark.skipif(sys.platform != "linux", reason="file names of any bytes: Linux")
+@pytest.mark.parametrize("fmt", ["text", "json", "sarif", "junit", "github", "html"])
+def test_a_file_name_that_is_not_utf8_is_reported_in_every_format(tmp_path: Path, fmt: str) -> None:
+    """Such a name arrives with surrogate escapes, which strict encoders refuse."""
+    name = os.fsdecode(b"caf\xe9.cir")
+    (tmp_path / name).write_bytes(FLAWED.read_bytes().replace(b"\n", b" \xe9\xff\n", 1))
+    for attempt in ("cold", "warm", "shard"):
+        extra = ["--shard", "1/1"] if attempt == "shard" else []
+        run = drivelint(
+            "check",
+            "--format",
+            fmt,
+            *extra,
+            ".",
+            cwd=tmp_path,
+            env={"PYTHONIOENCODING": "utf-8:strict"},
+        )
+        assert run.returncode == 1 and b"Traceback" not in run.stderr, (attempt, run.stderr[-2000:])
+    assert b"(1 from cache)" in run.stdout + run.stderr
