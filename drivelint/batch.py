@@ -22,7 +22,7 @@ from typing import TypeVar
 from drivelint import __version__
 from drivelint.cache import CACHE_FORMAT, default_cache_dir, digest, file_digest
 from drivelint.checks.runner import CheckResult
-from drivelint.circuit.model import Circuit
+from drivelint.circuit.model import Circuit, Device
 from drivelint.config import Config, find_config, load_config, may_widen
 from drivelint.diagnostics import Diagnostic, Severity, Span
 
@@ -311,6 +311,9 @@ def _settings_digest(job: Job, options: BatchOptions) -> bytes:
     return found
 
 
+_ROOTS: dict[Path, Path] = {}
+
+
 def cache_key(job: Job, options: BatchOptions) -> str | None:
     """The key of a job's result, or None when the job is not cacheable (standard input,
     an unreadable file)."""
@@ -324,7 +327,10 @@ def cache_key(job: Job, options: BatchOptions) -> str | None:
         return None
     try:
         resolved = job.path.resolve()
-        root = find_project_root(job.path)
+        folder = resolved.parent
+        root = _ROOTS.get(folder)
+        if root is None:  # one walk per folder and batch (run_batch clears the table)
+            root = _ROOTS[folder] = find_project_root(resolved)
     except (OSError, RuntimeError):
         return None
     return digest(
@@ -361,6 +367,9 @@ def check_and_store(job: Job, options: BatchOptions) -> CheckResult:
         return result
     if any(d.code in ("internal-error", "limit") for d in result.diagnostics):
         return result  # a crash or a bound is not worth keeping: the next run tries again
+    # The netlist itself is in the key already (its bytes and where its path leads).
+    top = (str(job.path.absolute()), str(job.path.resolve()))
+    inputs = [i for i in inputs if not (i[0] == "file" and i[1] == top[1]) and i[1] != top[0]]
     write_entry(options.cache_dir, key, inputs, result)
     return result
 
@@ -387,7 +396,7 @@ def slim(result: CheckResult) -> CheckResult:
     names |= {n for f in (*result.findings, *result.accepted) for n in (f.device, f.switch)}
     if s_driver := {s.driver.device for s in result.stages if s.driver}:
         names |= s_driver
-    devices = {n: circuit.devices[n] for n in sorted(names) if n in circuit.devices}
+    devices = {n: _slim_device(circuit.devices[n]) for n in sorted(names) if n in circuit.devices}
     instances = {n: circuit.instances[n] for n in sorted(names) if n in circuit.instances}
     wanted: dict[str, dict[int, str]] = {}
     for finding in (*result.findings, *result.accepted):
@@ -413,6 +422,20 @@ def slim(result: CheckResult) -> CheckResult:
         ),
         diagnostics=diagnostics,
     )
+
+
+_KEPT_MODEL_PARAMS = frozenset({"pchan", "nchan"})  # what Model.polarity reads
+
+
+def _slim_device(device: Device) -> Device:
+    """A device as reports use it: its model's name, type and polarity, not every parameter."""
+    from dataclasses import replace
+
+    model = device.model
+    if model is None or not model.params:
+        return device
+    params = {k: v for k, v in model.params.items() if k in _KEPT_MODEL_PARAMS}
+    return replace(device, model=replace(model, params=params))
 
 
 # -- the pool --------------------------------------------------------------------------------
@@ -477,6 +500,7 @@ def run_batch(
 
         options = replace(options, cache_dir=None)  # someone else could write there
     stats = BatchStats(files=len(jobs))
+    _ROOTS.clear()  # a marker may have been added since the last batch in this process
     if options.cache_dir is not None:
         prepare()
     results: list[CheckResult | None] = [cache_lookup(j, options) for j in jobs]

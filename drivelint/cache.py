@@ -234,7 +234,16 @@ def _make_decoder(hint: Any) -> Decoder:  # noqa: C901 - one branch per kind of 
     if hint is int:
         return lambda v: v if type(v) is int else _fail("expected an integer")
     if hint is float:
-        return lambda v: float(v) if type(v) in (float, int) else _fail("expected a number")
+
+        def decode_float(v: Any) -> float:
+            kind = type(v)
+            if kind is float:
+                return v  # type: ignore[no-any-return]
+            if kind is int:
+                return float(v)
+            _fail("expected a number")
+
+        return decode_float
     if isinstance(hint, type) and issubclass(hint, enum.Enum):
         enum_type = hint
 
