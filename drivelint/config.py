@@ -175,6 +175,22 @@ def _read_with_lines(path: Path) -> tuple[dict[str, Any], Any]:
     return data, lines
 
 
+# The most any configuration may raise a limit to: enough for the largest real designs,
+# small enough that a hostile drivelint.toml cannot remove a bound.
+LIMIT_CEILINGS: Mapping[str, int] = {
+    "max_file_bytes": 1 << 30,
+    "max_line_chars": 100_000_000,
+    "max_include_depth": 256,
+    "max_files": 100_000,
+    "max_subckt_nesting": 256,
+    "max_instance_depth": 256,
+    "max_expression_chars": 1_000_000,
+    "max_expression_depth": 500,
+    "max_param_recursion": 500,
+    "max_devices": 50_000_000,
+    "max_seconds_per_file": 3600,
+}
+
 # Ranges of the operating conditions (SI units): a negative, zero, NaN or infinite
 # frequency or bus voltage would make findings vanish rather than fail.
 CONDITION_RANGES: Mapping[str, tuple[float, float, bool]] = {
@@ -300,8 +316,11 @@ def _parse(
                 raise fail(
                     ("limits", key), "unknown limit; expected one of " + ", ".join(sorted(names))
                 )
-            if not isinstance(value, int) or isinstance(value, bool) or not 0 < value < 1 << 62:
+            if not isinstance(value, int) or isinstance(value, bool) or value <= 0:
                 raise fail(("limits", key), "expected a positive integer")
+            if value > LIMIT_CEILINGS[key]:
+                # A configuration inside a scanned tree must not switch its bounds off.
+                raise fail(("limits", key), f"{value} is over the ceiling of {LIMIT_CEILINGS[key]}")
             origins[f"limits.{key}"] = origin(f"limits.{key}")
         config = replace(config, limits=replace(Limits(), **values))
 

@@ -51,6 +51,11 @@ BAD_CONFIGS = {
     "limit a float": ("[limits]\nmax_devices = 1e3\n", "limits.max_devices", 2),
     "limit a boolean": ("[limits]\nmax_devices = true\n", "limits.max_devices", 2),
     "limit huge": ("[limits]\nmax_devices = 9223372036854775807\n", "limits.max_devices", 2),
+    "time bound switched off": (
+        "[limits]\nmax_seconds_per_file = 100000000\n",
+        "limits.max_seconds_per_file",
+        2,
+    ),
     "negative frequency": ("[conditions]\nfsw = '-100 kHz'\n", "conditions.fsw", 2),
     "zero frequency": ("[conditions]\nfsw = 0\n", "conditions.fsw", 2),
     "NaN frequency": ("[conditions]\nfsw = nan\n", "conditions.fsw", 2),
@@ -117,6 +122,15 @@ def test_every_command_exits_2_on_a_bad_configuration(
     result = CliRunner().invoke(main, [command, str(deck)])
     assert result.exit_code == 2 and key in result.output, result.output
     assert result.exception is None or isinstance(result.exception, SystemExit)
+
+
+def test_every_limit_has_a_ceiling() -> None:
+    from drivelint.config import LIMIT_CEILINGS
+    from drivelint.limits import Limits
+
+    assert set(LIMIT_CEILINGS) == set(Limits.names())
+    for name in Limits.names():
+        assert getattr(Limits(), name) <= LIMIT_CEILINGS[name], name
 
 
 def test_pyproject_errors_carry_the_full_key_and_its_line(tmp_path: Path) -> None:
