@@ -25,6 +25,7 @@ from drivelint.checks.runner import CheckResult
 from drivelint.circuit.model import Circuit, Device
 from drivelint.config import Config, find_config, load_config, may_widen
 from drivelint.diagnostics import Diagnostic, Severity, Span
+from drivelint.paths import resolved
 
 __all__ = ["default_cache_dir"]
 
@@ -368,7 +369,7 @@ def check_and_store(job: Job, options: BatchOptions) -> CheckResult:
     if any(d.code in ("internal-error", "limit") for d in result.diagnostics):
         return result  # a crash or a bound is not worth keeping: the next run tries again
     # The netlist itself is in the key already (its bytes and where its path leads).
-    top = (str(job.path.absolute()), str(job.path.resolve()))
+    top = (str(job.path.absolute()), str(resolved(job.path)))
     inputs = [i for i in inputs if not (i[0] == "file" and i[1] == top[1]) and i[1] != top[0]]
     write_entry(options.cache_dir, key, inputs, result)
     return result

@@ -89,7 +89,7 @@ def lookup_outcome(candidate: str) -> str:
     path = Path(candidate)
     try:
         return str(path.resolve()) if path.exists() else ""
-    except (OSError, ValueError):
+    except (OSError, ValueError, RuntimeError):  # RuntimeError: a symbolic-link loop
         return ""
 
 

@@ -94,9 +94,11 @@ class Config:
 
 
 def _relative(path: Path, root: Path | None) -> str:
-    resolved = path.resolve()
-    if root is not None and resolved.is_relative_to(root.resolve()):
-        return resolved.relative_to(root.resolve()).as_posix()
+    from drivelint.paths import resolved as resolve
+
+    resolved, top = resolve(path), resolve(root) if root is not None else None
+    if top is not None and resolved.is_relative_to(top):
+        return resolved.relative_to(top).as_posix()
     return path.as_posix()
 
 
@@ -147,7 +149,9 @@ def may_widen(config: Config, netlist: Path, scan_roots: tuple[Path, ...] | list
 
 def find_config(start: Path) -> Path | None:
     """The nearest drivelint.toml, or pyproject.toml with a [tool.drivelint] table."""
-    folder = start.resolve()
+    from drivelint.paths import resolved
+
+    folder = resolved(start)
     folder = folder if folder.is_dir() else folder.parent
     for candidate in (folder, *folder.parents):
         own = candidate / "drivelint.toml"
@@ -188,6 +192,7 @@ LIMIT_CEILINGS: Mapping[str, int] = {
     "max_expression_depth": 500,
     "max_param_recursion": 500,
     "max_devices": 50_000_000,
+    "max_lines_read": 100_000_000,
     "max_seconds_per_file": 3600,
 }
 

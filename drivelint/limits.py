@@ -19,6 +19,8 @@ class Limits:
     max_expression_depth: int = 64
     max_param_recursion: int = 64
     max_devices: int = 2_000_000
+    # Lines read in all, a file counted again each time it is included.
+    max_lines_read: int = 1_000_000
     # Wall-clock seconds one file may take in any command (netlist, stages, check).
     max_seconds_per_file: int = 60
 

@@ -42,7 +42,9 @@ class LoadOptions:
 
 def find_project_root(path: Path) -> Path:
     """The nearest folder above ``path`` holding a project marker, else the file's folder."""
-    start = path.resolve()
+    from drivelint.paths import resolved
+
+    start = resolved(path)
     folder = start if start.is_dir() else start.parent
     for candidate in (folder, *folder.parents):
         if any((candidate / marker).exists() for marker in ROOT_MARKERS):

@@ -11,6 +11,7 @@ PACKAGE = Path(__file__).resolve().parent.parent / "drivelint"
 RANKS = {
     "diagnostics": 0,
     "limits": 0,
+    "paths": 0,
     "_gc": 0,
     "physics": 0,
     "netlist": 1,

@@ -37,6 +37,7 @@ from drivelint.netlist.statements import (
     TranCard,
     Word,
 )
+from drivelint.paths import resolved
 
 DIRECTIVE_PREFIX = "drivelint:"
 ELEMENT_LETTERS = frozenset("rclkdqmjvieifghbswx")
@@ -261,6 +262,7 @@ class _Reader:
         self.files: list[str] = []
         self.sources: dict[str, tuple[str, ...]] = {}
         self.inputs: list[tuple[str, str, str]] = []
+        self.lines_read = 0  # counting a file again each time it is included
         self.stack: list[tuple[Path, str | None]] = []
         self.title = ""
         # Open .subckt blocks: (header statement fields, body being collected).
@@ -306,6 +308,27 @@ class _Reader:
             return None
         self.inputs.append(("file", str(path), _sha256(data)))
         return self.accept(data, shown, where, code)
+
+    def count_lines(self, count: int, where: Span, shown: str) -> bool:
+        """Add ``count`` lines to those read; False once the total passes its bound.
+
+        A small file included a hundred thousand times is read each time: without this
+        bound it would build gigabytes of statements before any other limit is reached.
+        """
+        limit = self.limits.max_lines_read
+        over = self.lines_read > limit
+        self.lines_read += count
+        if self.lines_read <= limit:
+            return True
+        if not over:  # said once; later includes are skipped in silence
+            self.report(
+                Severity.ERROR,
+                where,
+                f"more than {limit} lines read, counting a file again each time it is "
+                f"included (limit max_lines_read); '{shown}' and later includes not read",
+                "limit",
+            )
+        return False
 
     def accept(self, data: bytes, shown: str, where: Span, code: str) -> tuple[str, ...] | None:
         """Check the bytes of a netlist (read from a file or standard input) and keep its lines."""
@@ -446,6 +469,8 @@ class _Reader:
             lines = self.load(path, shown, origin)
             if lines is None:
                 return True
+        if not self.count_lines(len(lines), where, shown):
+            return True
         self.stack.append(key)
         try:
             return self.read_lines(lines, shown, path, section, has_title=origin is None)
@@ -738,6 +763,8 @@ class _Reader:
             raise self.fail(line.span, f"expected {form}", "include")
         name = args[0]
         section = args[1].lower() if library else None
+        if self.lines_read > self.limits.max_lines_read:
+            return  # past the bound on lines read (said once, in count_lines)
         target = self.resolve(name, path, line.span_at(len(card) + 1))
         if target is None:
             return
@@ -774,6 +801,10 @@ class _Reader:
                     break
                 self.inputs.append(("lookup", str(attempt.absolute()), ""))
             resolved = (found or tries[0]).resolve()
+        except RuntimeError:
+            raise self.fail(
+                span, f"include '{name}' is a loop of symbolic links", "include"
+            ) from None
         except (OSError, ValueError) as exc:
             # A name the file system cannot look up: too long, or holding a NUL byte or
             # a character with no encoding in file names.
@@ -936,14 +967,14 @@ def read_deck(
     if text is not None:
         shown = str(path)
         data = text.encode("utf-8", "surrogatepass") if isinstance(text, str) else text
-        absolute = target.resolve()
+        absolute = resolved(target)
         loaded = reader.accept(data, shown, Span(shown, 1, 1), "file")
     else:
         shown = reader.display(target.absolute()) if target.is_absolute() else str(path)
-        absolute = target.resolve()
+        absolute = resolved(target)
         reader.inputs.append(("lookup", str(target.absolute()), str(absolute)))
         loaded = reader.load(absolute, shown, None)
-    if loaded is not None:
+    if loaded is not None and reader.count_lines(len(loaded), Span(shown, 1, 1), shown):
         reader.stack.append((absolute, None))
         try:
             reader.read_lines(loaded, shown, absolute, None, has_title=True)

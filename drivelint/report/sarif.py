@@ -21,6 +21,7 @@ from drivelint.checks.base import Finding
 from drivelint.checks.registry import Rule, registry
 from drivelint.checks.runner import CheckResult
 from drivelint.diagnostics import Diagnostic, Severity, Span, excerpt
+from drivelint.paths import resolved
 from drivelint.report.status import failed
 
 if TYPE_CHECKING:
@@ -48,7 +49,7 @@ def portable_path(path: str) -> str:
     pure = PurePath(path)
     if pure.is_absolute():
         try:
-            pure = Path(path).resolve().relative_to(Path.cwd().resolve())
+            pure = resolved(Path(path)).relative_to(resolved(Path.cwd()))
         except ValueError:
             return pure.as_posix()
     return posixpath.normpath(pure.as_posix())

@@ -182,3 +182,27 @@ def test_an_empty_netlist_says_so_and_is_not_clean(tmp_path: Path, text: str) ->
         "holds no devices"
         in drivelint("check", "--no-cache", "empty.cir", cwd=tmp_path).stdout.decode()
     )
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_a_file_included_again_and_again_is_bounded(tmp_path: Path, command: str) -> None:
+    """Each include of a file reads it again: 100,000 includes of a 1,000-line file built
+    gigabytes of statements before any other bound was reached."""
+    (tmp_path / "drivelint.toml").write_text("[limits]\nmax_lines_read = 20000\n")
+    (tmp_path / "cell.inc").write_text("".join(f"R{i} a b 1k\n" for i in range(1000)))
+    (tmp_path / "x.cir").write_text("t\n" + ".include cell.inc\n" * 100_000)
+    run = drivelint(command, "x.cir", cwd=tmp_path, timeout=60)
+    no_traceback(run)
+    assert text_of(run).count("(limit max_lines_read)") == 1
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_a_loop_of_symbolic_links_is_a_diagnostic(tmp_path: Path, command: str) -> None:
+    (tmp_path / "loop_a").symlink_to("loop_b")
+    (tmp_path / "loop_b").symlink_to("loop_a")
+    (tmp_path / "x.cir").write_text("t\n.include loop_a\nR1 a 0 1k\nV1 a 0 DC 5\n.end\n")
+    run = drivelint(command, "x.cir", "loop_a", cwd=tmp_path)
+    no_traceback(run)
+    out = text_of(run)
+    assert "internal error" not in out
+    assert "loop of symbolic links" in out and "Too many levels of symbolic links" in out
