@@ -183,6 +183,7 @@ def _read_with_lines(path: Path) -> tuple[dict[str, Any], Any]:
 # small enough that a hostile drivelint.toml cannot remove a bound.
 LIMIT_CEILINGS: Mapping[str, int] = {
     "max_file_bytes": 1 << 30,
+    "max_total_bytes": 4 << 30,
     "max_line_chars": 100_000_000,
     "max_include_depth": 256,
     "max_files": 100_000,

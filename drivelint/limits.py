@@ -19,6 +19,8 @@ class Limits:
     max_expression_depth: int = 64
     max_param_recursion: int = 64
     max_devices: int = 2_000_000
+    # Bytes read from all files of one netlist (each file also under max_file_bytes).
+    max_total_bytes: int = 256 * 1024 * 1024
     # Lines read in all, a file counted again each time it is included.
     max_lines_read: int = 1_000_000
     # Wall-clock seconds one file may take in any command (netlist, stages, check).

@@ -263,6 +263,7 @@ class _Reader:
         self.sources: dict[str, tuple[str, ...]] = {}
         self.inputs: list[tuple[str, str, str]] = []
         self.lines_read = 0  # counting a file again each time it is included
+        self.bytes_read = 0
         self.stack: list[tuple[Path, str | None]] = []
         self.title = ""
         # Open .subckt blocks: (header statement fields, body being collected).
@@ -305,6 +306,17 @@ class _Reader:
         data = read_bounded(path, self.limits.max_file_bytes)
         if isinstance(data, _Refusal):
             self.report(Severity.ERROR, where, data.message.format(shown=shown), data.code or code)
+            return None
+        self.bytes_read += len(data)
+        if self.bytes_read > self.limits.max_total_bytes:
+            # Each file is bounded; so is their sum (2,000 files of 32 MB would be 64 GB).
+            self.report(
+                Severity.ERROR,
+                where,
+                f"more than {self.limits.max_total_bytes} bytes read from all files "
+                f"(limit max_total_bytes); '{shown}' not read",
+                "limit",
+            )
             return None
         self.inputs.append(("file", str(path), _sha256(data)))
         return self.accept(data, shown, where, code)

@@ -121,4 +121,7 @@ def read_toml(path: Path, shown: str) -> tuple[dict[str, Any], KeyLines, str]:
         parsed = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ValueError(f"{shown}: not valid TOML: {exc}") from None
+    except RecursionError:
+        # tomllib reads nested arrays and tables recursively.
+        raise ValueError(f"{shown}: arrays or tables nested too deeply") from None
     return parsed, KeyLines(text), text

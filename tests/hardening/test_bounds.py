@@ -196,6 +196,21 @@ def test_a_file_included_again_and_again_is_bounded(tmp_path: Path, command: str
     assert text_of(run).count("(limit max_lines_read)") == 1
 
 
+def test_the_bytes_of_all_included_files_are_bounded(tmp_path: Path) -> None:
+    """Each file was bounded but not their sum: 2,000 includes of 32 MB would be 64 GB."""
+    (tmp_path / "drivelint.toml").write_text("[limits]\nmax_total_bytes = 100000\n")
+    for index in range(5):
+        (tmp_path / f"b{index}.inc").write_text("* " + "x" * 40_000 + "\n")
+    includes = "".join(f".include b{index}.inc\n" for index in range(5))
+    (tmp_path / "x.cir").write_text(f"t\n{includes}R1 a 0 1k\nV1 a 0 DC 5\n.end\n")
+    run = drivelint("netlist", "x.cir", cwd=tmp_path)
+    no_traceback(run)
+    out = text_of(run)
+    assert out.count("(limit max_total_bytes)") == 3  # b2, b3, b4: past 100,000 bytes
+    for index in (2, 3, 4):
+        assert f"'b{index}.inc' not read" in out
+
+
 @pytest.mark.parametrize("command", COMMANDS)
 def test_a_loop_of_symbolic_links_is_a_diagnostic(tmp_path: Path, command: str) -> None:
     (tmp_path / "loop_a").symlink_to("loop_b")

@@ -143,6 +143,17 @@ def test_pyproject_errors_carry_the_full_key_and_its_line(tmp_path: Path) -> Non
         load_config(path)
 
 
+def test_deeply_nested_toml_is_an_error_not_a_crash(tmp_path: Path) -> None:
+    path = tmp_path / "drivelint.toml"
+    path.write_text("colour = " + "[" * 100_000 + "]" * 100_000 + "\n")
+    with pytest.raises(ConfigError, match="nested too deeply"):
+        load_config(path)
+    parts = tmp_path / "parts.toml"
+    parts.write_text("[part.x]\nkind = " + "{a=" * 50_000 + "1" + "}" * 50_000 + "\n")
+    with pytest.raises(PartsError, match="nested too deeply"):
+        load_parts(parts)
+
+
 def test_non_utf8_configuration_names_the_line(tmp_path: Path) -> None:
     path = tmp_path / "drivelint.toml"
     path.write_bytes(b"fail_on = 'error'\n# caf\xe9\n")
