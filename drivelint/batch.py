@@ -30,6 +30,7 @@ from drivelint.paths import resolved
 __all__ = ["default_cache_dir"]
 
 T = TypeVar("T")
+MAX_JOBS = 64  # worker processes at most, whatever --jobs says
 
 
 @dataclass(frozen=True, slots=True)
@@ -518,8 +519,10 @@ def run_batch(
         import multiprocessing
 
         _warm_up()
-        chunk = max(1, min(16, len(missing) // (options.jobs * 8) or 1))
-        pool = multiprocessing.Pool(options.jobs, _worker_start, (os.getpid(),))
+        # No more workers than files, nor than MAX_JOBS: --jobs 10000 must not fork 10000.
+        workers = min(options.jobs, len(missing), MAX_JOBS)
+        chunk = max(1, min(16, len(missing) // (workers * 8) or 1))
+        pool = multiprocessing.Pool(workers, _worker_start, (os.getpid(),))
         try:
             work = [(jobs[i], options) for i in missing]
             for index, result in zip(missing, pool.imap(_worker, work, chunksize=chunk)):

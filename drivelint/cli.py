@@ -299,7 +299,7 @@ def _write_output(text: str, output: Path | None, checked: list[Path]) -> None:
     "-j",
     type=click.IntRange(min=1),
     default=None,
-    help="Worker processes (default: cores).",
+    help="Worker processes (default: cores; at most 64, and no more than files to check).",
 )
 @click.option("--no-cache", is_flag=True, help="Neither read nor write the result cache.")
 @click.option("--shard", default=None, metavar="I/N", help="Check only slice I of N (1-based).")

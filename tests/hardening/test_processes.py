@@ -114,3 +114,26 @@ def test_workers_do_not_outlive_a_killed_parent(tmp_path: Path) -> None:
     for pid in left:  # do not leave them behind whatever happens
         os.kill(pid, signal.SIGKILL)
     assert left == set()
+
+
+def test_jobs_are_capped(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> None:
+    """--jobs 100000 asked for a pool of that many processes."""
+    import multiprocessing
+
+    from drivelint import batch
+
+    asked: list[int] = []
+    real = multiprocessing.Pool
+
+    def pool(processes: int, *args: object) -> object:
+        asked.append(processes)
+        return real(min(processes, 2), *args)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(multiprocessing, "Pool", pool)
+    folder = tmp_path / "lib"
+    folder.mkdir()
+    for index in range(3):
+        (folder / f"d{index}.cir").write_text(f"d{index}\nR1 a 0 1k\nV1 a 0 DC 5\n.end\n")
+    options = batch.BatchOptions(jobs=100_000)
+    results, _ = batch.run_batch(batch.plan(sorted(folder.glob("*.cir")), options), options)
+    assert asked == [3] and len(results) == 3
