@@ -60,7 +60,9 @@ def private_folder(path: Path) -> bool:
         return False
     if not stat.S_ISDIR(info.st_mode):
         return False
-    if hasattr(os, "getuid") and info.st_uid != os.getuid():
+    if not hasattr(os, "getuid"):
+        return True  # Windows: access is by ACL, which st_mode does not show
+    if info.st_uid != os.getuid():
         return False
     return not info.st_mode & (stat.S_IWGRP | stat.S_IWOTH)
 

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from drivelint.diagnostics import Diagnostic, DiagnosticError, Severity, Span
+from drivelint.diagnostics import Diagnostic, DiagnosticError, Severity, Span, excerpt
 from drivelint.limits import Limits
 from drivelint.netlist.statements import (
     Assign,
@@ -373,7 +373,8 @@ class _Reader:
         dropped = False
         for number, raw in enumerate(lines, start=1):
             if has_title and number == 1:
-                self.title = raw.strip()
+                # Reports show the title: no more of it than of any other line.
+                self.title = excerpt(raw.strip())
                 continue
             if len(raw) > self.limits.max_line_chars:
                 self.report(

@@ -119,13 +119,21 @@ def test_printable_escapes_are_visible_and_leave_text_alone() -> None:
 
 @pytest.mark.parametrize("fmt", sorted(FORMATS))
 def test_a_10_mb_line_is_not_echoed(tmp_path: Path, fmt: str) -> None:
-    """A huge broken line is quoted, at most, as a short excerpt."""
+    """A huge broken line, or a huge title, is quoted at most as a short excerpt."""
     deck = tmp_path / "huge.cir"
-    deck.write_text("huge\nR1 a " + "x" * 10_000_000 + "\n.end\n")
+    deck.write_text("T" * 10_000_000 + "\nR1 a " + "x" * 10_000_000 + "\n.end\n")
     run = drivelint("check", "--no-cache", "--format", fmt, deck.name, cwd=tmp_path)
     assert run.returncode == 1
     assert len(run.stdout) < 200_000, fmt
-    assert "x" * 200 not in run.stdout.decode()
+    assert "x" * 200 not in run.stdout.decode() and "T" * 200 not in run.stdout.decode()
+
+
+@pytest.mark.parametrize("command", ["netlist", "stages"])
+def test_a_10_mb_title_is_not_echoed_by_netlist_and_stages(tmp_path: Path, command: str) -> None:
+    (tmp_path / "huge.cir").write_text("T" * 10_000_000 + "\nR1 a 0 1k\nV1 a 0 DC 5\n.end\n")
+    for fmt in ("text", "json"):
+        run = drivelint(command, "--format", fmt, "huge.cir", cwd=tmp_path)
+        assert len(run.stdout) < 20_000, (command, fmt)
 
 
 SECRET = "hunter2-SECRET-token"
