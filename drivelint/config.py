@@ -190,6 +190,7 @@ LIMIT_CEILINGS: Mapping[str, int] = {
     "max_subckt_nesting": 256,
     "max_instance_depth": 256,
     "max_expression_chars": 1_000_000,
+    "max_word_chars": 1_000_000,
     "max_expression_depth": 500,
     "max_param_recursion": 500,
     "max_devices": 50_000_000,

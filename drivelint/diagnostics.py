@@ -38,8 +38,9 @@ _UNPRINTABLE = {
     )
 }
 
-# How much of a netlist line a report may quote.
+# How much of a netlist line a report may quote, and how long a message may grow.
 EXCERPT_CHARS = 120
+MESSAGE_CHARS = 1_000
 
 
 _LINE_BREAKS_KEPT = {k: v for k, v in _UNPRINTABLE.items() if k not in (0x0A, 0x0D)}
@@ -117,6 +118,11 @@ class Diagnostic:
     code: str = "input"
 
     __reduce__ = positional_reduce
+
+    def __post_init__(self) -> None:
+        # A message may quote what it is about (a name, a path); never at length.
+        if len(self.message) > MESSAGE_CHARS:
+            object.__setattr__(self, "message", self.message[:MESSAGE_CHARS] + "…")
 
     def headline(self) -> str:
         """Position, severity and message, printable: what machine-readable reports carry."""

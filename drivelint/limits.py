@@ -16,6 +16,7 @@ class Limits:
     max_subckt_nesting: int = 16
     max_instance_depth: int = 32
     max_expression_chars: int = 4_096
+    max_word_chars: int = 1_024  # a name, node or number
     max_expression_depth: int = 64
     max_param_recursion: int = 64
     max_devices: int = 2_000_000

@@ -629,11 +629,32 @@ class _Reader:
         return fields
 
     def parse(self, line: LogicalLine) -> list[Field]:
+        fields: list[Field] | None = None
         if _FLAT_CHARS.isdisjoint(line.text):
-            flat = split_flat(line)
-            if flat is not None:
-                return flat
-        return self.parse_with_grammar(line)
+            fields = split_flat(line)
+        if fields is None:
+            fields = self.parse_with_grammar(line)
+        self.check_words(fields)
+        return fields
+
+    def check_words(self, fields: Sequence[Field]) -> None:
+        """Names and numbers are short: one of half a megabyte would be echoed by every
+        report that names the device or net it makes."""
+        limit = self.limits.max_word_chars
+        for item in fields:
+            if isinstance(item, Group):
+                self.check_words(item.items)
+                continue
+            words = [item.value] if isinstance(item, Assign) else [item]
+            long = len(item.key) if isinstance(item, Assign) else 0
+            long = max([long, *(len(w.raw) for w in words if isinstance(w, Word))])
+            if long > limit:
+                raise self.fail(
+                    item.span,
+                    f"a name or value is {long} characters long, over the limit of {limit} "
+                    "(limit max_word_chars)",
+                    "limit",
+                )
 
     def parse_with_grammar(self, line: LogicalLine) -> list[Field]:
         from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken

@@ -196,3 +196,23 @@ def test_machine_readable_formats_quote_no_line_of_an_input_problem(
     run = drivelint("check", "--no-cache", "--format", fmt, deck.name, cwd=tmp_path)
     assert run.returncode == 1
     assert f"{SECRET} {SECRET}" not in run.stdout.decode()
+
+
+@pytest.mark.parametrize(
+    "line",
+    [
+        "R" + "n" * 500_000 + " a 0 1k",  # a device name
+        "R1 " + "a" * 500_000 + " 0 1k",  # a net
+        ".model " + "m" * 500_000 + " D (BV=10)",  # a model name
+        ".include " + "i" * 500_000,  # a file name, quoted by its message
+        ".param " + "p" * 500_000 + "=1",  # a parameter name
+    ],
+    ids=["device", "net", "model", "include", "param"],
+)
+@pytest.mark.parametrize("command", ["netlist", "check"])
+def test_a_half_megabyte_name_is_not_echoed(tmp_path: Path, line: str, command: str) -> None:
+    """A name is part of a line: no report repeats one at length, in any message."""
+    (tmp_path / "x.cir").write_text(f"t\n{line}\nR2 b 0 1k\nV1 b 0 DC 5\n.end\n")
+    for fmt in ("text", "json"):
+        run = drivelint(command, "--format", fmt, "x.cir", cwd=tmp_path)
+        assert len(run.stdout) + len(run.stderr) < 20_000, (fmt, len(run.stdout))

@@ -867,7 +867,7 @@ DIRECTED = {
     ),
     ".tran with huge stop": (
         "t\nV1 a 0 PULSE(0 5)\n.tran 1n " + "9" * 5000 + "\n",
-        "deck.cir:3:10 number '99999",  # no float holds it, as for {1e400}
+        "deck.cir:3:10 a name or value is 5000 characters long",  # limit max_word_chars
     ),
     # 1/TSTOP, the default SIN frequency, would overflow to infinity.
     ".tran with a subnormal stop": (
