@@ -634,7 +634,8 @@ class _Reader:
             fields = split_flat(line)
         if fields is None:
             fields = self.parse_with_grammar(line)
-        self.check_words(fields)
+        if len(line.text) > self.limits.max_word_chars:  # else no word can be too long
+            self.check_words(fields)
         return fields
 
     def check_words(self, fields: Sequence[Field]) -> None:
