@@ -17,7 +17,7 @@ from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TypeVar
+from typing import TYPE_CHECKING, TypeVar
 
 from drivelint import __version__
 from drivelint.cache import CACHE_FORMAT, default_cache_dir, digest, file_digest
@@ -26,6 +26,10 @@ from drivelint.circuit.model import Circuit, Device
 from drivelint.config import Config, find_config, load_config, may_widen
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.paths import resolved
+
+if TYPE_CHECKING:
+    from drivelint.pipeline import LoadOptions
+    from drivelint.stages.model import DriveStage
 
 __all__ = ["default_cache_dir"]
 
@@ -194,7 +198,7 @@ def _failure(path: Path, message: str, code: str) -> CheckResult:
     return CheckResult(circuit, (), (), circuit.diagnostics)
 
 
-def load_options(job: Job) -> object:
+def load_options(job: Job) -> LoadOptions:
     """The reading options of a job: its configuration and the widening plan() decided."""
     from dataclasses import replace
 
@@ -219,7 +223,7 @@ def check_job(
             job.config,
             options.parts,
             text=job.text,
-            load=load_options(job),  # type: ignore[arg-type]
+            load=load_options(job),
             inputs=inputs,
         )
 
@@ -231,21 +235,21 @@ def load_job(job: Job, options: BatchOptions) -> Circuit:
     from drivelint import pipeline
 
     def work() -> Circuit:
-        return pipeline.load_circuit(job.path, load_options(job), text=job.text)  # type: ignore[arg-type]
+        return pipeline.load_circuit(job.path, load_options(job), text=job.text)
 
     return guarded(
         job.path, job.seconds(options), work, lambda m, c: failed_circuit(job.path, m, c)
     )
 
 
-def stages_job(job: Job, options: BatchOptions) -> tuple[Circuit, tuple[object, ...]]:
+def stages_job(job: Job, options: BatchOptions) -> tuple[Circuit, tuple[DriveStage, ...]]:
     """``drivelint stages``: read, elaborate and recognise one file, bounded like a check."""
     from drivelint import pipeline
 
-    def work() -> tuple[Circuit, tuple[object, ...]]:
+    def work() -> tuple[Circuit, tuple[DriveStage, ...]]:
         return pipeline.load_stages(
             job.path,
-            load_options(job),  # type: ignore[arg-type]
+            load_options(job),
             (*job.config.parts, *options.parts),
             text=job.text,
         )

@@ -8,11 +8,14 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
-from typing import Any, NoReturn
+from typing import TYPE_CHECKING, Any, NoReturn
 
 import click
 
 from drivelint import __version__
+
+if TYPE_CHECKING:
+    from drivelint.batch import BatchOptions, Job
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -78,20 +81,22 @@ _hidden_option = click.option(
 )
 
 
-def _options(**given: object) -> object:
+def _options(**given: Any) -> BatchOptions:
     from drivelint.batch import BatchOptions
 
-    return BatchOptions(**given)  # type: ignore[arg-type]
+    return BatchOptions(**given)
 
 
-def _plan(files: list[Path], options: object, stdin: tuple[str, bytes] | None = None) -> list[Any]:
+def _plan(
+    files: list[Path], options: BatchOptions, stdin: tuple[str, bytes] | None = None
+) -> list[Job]:
     """Jobs for the files, or exit 2 naming the configuration or parts file at fault."""
     from drivelint.batch import plan
     from drivelint.config import ConfigError
     from drivelint.ratings.parts import PartsError
 
     try:
-        return plan(files, options, stdin)  # type: ignore[arg-type]
+        return plan(files, options, stdin)
     except (ConfigError, PartsError) as exc:
         _fail(str(exc))
 
@@ -132,7 +137,7 @@ def netlist_command(
         allow_hidden_includes=allow_hidden_includes,
         scan_roots=files,
     )
-    circuits = [load_job(job, options) for job in _plan(_scan(files), options)]  # type: ignore[arg-type]
+    circuits = [load_job(job, options) for job in _plan(_scan(files), options)]
     if fmt == "json":
         import json
 
@@ -186,7 +191,7 @@ def stages_command(
     failed = False
     for job in _plan(_scan(files), options):
         try:
-            circuit, stages = stages_job(job, options)  # type: ignore[arg-type]
+            circuit, stages = stages_job(job, options)
         except PartsError as exc:
             _fail(str(exc))
         failed |= any(d.severity is Severity.ERROR for d in circuit.diagnostics)
@@ -194,12 +199,12 @@ def stages_command(
     if fmt == "json":
         import json
 
-        payload = stages_json([s for _, stages in results for s in stages])  # type: ignore[misc]
+        payload = stages_json([s for _, stages in results for s in stages])
         # What could not be read is said, not only left out of the stages.
         payload["diagnostics"] = [d.to_json() for c, _ in results for d in c.diagnostics]
         click.echo(json.dumps(payload, indent=2))
     else:
-        click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))  # type: ignore[arg-type]
+        click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
 
 
@@ -370,7 +375,7 @@ def check_command(
     stdin = None
     if use_stdin:
         try:
-            limit = config_for_stdin(stdin_name, options).limits.max_file_bytes  # type: ignore[arg-type]
+            limit = config_for_stdin(stdin_name, options).limits.max_file_bytes
         except ConfigError as exc:
             _fail(str(exc))
         stdin = (stdin_name, _read_stdin(limit))
@@ -381,9 +386,9 @@ def check_command(
         )
         if show_progress:
             with click.progressbar(length=len(planned), label="checking", file=sys.stderr) as bar:
-                results, stats = run_batch(planned, options, bar.update)  # type: ignore[arg-type]
+                results, stats = run_batch(planned, options, bar.update)
         else:
-            results, stats = run_batch(planned, options)  # type: ignore[arg-type]
+            results, stats = run_batch(planned, options)
     except (PartsError, RuleError, ConfigError) as exc:
         _fail(str(exc))
     color = (
