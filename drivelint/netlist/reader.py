@@ -580,7 +580,7 @@ class _Reader:
                 self.report(
                     Severity.WARNING,
                     line.span,
-                    f"unknown control card '{card}' ignored",
+                    f"unknown control card{_quote_word(card, ' ')} ignored",
                     "unknown-card",
                 )
             return
@@ -596,15 +596,15 @@ class _Reader:
             self.report(
                 Severity.WARNING,
                 line.span,
-                f"element '{card}': kind '{letter.upper()}' is not modelled by drivelint; "
-                "line ignored",
+                f"element{_quote_word(card, ' ')} of kind '{letter.upper()}' is not modelled "
+                "by drivelint; line ignored",
                 "unsupported",
             )
         else:
             raise self.fail(
                 line.span,
-                f"'{line.text.split()[0]}' does not start a statement: expected an element "
-                "name (R C L K D Q M J V I E F G H B S W X …) or a dot-card",
+                f"the line{_quote_word(line.text.split()[0], ' ')} does not start a statement: "
+                "expected an element name (R C L K D Q M J V I E F G H B S W X …) or a dot-card",
             )
 
     def behavioural(self, line: LogicalLine) -> list[Field] | None:
@@ -964,6 +964,16 @@ def refuse_content(data: bytes, max_bytes: int) -> _Refusal | None:
     if sample and controls * 20 > len(sample):
         return _Refusal("'{shown}' is a binary file (mostly control bytes), not a netlist")
     return None
+
+
+_PLAIN_NAME = re.compile(r"[.]?[A-Za-z0-9_$#\[\]<>+\-]{1,40}")
+
+
+def _quote_word(word: str, before: str = "") -> str:
+    """A line's first word as a message quotes it (after ``before``), when it looks like a
+    SPICE name; else nothing. A word such as ``TOKEN=…`` from a file that is not a netlist
+    must not carry its value into a report."""
+    return f"{before}'{word}'" if _PLAIN_NAME.fullmatch(word) else ""
 
 
 def _group_too_deep(text: str, limit: int) -> int | None:
