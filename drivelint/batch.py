@@ -1,31 +1,40 @@
-"""Checking many netlists: a process pool, per-file isolation, a content-hash cache, shards.
+"""Checking many netlists: a process pool, per-file isolation and time bound, a cache, shards.
 
 Each file is checked on its own: a rule that crashes or a file that runs past the time
 bound becomes a diagnostic for that file, and the batch goes on. Results come back in
 the order of the input list whatever the number of workers, so output is deterministic.
+Every command (``netlist``, ``stages``, ``check``) plans its files here, so each gets the
+same configuration, limits and time bound.
 """
 
 from __future__ import annotations
 
 import hashlib
 import os
-import pickle
 import signal
-import tempfile
+import threading
 from collections.abc import Callable, Iterator, Sequence
-from concurrent.futures import ProcessPoolExecutor
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING, TypeVar
 
 from drivelint import __version__
+from drivelint.cache import CACHE_FORMAT, default_cache_dir, digest, file_digest
 from drivelint.checks.runner import CheckResult
-from drivelint.circuit.model import Circuit
-from drivelint.config import Config, find_config, load_config
+from drivelint.circuit.model import Circuit, Device
+from drivelint.config import Config, find_config, load_config, may_widen
 from drivelint.diagnostics import Diagnostic, Severity, Span
+from drivelint.paths import resolved
 
-CACHE_FORMAT = 1
-DEFAULT_SECONDS_PER_FILE = 60.0
+if TYPE_CHECKING:
+    from drivelint.pipeline import LoadOptions
+    from drivelint.stages.model import DriveStage
+
+__all__ = ["default_cache_dir"]
+
+T = TypeVar("T")
+MAX_JOBS = 64  # worker processes at most, whatever --jobs says
 
 
 @dataclass(frozen=True, slots=True)
@@ -34,14 +43,26 @@ class BatchOptions:
     cache_dir: Path | None = None  # None: no cache
     config_file: Path | None = None  # None: discovered per file
     parts: tuple[Path, ...] = ()
-    seconds_per_file: float = DEFAULT_SECONDS_PER_FILE
+    seconds_per_file: float | None = None  # None: each file's limits.max_seconds_per_file
+    # Sandbox widening given on the command line (a configuration inside the scanned tree
+    # cannot give it; see config.may_widen).
+    allow_outside_root: bool = False
+    allow_hidden_includes: bool = False
+    scan_roots: tuple[Path, ...] = ()  # the paths named on the command line
 
 
 @dataclass(frozen=True, slots=True)
 class Job:
     path: Path
     config: Config
-    text: str | None = None  # standard input
+    text: bytes | str | None = None  # standard input
+    allow_outside_root: bool = False  # decided by plan()
+    allow_hidden_includes: bool = False
+
+    def seconds(self, options: BatchOptions) -> float:
+        if options.seconds_per_file is not None:
+            return options.seconds_per_file
+        return float(self.config.limits.max_seconds_per_file)
 
 
 @dataclass(slots=True)
@@ -51,16 +72,11 @@ class BatchStats:
     failed: list[str] = field(default_factory=list)
 
 
-def default_cache_dir() -> Path:
-    """The user cache directory (XDG base directory convention), drivelint's folder in it."""
-    base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
-    return Path(base) / "drivelint"
-
-
 def shard_of(path: Path, count: int) -> int:
     """A stable shard number in 0..count-1 for a path (by its POSIX form)."""
-    digest = hashlib.sha256(path.as_posix().encode("utf-8")).digest()
-    return int.from_bytes(digest[:8], "big") % count
+    # File names that are not UTF-8 arrive with surrogate escapes: hash their own bytes.
+    value = hashlib.sha256(path.as_posix().encode("utf-8", "surrogateescape")).digest()
+    return int.from_bytes(value[:8], "big") % count
 
 
 def select_shard(paths: Sequence[Path], index: int, count: int) -> list[Path]:
@@ -68,12 +84,23 @@ def select_shard(paths: Sequence[Path], index: int, count: int) -> list[Path]:
     return [p for p in paths if shard_of(p, count) == index - 1]
 
 
+def config_for_stdin(name: str, options: BatchOptions) -> Config:
+    """The configuration standard input is checked with (its limits bound the read)."""
+    where = options.config_file or find_config(Path(name))
+    return load_config(where)
+
+
 def plan(
-    paths: Sequence[Path], options: BatchOptions, stdin: tuple[str, str] | None = None
+    paths: Sequence[Path],
+    options: BatchOptions,
+    stdin: tuple[str, bytes | str] | None = None,
 ) -> list[Job]:
     """One job per file not excluded by its configuration; configurations read once."""
     configs: dict[Path | None, Config] = {}
     found: dict[Path, Path | None] = {}  # folder -> its configuration file
+    from drivelint.ratings.parts import load_libraries
+
+    roots = options.scan_roots or tuple(paths)
 
     def config_for(path: Path) -> Config:
         if options.config_file is not None:
@@ -84,18 +111,26 @@ def plan(
                 found[folder] = find_config(path)
             where = found[folder]
         if where not in configs:
-            configs[where] = load_config(where)
+            config = load_config(where)
+            # The parts libraries named by the configuration or the command line are
+            # checked once, here: a bad one stops the run (PartsError) before any file.
+            load_libraries((*config.parts, *options.parts))
+            configs[where] = config
         return configs[where]
 
-    jobs = []
-    for path in paths:
+    def job(path: Path, text: bytes | str | None = None) -> Job:
         config = config_for(path)
-        if not config.excluded(path):
-            jobs.append(Job(path, config))
+        widen = options.allow_outside_root or may_widen(config, path, roots)
+        return Job(path, config, text, widen, options.allow_hidden_includes)
+
+    jobs = [job(path) for path in paths if not config_for(path).excluded(path)]
     if stdin is not None:
         name, text = stdin
-        jobs.append(Job(Path(name), config_for(Path(name)), text))
+        jobs.append(job(Path(name), text))
     return jobs
+
+
+# -- one file, bounded -----------------------------------------------------------------------
 
 
 class _TimeLimit(Exception):
@@ -105,7 +140,12 @@ class _TimeLimit(Exception):
 @contextmanager
 def _time_limit(seconds: float) -> Iterator[None]:
     """Interrupt the work after ``seconds`` (POSIX interval timer; main thread only)."""
-    if seconds <= 0 or not hasattr(signal, "setitimer"):
+    usable = (
+        seconds > 0
+        and hasattr(signal, "setitimer")
+        and threading.current_thread() is threading.main_thread()
+    )
+    if not usable:
         yield
         return
 
@@ -121,60 +161,105 @@ def _time_limit(seconds: float) -> Iterator[None]:
         signal.signal(signal.SIGALRM, previous)
 
 
-def _failure(path: Path, message: str, code: str) -> CheckResult:
-    span = Span(str(path), 1, 1)
-    diagnostic = Diagnostic(Severity.ERROR, span, message, "", code)
-    circuit = Circuit(str(path), "", {}, (), {}, {}, frozenset(), (), (diagnostic,))
-    return CheckResult(circuit, (), (), (diagnostic,))
-
-
-def check_job(job: Job, options: BatchOptions) -> CheckResult:
-    """Check one file; never raises for anything the file or a rule does."""
-    from drivelint.pipeline import check_path
-
+def guarded(
+    path: Path, seconds: float, work: Callable[[], T], failure: Callable[[str, str], T]
+) -> T:
+    """``work()``, or ``failure(message, code)`` when it runs out of time or memory or crashes."""
     try:
-        with _time_limit(options.seconds_per_file):
-            return check_path(job.path, job.config, options.parts, text=job.text)
+        with _time_limit(seconds):
+            return work()
     except _TimeLimit:
-        return _failure(
-            job.path,
-            f"checking took longer than {options.seconds_per_file:g} s (limit seconds_per_file); "
-            "file skipped",
-            "limit",
+        return failure(
+            f"took longer than {seconds:g} s (limit max_seconds_per_file); file skipped", "limit"
         )
     except RecursionError:
-        return _failure(job.path, "input nested too deeply to check (recursion limit)", "limit")
+        return failure("input nested too deeply to check (recursion limit)", "limit")
     except MemoryError:
-        return _failure(job.path, "ran out of memory checking this file", "limit")
+        return failure("ran out of memory checking this file", "limit")
     except Exception as exc:  # a bug must cost one file, not the batch
         import traceback
 
         where = traceback.extract_tb(exc.__traceback__)[-1]
-        return _failure(
-            job.path,
+        return failure(
             f"internal error: {type(exc).__name__}: {exc} ({Path(where.filename).name}:"
             f"{where.lineno}); please report it",
             "internal-error",
         )
 
 
+def failed_circuit(path: Path, message: str, code: str) -> Circuit:
+    span = Span(str(path), 1, 1)
+    diagnostic = Diagnostic(Severity.ERROR, span, message, "", code)
+    return Circuit(str(path), "", {}, (), {}, {}, frozenset(), (), (diagnostic,))
+
+
+def _failure(path: Path, message: str, code: str) -> CheckResult:
+    circuit = failed_circuit(path, message, code)
+    return CheckResult(circuit, (), (), circuit.diagnostics)
+
+
+def load_options(job: Job) -> LoadOptions:
+    """The reading options of a job: its configuration and the widening plan() decided."""
+    from dataclasses import replace
+
+    from drivelint.pipeline import options_from
+
+    return replace(
+        options_from(job.config),
+        allow_outside_root=job.allow_outside_root,
+        allow_hidden_includes=job.allow_hidden_includes,
+    )
+
+
+def check_job(
+    job: Job, options: BatchOptions, inputs: list[tuple[str, str, str]] | None = None
+) -> CheckResult:
+    """Check one file; never raises for anything the file or a rule does."""
+    from drivelint import pipeline
+
+    def work() -> CheckResult:
+        return pipeline.check_path(
+            job.path,
+            job.config,
+            options.parts,
+            text=job.text,
+            load=load_options(job),
+            inputs=inputs,
+        )
+
+    return guarded(job.path, job.seconds(options), work, lambda m, c: _failure(job.path, m, c))
+
+
+def load_job(job: Job, options: BatchOptions) -> Circuit:
+    """``drivelint netlist``: read and elaborate one file, bounded like a check."""
+    from drivelint import pipeline
+
+    def work() -> Circuit:
+        return pipeline.load_circuit(job.path, load_options(job), text=job.text)
+
+    return guarded(
+        job.path, job.seconds(options), work, lambda m, c: failed_circuit(job.path, m, c)
+    )
+
+
+def stages_job(job: Job, options: BatchOptions) -> tuple[Circuit, tuple[DriveStage, ...]]:
+    """``drivelint stages``: read, elaborate and recognise one file, bounded like a check."""
+    from drivelint import pipeline
+
+    def work() -> tuple[Circuit, tuple[DriveStage, ...]]:
+        return pipeline.load_stages(
+            job.path,
+            load_options(job),
+            (*job.config.parts, *options.parts),
+            text=job.text,
+        )
+
+    return guarded(
+        job.path, job.seconds(options), work, lambda m, c: (failed_circuit(job.path, m, c), ())
+    )
+
+
 # -- the cache ------------------------------------------------------------------------------
-
-
-def _digest(*parts: bytes) -> str:
-    h = hashlib.sha256()
-    for part in parts:
-        h.update(len(part).to_bytes(8, "big"))
-        h.update(part)
-    return h.hexdigest()
-
-
-def _file_digest(path: Path) -> str:
-    try:
-        return _digest(path.read_bytes())
-    except OSError:
-        return "missing"
-
 
 _CODE_DIGEST: list[str] = []
 
@@ -192,76 +277,106 @@ def code_digest() -> str:
             for p in root.rglob("*")
             if p.suffix in (".py", ".toml", ".lark")
         )
-        _CODE_DIGEST.append(_digest(*(p.read_bytes() for p in files)))
+        _CODE_DIGEST.append(digest(*(p.read_bytes() for p in files)))
     return _CODE_DIGEST[0]
 
 
-_CONFIG_DIGESTS: dict[tuple[object, ...], bytes] = {}
+_SETTINGS_DIGESTS: dict[tuple[object, ...], bytes] = {}
 
 
 def _stat_signature(path: Path | None) -> tuple[object, ...]:
     try:
-        info = path.stat() if path is not None else None
+        info = os.stat(path) if path is not None else None
     except OSError:
         info = None
-    return (path, info.st_mtime_ns, info.st_size) if info else (path, None, None)
+    if info is None:
+        return (path, None)
+    return (path, info.st_mtime_ns, info.st_size, info.st_ino, info.st_ctime_ns)
 
 
-def _config_digest(job: Job, options: BatchOptions) -> bytes:
-    """Everything besides the netlist that decides its result; memoised while those files'
-    modification times and sizes stay the same."""
+def _settings_digest(job: Job, options: BatchOptions) -> bytes:
+    """Everything besides the netlist and its includes that decides its result: the
+    configuration, every parts library (and whether a ``parts.toml`` sits beside the
+    netlist), drivelint's code. Memoised while those files' stat signatures stay."""
     config = job.config
-    files = (config.path, *config.parts, *options.parts, job.path.parent / "parts.toml")
+    parts = (*config.parts, *options.parts, job.path.parent / "parts.toml")
+    files = (config.path, *parts)
     key = tuple(_stat_signature(f) for f in files)
-    if key not in _CONFIG_DIGESTS:
-        text = b""
-        if config.path is not None and config.path.is_file():
-            text = config.path.read_bytes()
-        parts = [
-            str(p).encode() + _file_digest(p).encode() for p in (*config.parts, *options.parts)
+    found = _SETTINGS_DIGESTS.get(key)
+    if found is None:
+        pieces = [
+            f"format {CACHE_FORMAT} drivelint {__version__}".encode(),
+            code_digest().encode(),
+            os.fsencode(str(config.path)),
+            file_digest(config.path).encode() if config.path is not None else b"none",
         ]
-        parts.append(_file_digest(job.path.parent / "parts.toml").encode())
-        _CONFIG_DIGESTS[key] = _digest(
-            __version__.encode(), code_digest().encode(), str(CACHE_FORMAT).encode(), text, *parts
-        ).encode()
-    return _CONFIG_DIGESTS[key]
+        for part in parts:
+            pieces.append(os.fsencode(part.absolute()) + b"=" + file_digest(part).encode())
+        found = digest(*pieces).encode()
+        _SETTINGS_DIGESTS[key] = found
+    return found
 
 
-def _entry(job: Job, options: BatchOptions) -> Path | None:
-    """The cache file for a job, or None when the job is not cacheable."""
+_ROOTS: dict[Path, Path] = {}
+
+
+def cache_key(job: Job, options: BatchOptions) -> str | None:
+    """The key of a job's result, or None when the job is not cacheable (standard input,
+    an unreadable file)."""
+    from drivelint.netlist.reader import read_bounded
+    from drivelint.pipeline import find_project_root
+
     if options.cache_dir is None or job.text is not None:
         return None
-    try:
-        content = job.path.read_bytes()
-    except OSError:
+    content = read_bounded(job.path, job.config.limits.max_file_bytes)
+    if not isinstance(content, bytes):
         return None
-    key = _digest(str(job.path).encode(), content, _config_digest(job, options))
-    return options.cache_dir / key[:2] / f"{key}.pickle"
+    try:
+        resolved = job.path.resolve()
+        folder = resolved.parent
+        root = _ROOTS.get(folder)
+        if root is None:  # one walk per folder and batch (run_batch clears the table)
+            root = _ROOTS[folder] = find_project_root(resolved)
+    except (OSError, RuntimeError):
+        return None
+    return digest(
+        os.fsencode(job.path),  # reports show the path as given ...
+        os.fsencode(Path.cwd()),  # ... relative to the folder drivelint runs in
+        os.fsencode(resolved),
+        os.fsencode(root),  # a root marker added or removed moves the sandbox
+        os.fsencode(os.path.expanduser("~")),  # '~' in an include name
+        b"outside=%d hidden=%d" % (job.allow_outside_root, job.allow_hidden_includes),
+        content,
+        _settings_digest(job, options),
+    )
 
 
 def cache_lookup(job: Job, options: BatchOptions) -> CheckResult | None:
     """The cached result of a job whose netlist, includes and settings are unchanged."""
-    entry = _entry(job, options)
-    if entry is None:
+    from drivelint.cache import read_entry
+
+    key = cache_key(job, options)
+    if key is None or options.cache_dir is None:
         return None
-    try:
-        with entry.open("rb") as handle:
-            dependencies, result = pickle.load(handle)
-    except (OSError, pickle.UnpicklingError, EOFError, ValueError, TypeError, AttributeError):
-        return None
-    if all(_file_digest(Path(p)) == d for p, d in dependencies):
-        return result  # type: ignore[no-any-return]
-    return None
+    found = read_entry(options.cache_dir, key)
+    return found if isinstance(found, CheckResult) else None
 
 
 def check_and_store(job: Job, options: BatchOptions) -> CheckResult:
     """Check a job and, when it completed, keep its result in the cache."""
-    result = slim(check_job(job, options))
-    entry = _entry(job, options)
-    if entry is None or any(d.code in ("internal-error", "limit") for d in result.diagnostics):
+    from drivelint.cache import write_entry
+
+    inputs: list[tuple[str, str, str]] = []
+    result = slim(check_job(job, options, inputs))
+    key = cache_key(job, options)
+    if key is None or options.cache_dir is None:
+        return result
+    if any(d.code in ("internal-error", "limit") for d in result.diagnostics):
         return result  # a crash or a bound is not worth keeping: the next run tries again
-    dependencies = [(p, _file_digest(Path(p))) for p in result.circuit.files[1:]]
-    _write_atomically(entry, pickle.dumps((dependencies, result), protocol=pickle.HIGHEST_PROTOCOL))
+    # The netlist itself is in the key already (its bytes and where its path leads).
+    top = (str(job.path.absolute()), str(resolved(job.path)))
+    inputs = [i for i in inputs if not (i[0] == "file" and i[1] == top[1]) and i[1] != top[0]]
+    write_entry(options.cache_dir, key, inputs, result)
     return result
 
 
@@ -273,31 +388,88 @@ def cached_check(job: Job, options: BatchOptions) -> tuple[CheckResult, bool]:
     return check_and_store(job, options), False
 
 
-def _write_atomically(path: Path, data: bytes) -> None:
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        fd, temporary = tempfile.mkstemp(dir=path.parent, prefix=".tmp-")
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data)
-        os.replace(temporary, path)
-    except OSError:
-        pass  # a cache that cannot be written only costs speed
-
-
 def slim(result: CheckResult) -> CheckResult:
     """The result without the parts of the circuit no report uses: only the devices and
-    instances the stages and findings name are kept. Cheaper to cache and to send back
-    from a worker process."""
+    instances the stages and findings name, and of the source text only the lines the
+    findings point at (as short excerpts). Cheaper to cache and to send back from a
+    worker, and no file's content travels further than a report would show it."""
     from dataclasses import replace
+
+    from drivelint.diagnostics import EXCERPT_CHARS
 
     circuit = result.circuit
     names = {n for s in result.stages for n in (s.switch, *s.related)}
     names |= {n for f in (*result.findings, *result.accepted) for n in (f.device, f.switch)}
     if s_driver := {s.driver.device for s in result.stages if s.driver}:
         names |= s_driver
-    devices = {n: circuit.devices[n] for n in sorted(names) if n in circuit.devices}
+    devices = {n: _slim_device(circuit.devices[n]) for n in sorted(names) if n in circuit.devices}
     instances = {n: circuit.instances[n] for n in sorted(names) if n in circuit.instances}
-    return replace(result, circuit=replace(circuit, devices=devices, instances=instances, nets=()))
+    wanted: dict[str, dict[int, str]] = {}
+    for finding in (*result.findings, *result.accepted):
+        span = finding.span
+        text = circuit.line_text(span)
+        if text:
+            wanted.setdefault(span.path, {})[span.line] = text[: EXCERPT_CHARS + 1]
+    sources = {
+        path: tuple(lines.get(n, "") for n in range(1, max(lines) + 1))
+        for path, lines in sorted(wanted.items())
+    }
+    diagnostics = tuple(d.shortened() for d in result.diagnostics)
+    return replace(
+        result,
+        circuit=replace(
+            circuit,
+            devices=devices,
+            instances=instances,
+            nets=(),
+            title=circuit.title[: EXCERPT_CHARS + 1],
+            sources=sources,
+            diagnostics=tuple(d.shortened() for d in circuit.diagnostics),
+        ),
+        diagnostics=diagnostics,
+    )
+
+
+_KEPT_MODEL_PARAMS = frozenset({"pchan", "nchan"})  # what Model.polarity reads
+
+
+def _slim_device(device: Device) -> Device:
+    """A device as reports use it: its model's name, type and polarity, not every parameter."""
+    from dataclasses import replace
+
+    model = device.model
+    if model is None or not model.params:
+        return device
+    params = {k: v for k, v in model.params.items() if k in _KEPT_MODEL_PARAMS}
+    return replace(device, model=replace(model, params=params))
+
+
+# -- the pool --------------------------------------------------------------------------------
+
+
+def _watch_parent(parent: int) -> None:
+    """End this worker when the parent is gone (even killed with SIGKILL)."""
+    import time
+
+    while True:
+        if os.getppid() != parent:
+            os._exit(70)
+        time.sleep(0.5)
+
+
+def _worker_start(parent: int) -> None:
+    # The parent handles Ctrl-C and ends the workers itself.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:  # Linux: the kernel signals this worker the moment the parent dies
+        import ctypes
+
+        libc = ctypes.CDLL(None, use_errno=True)
+        libc.prctl(1, signal.SIGKILL)  # PR_SET_PDEATHSIG
+    except (OSError, AttributeError):
+        pass
+    if os.getppid() != parent:  # the parent died before the signal was asked for
+        os._exit(70)
+    threading.Thread(target=_watch_parent, args=(parent,), daemon=True).start()
 
 
 def _worker(args: tuple[Job, BatchOptions]) -> CheckResult:
@@ -306,6 +478,7 @@ def _worker(args: tuple[Job, BatchOptions]) -> CheckResult:
 
 def _warm_up() -> None:
     """Load what every check needs before workers fork, so they inherit it."""
+    from drivelint.cache import prepare
     from drivelint.checks.registry import registry
     from drivelint.netlist.expressions import compile_expression
     from drivelint.netlist.reader import _LineParser
@@ -313,6 +486,7 @@ def _warm_up() -> None:
     registry()
     _LineParser.get()
     compile_expression("1/(2*x)")  # builds the expression grammar
+    prepare()
 
 
 def run_batch(
@@ -322,9 +496,19 @@ def run_batch(
 ) -> tuple[list[CheckResult], BatchStats]:
     """Check every job; results in the order of ``jobs``.
 
-    Cache hits are answered here; only the misses go to the worker processes.
+    Cache hits are answered here; only the misses go to the worker processes. Ctrl-C ends
+    the workers before it reaches the caller as KeyboardInterrupt.
     """
+    from drivelint.cache import prepare, private_folder
+
+    if options.cache_dir is not None and not private_folder(options.cache_dir):
+        from dataclasses import replace
+
+        options = replace(options, cache_dir=None)  # someone else could write there
     stats = BatchStats(files=len(jobs))
+    _ROOTS.clear()  # a marker may have been added since the last batch in this process
+    if options.cache_dir is not None:
+        prepare()
     results: list[CheckResult | None] = [cache_lookup(j, options) for j in jobs]
     stats.from_cache = sum(r is not None for r in results)
     if progress and stats.from_cache:
@@ -336,14 +520,25 @@ def run_batch(
             if progress:
                 progress(1)
     else:
+        import multiprocessing
+
         _warm_up()
-        chunk = max(1, min(16, len(missing) // (options.jobs * 8) or 1))
-        with ProcessPoolExecutor(max_workers=options.jobs) as pool:
+        # No more workers than files, nor than MAX_JOBS: --jobs 10000 must not fork 10000.
+        workers = min(options.jobs, len(missing), MAX_JOBS)
+        chunk = max(1, min(16, len(missing) // (workers * 8) or 1))
+        pool = multiprocessing.Pool(workers, _worker_start, (os.getpid(),))
+        try:
             work = [(jobs[i], options) for i in missing]
-            for index, result in zip(missing, pool.map(_worker, work, chunksize=chunk)):
+            for index, result in zip(missing, pool.imap(_worker, work, chunksize=chunk)):
                 results[index] = result
                 if progress:
                     progress(1)
+            pool.close()
+        except BaseException:
+            pool.terminate()  # Ctrl-C, or a failure in the parent: no worker outlives it
+            raise
+        finally:
+            pool.join()
     done = [r for r in results if r is not None]
     stats.failed = [
         r.circuit.path for r in done if any(d.severity is Severity.ERROR for d in r.diagnostics)

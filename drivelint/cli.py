@@ -8,39 +8,136 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING, Any, NoReturn
 
 import click
 
 from drivelint import __version__
 
+if TYPE_CHECKING:
+    from drivelint.batch import BatchOptions, Job
+
 EXIT_OK = 0
 EXIT_FINDINGS = 1
 EXIT_ERROR = 2
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report a command ended by Ctrl-C
 
 FORMATS = click.Choice(["text", "json"])
 
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+class _Group(click.Group):
+    """Ctrl-C ends every command with 130 (click's own handling would exit 1, the findings
+    code); output that the terminal cannot encode is escaped rather than lost."""
+
+    def invoke(self, ctx: click.Context) -> object:
+        for stream in (sys.stdout, sys.stderr):
+            try:
+                stream.reconfigure(errors="backslashreplace")  # type: ignore[union-attr]
+            except (AttributeError, ValueError, OSError):
+                pass
+        try:
+            return super().invoke(ctx)
+        except KeyboardInterrupt:
+            click.echo("drivelint: interrupted", err=True)
+            raise click.exceptions.Exit(EXIT_INTERRUPTED) from None
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="drivelint")
 def main() -> None:
     """Check the floating gate drives of switching power stages in SPICE netlists."""
 
 
+def _fail(message: str) -> NoReturn:
+    from drivelint.diagnostics import printable
+
+    click.echo(f"drivelint: {printable(message)}", err=True)
+    sys.exit(EXIT_ERROR)
+
+
+_config_option = click.option(
+    "--config",
+    "config_file",
+    type=click.Path(path_type=Path, dir_okay=False, exists=True),
+    help="Use this configuration file instead of discovering one per file.",
+)
+_parts_option = click.option(
+    "--parts",
+    "parts",
+    multiple=True,
+    type=click.Path(path_type=Path, dir_okay=False),
+    help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
+)
+_outside_option = click.option(
+    "--allow-outside-root",
+    is_flag=True,
+    help="Let includes leave the project root (a configuration inside the checked tree "
+    "cannot allow this).",
+)
+_hidden_option = click.option(
+    "--allow-hidden-includes",
+    is_flag=True,
+    help="Let includes read dot-files and version-control folders (refused by default).",
+)
+
+
+def _options(**given: Any) -> BatchOptions:
+    from drivelint.batch import BatchOptions
+
+    return BatchOptions(**given)
+
+
+def _plan(
+    files: list[Path], options: BatchOptions, stdin: tuple[str, bytes] | None = None
+) -> list[Job]:
+    """Jobs for the files, or exit 2 naming the configuration or parts file at fault."""
+    from drivelint.batch import plan
+    from drivelint.config import ConfigError
+    from drivelint.ratings.parts import PartsError
+
+    try:
+        return plan(files, options, stdin)
+    except (ConfigError, PartsError) as exc:
+        _fail(str(exc))
+
+
+def _scan(paths: tuple[Path, ...], suffixes: tuple[str, ...] | None = None) -> list[Path]:
+    from drivelint.pipeline import collect_paths
+
+    try:
+        return collect_paths(paths, suffixes) if suffixes else collect_paths(paths)
+    except OSError as exc:
+        _fail(f"cannot list '{exc.filename}': {exc.strerror}")
+
+
 @main.command("netlist")
 @click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
-@click.option("--allow-outside-root", is_flag=True, help="Let includes leave the project root.")
-def netlist_command(files: tuple[Path, ...], fmt: str, allow_outside_root: bool) -> None:
+@_config_option
+@_outside_option
+@_hidden_option
+def netlist_command(
+    files: tuple[Path, ...],
+    fmt: str,
+    config_file: Path | None,
+    allow_outside_root: bool,
+    allow_hidden_includes: bool,
+) -> None:
     """Show what was read: devices, nets, DC rails, sources and diagnostics.
 
     FILES are netlists or folders (searched for .cir .net .sp .spi .spice .ckt).
     """
+    from drivelint.batch import load_job
     from drivelint.diagnostics import Severity
-    from drivelint.pipeline import LoadOptions, collect_paths, load_circuit
     from drivelint.report.netlist import netlist_json, netlist_text
 
-    options = LoadOptions(allow_outside_root=allow_outside_root)
-    circuits = [load_circuit(path, options) for path in collect_paths(files)]
+    options = _options(
+        config_file=config_file,
+        allow_outside_root=allow_outside_root,
+        allow_hidden_includes=allow_hidden_includes,
+        scan_roots=files,
+    )
+    circuits = [load_job(job, options) for job in _plan(_scan(files), options)]
     if fmt == "json":
         import json
 
@@ -59,41 +156,52 @@ def netlist_command(files: tuple[Path, ...], fmt: str, allow_outside_root: bool)
 @main.command("stages")
 @click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option("--format", "fmt", type=FORMATS, default="text", show_default=True)
-@click.option(
-    "--parts",
-    "parts",
-    multiple=True,
-    type=click.Path(path_type=Path, dir_okay=False),
-    help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
-)
+@_parts_option
 @click.option("--all", "show_all", is_flag=True, help="Also show switches that do not float.")
+@_config_option
+@_outside_option
+@_hidden_option
 def stages_command(
-    files: tuple[Path, ...], fmt: str, parts: tuple[Path, ...], show_all: bool
+    files: tuple[Path, ...],
+    fmt: str,
+    parts: tuple[Path, ...],
+    show_all: bool,
+    config_file: Path | None,
+    allow_outside_root: bool,
+    allow_hidden_includes: bool,
 ) -> None:
     """Show the gate-drive stages drivelint recognises, so you can see what it sees.
 
     FILES are netlists or folders (searched for .cir .net .sp .spi .spice .ckt).
     """
+    from drivelint.batch import stages_job
     from drivelint.diagnostics import Severity
-    from drivelint.pipeline import collect_paths, load_stages
     from drivelint.ratings.parts import PartsError
     from drivelint.report.stages import stages_text
     from drivelint.stages.recognise import stages_json
 
+    options = _options(
+        config_file=config_file,
+        parts=parts,
+        allow_outside_root=allow_outside_root,
+        allow_hidden_includes=allow_hidden_includes,
+        scan_roots=files,
+    )
     results = []
     failed = False
-    for path in collect_paths(files):
+    for job in _plan(_scan(files), options):
         try:
-            circuit, stages = load_stages(path, parts=parts)
+            circuit, stages = stages_job(job, options)
         except PartsError as exc:
-            click.echo(f"drivelint: {exc}", err=True)
-            sys.exit(EXIT_ERROR)
+            _fail(str(exc))
         failed |= any(d.severity is Severity.ERROR for d in circuit.diagnostics)
         results.append((circuit, stages))
     if fmt == "json":
         import json
 
         payload = stages_json([s for _, stages in results for s in stages])
+        # What could not be read is said, not only left out of the stages.
+        payload["diagnostics"] = [d.to_json() for c, _ in results for d in c.diagnostics]
         click.echo(json.dumps(payload, indent=2))
     else:
         click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))
@@ -104,8 +212,6 @@ def _expand(paths: tuple[str, ...], suffixes: tuple[str, ...]) -> tuple[list[Pat
     """Files, folders (recursively, by suffix) and glob patterns; and whether '-' was given."""
     import glob
 
-    from drivelint.pipeline import collect_paths
-
     out: list[Path] = []
     stdin = False
     for raw in paths:
@@ -115,26 +221,52 @@ def _expand(paths: tuple[str, ...], suffixes: tuple[str, ...]) -> tuple[list[Pat
             matches = sorted(glob.glob(raw, recursive=True))
             if not matches:
                 raise click.UsageError(f"no file matches '{raw}'")
-            out.extend(collect_paths(tuple(Path(m) for m in matches), suffixes))
+            out.extend(_scan(tuple(Path(m) for m in matches), suffixes))
         else:
-            out.extend(collect_paths((Path(raw),), suffixes))
+            out.extend(_scan((Path(raw),), suffixes))
     return out, stdin
 
 
-def _write_output(text: str, output: Path | None) -> None:
-    """Print, or write ``output`` atomically: a temporary file, then a rename."""
+def _read_stdin(limit: int) -> bytes:
+    """Standard input, at most ``limit + 1`` bytes (one more tells the reader it is too big)."""
+    stream = getattr(sys.stdin, "buffer", None)
+    if stream is not None:
+        return bytes(stream.read(limit + 1))
+    return sys.stdin.read(limit + 1).encode("utf-8", "surrogateescape")
+
+
+def _write_output(text: str, output: Path | None, checked: list[Path]) -> None:
+    """Print, or write ``output`` atomically: a temporary file, then a rename.
+
+    The report file gets the mode the umask gives a new file. Exits 2 with a message when
+    the folder is missing or cannot be written, or when ``output`` is a file being checked.
+    """
     if output is None:
         click.echo(text)
         return
     import os
     import tempfile
 
-    folder = output.resolve().parent
-    fd, temporary = tempfile.mkstemp(dir=folder, prefix=f".{output.name}.", suffix=".tmp")
+    target = output.absolute()
+    folder = target.parent
+    if target.exists() and any(target.samefile(p) for p in checked if p.exists()):
+        _fail(f"--output '{output}' is one of the files being checked; not overwritten")
+    if not folder.is_dir():
+        _fail(f"cannot write '{output}': folder '{folder}' does not exist")
     try:
-        with os.fdopen(fd, "w", encoding="utf-8") as handle:
+        fd, temporary = tempfile.mkstemp(dir=folder, prefix=f".{target.name}.", suffix=".tmp")
+    except OSError as exc:
+        _fail(f"cannot write '{output}': {exc.strerror}")
+    try:
+        mask = os.umask(0)
+        os.umask(mask)
+        with os.fdopen(fd, "w", encoding="utf-8", errors="backslashreplace") as handle:
             handle.write(text if text.endswith("\n") else text + "\n")
-        os.replace(temporary, output)
+        os.chmod(temporary, 0o666 & ~mask)
+        os.replace(temporary, target)
+    except OSError as exc:
+        Path(temporary).unlink(missing_ok=True)
+        _fail(f"cannot write '{output}': {exc.strerror}")
     except BaseException:
         Path(temporary).unlink(missing_ok=True)
         raise
@@ -154,13 +286,7 @@ def _write_output(text: str, output: Path | None) -> None:
     type=click.Path(path_type=Path, dir_okay=False),
     help="Write the report here (atomically).",
 )
-@click.option(
-    "--parts",
-    "parts",
-    multiple=True,
-    type=click.Path(path_type=Path, dir_okay=False),
-    help="A parts library (TOML); repeatable. A parts.toml beside the netlist is read too.",
-)
+@_parts_option
 @click.option("--explain", is_flag=True, help="Show each finding's inputs, origins and formula.")
 @click.option(
     "--fail-on",
@@ -172,18 +298,13 @@ def _write_output(text: str, output: Path | None) -> None:
     "--exit-zero", is_flag=True, help="Exit 0 even with findings (usage errors still exit 2)."
 )
 @click.option("--strict", is_flag=True, help="Exit 2 when any file could not be checked.")
-@click.option(
-    "--config",
-    "config_file",
-    type=click.Path(path_type=Path, dir_okay=False, exists=True),
-    help="Use this configuration file instead of discovering one per file.",
-)
+@_config_option
 @click.option(
     "--jobs",
     "-j",
     type=click.IntRange(min=1),
     default=None,
-    help="Worker processes (default: cores).",
+    help="Worker processes (default: cores; at most 64, and no more than files to check).",
 )
 @click.option("--no-cache", is_flag=True, help="Neither read nor write the result cache.")
 @click.option("--shard", default=None, metavar="I/N", help="Check only slice I of N (1-based).")
@@ -191,6 +312,8 @@ def _write_output(text: str, output: Path | None) -> None:
     "--stdin-name", default="stdin.cir", show_default=True, help="Name for '-' (standard input)."
 )
 @click.option("--no-color", is_flag=True, help="Plain text even on a terminal.")
+@_outside_option
+@_hidden_option
 def check_command(
     paths: tuple[str, ...],
     fmt: str,
@@ -206,17 +329,19 @@ def check_command(
     shard: str | None,
     stdin_name: str,
     no_color: bool,
+    allow_outside_root: bool,
+    allow_hidden_includes: bool,
 ) -> None:
     """Check the floating gate drives in netlists and report what will fail.
 
     PATHS are netlists, folders (searched for .cir .net .sp .spi .spice .ckt), glob
     patterns, or - for standard input. Exit 0: nothing at or above the failing severity;
     1: findings (or a file that could not be checked); 2: usage or configuration errors
-    (and, with --strict, any file that could not be checked).
+    (and, with --strict, any file that could not be checked); 130: interrupted.
     """
     import os
 
-    from drivelint.batch import BatchOptions, default_cache_dir, plan, run_batch, select_shard
+    from drivelint.batch import config_for_stdin, default_cache_dir, run_batch, select_shard
     from drivelint.checks.registry import RuleError
     from drivelint.config import DEFAULT_SUFFIXES, ConfigError, load_config
     from drivelint.diagnostics import Severity
@@ -226,8 +351,7 @@ def check_command(
     try:
         suffixes = load_config(config_file).suffixes if config_file else DEFAULT_SUFFIXES
     except ConfigError as exc:
-        click.echo(f"drivelint: {exc}", err=True)
-        sys.exit(EXIT_ERROR)
+        _fail(str(exc))
     files, use_stdin = _expand(paths, suffixes)
     if shard is not None:
         try:
@@ -239,15 +363,24 @@ def check_command(
                 "expected I/N with 1 <= I <= N", param_hint="--shard"
             ) from None
         files = select_shard(files, index, count)
-    options = BatchOptions(
+    options = _options(
         jobs=jobs or os.cpu_count() or 1,
         cache_dir=None if no_cache else default_cache_dir(),
         config_file=config_file,
         parts=parts,
+        allow_outside_root=allow_outside_root,
+        allow_hidden_includes=allow_hidden_includes,
+        scan_roots=tuple(Path(p) for p in paths if p != "-"),
     )
-    stdin = (stdin_name, sys.stdin.read()) if use_stdin else None
+    stdin = None
+    if use_stdin:
+        try:
+            limit = config_for_stdin(stdin_name, options).limits.max_file_bytes
+        except ConfigError as exc:
+            _fail(str(exc))
+        stdin = (stdin_name, _read_stdin(limit))
     try:
-        planned = plan(files, options, stdin)
+        planned = _plan(files, options, stdin)
         show_progress = (
             len(planned) > 5 and sys.stderr.isatty() and fmt == "text" and output is None
         )
@@ -257,8 +390,7 @@ def check_command(
         else:
             results, stats = run_batch(planned, options)
     except (PartsError, RuleError, ConfigError) as exc:
-        click.echo(f"drivelint: {exc}", err=True)
-        sys.exit(EXIT_ERROR)
+        _fail(str(exc))
     color = (
         fmt == "text"
         and output is None
@@ -267,7 +399,7 @@ def check_command(
         and sys.stdout.isatty()
     )
     report = formatter(fmt)(results, ReportOptions(explain=explain, color=color))
-    _write_output(report, output)
+    _write_output(report, output, files)
     if fmt != "text" or output is not None:
         from drivelint.report.findings import summary_text
 
@@ -330,8 +462,7 @@ def config_command(path: Path, config_file: Path | None) -> None:
     try:
         config = load_config(where)
     except ConfigError as exc:
-        click.echo(f"drivelint: {exc}", err=True)
-        sys.exit(EXIT_ERROR)
+        _fail(str(exc))
     click.echo(describe(config))
 
 
@@ -368,6 +499,9 @@ def config_command(path: Path, config_file: Path | None) -> None:
     show_default=True,
     help="Seconds one ngspice run may take.",
 )
+@_config_option
+@_outside_option
+@_hidden_option
 def testbench_command(
     paths: tuple[str, ...],
     output: Path,
@@ -378,6 +512,9 @@ def testbench_command(
     run_decks: bool,
     jobs: int | None,
     run_timeout: float,
+    config_file: Path | None,
+    allow_outside_root: bool,
+    allow_hidden_includes: bool,
 ) -> None:
     """Write a SPICE testbench per finding that reproduces it, and one with its fix.
 
@@ -390,7 +527,7 @@ def testbench_command(
     import os
 
     from drivelint.checks.registry import RuleError, registry
-    from drivelint.config import DEFAULT_SUFFIXES, ConfigError, find_config, load_config
+    from drivelint.config import DEFAULT_SUFFIXES, ConfigError
     from drivelint.ratings.parts import PartsError
     from drivelint.testbench.command import BenchOptions, make_testbenches, record_text
     from drivelint.testbench.ngspice import find_ngspice
@@ -414,10 +551,16 @@ def testbench_command(
     if run_decks and find_ngspice() is None:
         click.echo("drivelint: --run needs ngspice on the PATH", err=True)
         sys.exit(EXIT_ERROR)
+    batch = _options(
+        config_file=config_file,
+        parts=parts,
+        allow_outside_root=allow_outside_root,
+        allow_hidden_includes=allow_hidden_includes,
+        scan_roots=tuple(files),
+    )
+    planned = _plan(files, batch)
     try:
-        configs = [load_config(find_config(path)) for path in files]
-        kept = [(f, c) for f, c in zip(files, configs) if not c.excluded(f)]
-        outcome = make_testbenches([f for f, _ in kept], [c for _, c in kept], options)
+        outcome = make_testbenches(planned, options)
     except (PartsError, RuleError, ConfigError) as exc:
         click.echo(f"drivelint: {exc}", err=True)
         sys.exit(EXIT_ERROR)

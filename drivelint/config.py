@@ -28,7 +28,6 @@ Keys (in ``drivelint.toml`` at the top level; in ``pyproject.toml`` under
 from __future__ import annotations
 
 import fnmatch
-import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
@@ -95,9 +94,11 @@ class Config:
 
 
 def _relative(path: Path, root: Path | None) -> str:
-    resolved = path.resolve()
-    if root is not None and resolved.is_relative_to(root.resolve()):
-        return resolved.relative_to(root.resolve()).as_posix()
+    from drivelint.paths import resolved as resolve
+
+    resolved, top = resolve(path), resolve(root) if root is not None else None
+    if top is not None and resolved.is_relative_to(top):
+        return resolved.relative_to(top).as_posix()
     return path.as_posix()
 
 
@@ -122,49 +123,162 @@ def _suffixes(relative: str) -> list[str]:
     return ["/".join(parts[i:]) for i in range(1, len(parts))]
 
 
+def may_widen(config: Config, netlist: Path, scan_roots: tuple[Path, ...] | list[Path]) -> bool:
+    """Whether ``config`` may let includes of ``netlist`` leave its project root.
+
+    Only a configuration from outside what is being checked may: one whose folder lies
+    neither inside the netlist's project root nor inside any path named to be scanned
+    (a user-level file above the project, or the invoking project's own file when it
+    checks a tree below it). A scanned tree's own ``drivelint.toml`` cannot widen its
+    own sandbox; ``--allow-outside-root`` on the command line always can.
+    """
+    if config.path is None or not config.allow_outside_root:
+        return False
+    from drivelint.pipeline import find_project_root
+
+    try:
+        folder = config.path.parent.resolve()
+        root = find_project_root(netlist)
+        scanned = [p.resolve() for p in scan_roots]
+    except (OSError, RuntimeError):
+        return False
+    if folder.is_relative_to(root):
+        return False
+    return not any(folder.is_relative_to(s) for s in scanned)
+
+
 def find_config(start: Path) -> Path | None:
     """The nearest drivelint.toml, or pyproject.toml with a [tool.drivelint] table."""
-    folder = start.resolve()
+    from drivelint.paths import resolved
+
+    folder = resolved(start)
     folder = folder if folder.is_dir() else folder.parent
     for candidate in (folder, *folder.parents):
         own = candidate / "drivelint.toml"
         if own.is_file():
             return own
         project = candidate / "pyproject.toml"
-        if project.is_file() and "drivelint" in _read(project).get("tool", {}):
-            return project
+        if project.is_file():
+            tool = _read(project).get("tool", {})
+            if isinstance(tool, dict) and "drivelint" in tool:
+                return project
     return None
 
 
 def _read(path: Path) -> dict[str, Any]:
+    return _read_with_lines(path)[0]
+
+
+def _read_with_lines(path: Path) -> tuple[dict[str, Any], Any]:
+    from drivelint.ratings.tomlfile import read_toml
+
     try:
-        return tomllib.loads(path.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"{path}: not valid TOML: {exc}") from None
-    except OSError as exc:
-        raise ConfigError(f"{path}: cannot read: {exc.strerror}") from None
+        data, lines, _ = read_toml(path, str(path))
+    except ValueError as exc:
+        raise ConfigError(str(exc)) from None
+    return data, lines
+
+
+# The most any configuration may raise a limit to: enough for the largest real designs,
+# small enough that a hostile drivelint.toml cannot remove a bound.
+LIMIT_CEILINGS: Mapping[str, int] = {
+    "max_file_bytes": 1 << 30,
+    "max_total_bytes": 4 << 30,
+    "max_line_chars": 100_000_000,
+    "max_include_depth": 256,
+    "max_files": 100_000,
+    "max_subckt_nesting": 256,
+    "max_instance_depth": 256,
+    "max_expression_chars": 1_000_000,
+    "max_word_chars": 1_000_000,
+    "max_expression_depth": 500,
+    "max_param_recursion": 500,
+    "max_devices": 50_000_000,
+    "max_lines_read": 100_000_000,
+    "max_seconds_per_file": 3600,
+    "max_if_nesting": 256,
+    "max_function_depth": 500,
+    "max_pwl_points": 100_000_000,
+    "max_poly_dimensions": 64,
+}
+
+# Ranges of the operating conditions (SI units): a negative, zero, NaN or infinite
+# frequency or bus voltage would make findings vanish rather than fail.
+CONDITION_RANGES: Mapping[str, tuple[float, float, bool]] = {
+    # key: (low, high, low is allowed)
+    "fsw": (0.0, 1e9, False),
+    "duty_max": (0.0, 1.0, True),
+    "on_time_max": (0.0, 1e6, False),
+    "v_bus": (0.0, 1e6, False),
+    "v_aux": (0.0, 1e4, False),
+    "ambient": (0.0, 1000.0, False),  # kelvin
+    "load_current": (0.0, 1e6, True),
+}
+# Ranges of rule options by name; any other option must be finite and not negative.
+OPTION_RANGES: Mapping[str, tuple[float, float, bool]] = {
+    "margin": (1.0, 1e3, True),  # below 1 accepts a capacitor smaller than its charge needs
+    "derating": (0.0, 1.0, False),  # above 1 uses more than the rating
+    "off_time_fraction": (0.0, 1.0, False),
+    "zener_tolerance": (0.0, 0.5, True),
+}
+_ANY_OPTION = (0.0, float("inf"), True)
+
+
+def _in_range(value: float, bounds: tuple[float, float, bool]) -> str | None:
+    """None if ``value`` is inside ``bounds``, else what the range is."""
+    import math
+
+    low, high, closed = bounds
+    if not math.isfinite(value):
+        return "must be a finite number"
+    if value < low or (value == low and not closed) or value > high:
+        opening = "[" if closed else "("
+        top = "" if math.isinf(high) else f"{high:g}"
+        return f"{value:g} is out of range: expected a value in {opening}{low:g}, {top or '∞'}]"
+    return None
 
 
 def load_config(path: Path | None, known_rules: Mapping[str, Any] | None = None) -> Config:
     """Read one configuration file (None: the defaults)."""
     if path is None:
         return Config()
-    data = _read(path)
-    prefix = ""
+    data, lines = _read_with_lines(path)
+    prefix: tuple[str, ...] = ()
     if path.name == "pyproject.toml":
-        data = data.get("tool", {}).get("drivelint", {})
-        prefix = "tool.drivelint."
-    return _parse(path, data, prefix, known_rules)
+        tool = data.get("tool", {})
+        data = tool.get("drivelint", {}) if isinstance(tool, dict) else {}
+        prefix = ("tool", "drivelint")
+        if not isinstance(data, dict):
+            line = lines.line(prefix)
+            raise ConfigError(f"{path}:{line}: tool.drivelint: expected a table")
+    return _parse(path, data, prefix, known_rules, lines)
 
 
 def _parse(
-    path: Path, data: dict[str, Any], prefix: str, known_rules: Mapping[str, Any] | None
+    path: Path,
+    data: dict[str, Any],
+    prefix: tuple[str, ...],
+    known_rules: Mapping[str, Any] | None,
+    lines: Any,
 ) -> Config:
     from drivelint.ratings.directives import CONDITION_KEYS
     from drivelint.ratings.units import UnitError, parse_quantity
 
-    def fail(key: str, message: str) -> ConfigError:
-        return ConfigError(f"{path}: {prefix}{key}: {message}")
+    dotted = ".".join(prefix) + "." if prefix else ""
+
+    def fail(key: str | tuple[str | int, ...], message: str) -> ConfigError:
+        keys = key if isinstance(key, tuple) else tuple(key.split("."))
+        name = "".join(f"[{k}]" if isinstance(k, int) else f".{k}" for k in keys).lstrip(".")
+        line = lines.line((*prefix, *keys))
+        return ConfigError(f"{path}:{line}: {dotted}{name}: {message}")
+
+    def origin(key: str) -> str:
+        return f"{path}: {dotted}{key}"
+
+    def table(value: object, key: str | tuple[str | int, ...]) -> dict[str, Any]:
+        if not isinstance(value, dict):
+            raise fail(key, f"expected a table, not {_kind(value)}")
+        return value
 
     unknown = sorted(set(data) - TOP_KEYS)
     if unknown:
@@ -177,7 +291,9 @@ def _parse(
         value = data[key]
         if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
             raise fail(key, "expected a list of strings")
-        origins[key] = f"{path}: {prefix}{key}"
+        if any("\x00" in v for v in value):
+            raise fail(key, "a string holds a NUL character")
+        origins[key] = origin(key)
         return value
 
     if "parts" in data:
@@ -194,59 +310,82 @@ def _parse(
         if not isinstance(data["allow_outside_root"], bool):
             raise fail("allow_outside_root", "expected true or false")
         config = replace(config, allow_outside_root=data["allow_outside_root"])
-        origins["allow_outside_root"] = f"{path}: {prefix}allow_outside_root"
+        origins["allow_outside_root"] = origin("allow_outside_root")
     if "fail_on" in data:
+        if not isinstance(data["fail_on"], str):
+            raise fail("fail_on", f"expected a string, not {_kind(data['fail_on'])}")
         try:
-            config = replace(config, fail_on=Severity.parse(str(data["fail_on"])))
+            config = replace(config, fail_on=Severity.parse(data["fail_on"]))
         except ValueError as exc:
             raise fail("fail_on", str(exc)) from None
-        origins["fail_on"] = f"{path}: {prefix}fail_on"
+        origins["fail_on"] = origin("fail_on")
     if "limits" in data:
         names = {f.name for f in fields(Limits)}
-        values = dict(data["limits"])
+        values = table(data["limits"], "limits")
         for key, value in values.items():
             if key not in names:
                 raise fail(
-                    f"limits.{key}", "unknown limit; expected one of " + ", ".join(sorted(names))
+                    ("limits", key), "unknown limit; expected one of " + ", ".join(sorted(names))
                 )
             if not isinstance(value, int) or isinstance(value, bool) or value <= 0:
-                raise fail(f"limits.{key}", "expected a positive integer")
-            origins[f"limits.{key}"] = f"{path}: {prefix}limits.{key}"
+                raise fail(("limits", key), "expected a positive integer")
+            if value > LIMIT_CEILINGS[key]:
+                # A configuration inside a scanned tree must not switch its bounds off.
+                raise fail(("limits", key), f"{value} is over the ceiling of {LIMIT_CEILINGS[key]}")
+            origins[f"limits.{key}"] = origin(f"limits.{key}")
         config = replace(config, limits=replace(Limits(), **values))
 
-    def conditions(table: Mapping[str, Any], where: str) -> dict[str, tuple[float, str]]:
+    def conditions(
+        given: Mapping[str, Any], where: tuple[str | int, ...]
+    ) -> dict[str, tuple[float, str]]:
         out: dict[str, tuple[float, str]] = {}
-        for key, raw in table.items():
+        shown = "".join(f"[{k}]" if isinstance(k, int) else f".{k}" for k in where).lstrip(".")
+        for key, raw in given.items():
             if key not in CONDITION_KEYS:
                 raise fail(
-                    f"{where}.{key}",
+                    (*where, key),
                     "unknown condition; expected one of " + ", ".join(sorted(CONDITION_KEYS)),
                 )
+            if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
+                raise fail((*where, key), f"expected a quantity string, not {_kind(raw)}")
             try:
-                out[key] = (
-                    parse_quantity(raw, CONDITION_KEYS[key]),
-                    f"{path}: {prefix}{where}.{key}",
-                )
+                value = parse_quantity(raw, CONDITION_KEYS[key])
             except UnitError as exc:
-                raise fail(f"{where}.{key}", str(exc)) from None
+                raise fail((*where, key), str(exc)) from None
+            problem = _in_range(value, CONDITION_RANGES.get(key, _ANY_OPTION))
+            if problem:
+                raise fail((*where, key), problem)
+            out[key] = (value, f"{path}: {dotted}{shown}.{key}")
         return out
 
     if "conditions" in data:
-        config = replace(config, conditions=conditions(dict(data["conditions"]), "conditions"))
+        config = replace(
+            config, conditions=conditions(table(data["conditions"], "conditions"), ("conditions",))
+        )
     if "conditions_for" in data:
+        entries = data["conditions_for"]
+        if not isinstance(entries, list):
+            raise fail("conditions_for", "expected an array of tables ([[conditions_for]])")
         per_glob = []
-        for index, table in enumerate(data["conditions_for"]):
-            table = dict(table)
-            glob = table.pop("glob", None)
+        for index, entry in enumerate(entries):
+            entry = dict(table(entry, ("conditions_for", index)))
+            glob = entry.pop("glob", None)
             if not isinstance(glob, str):
-                raise fail(f"conditions_for[{index}].glob", "each entry needs a glob")
-            per_glob.append((glob, conditions(table, f"conditions_for[{index}]")))
+                raise fail(("conditions_for", index, "glob"), "each entry needs a glob")
+            per_glob.append((glob, conditions(entry, ("conditions_for", index))))
         config = replace(config, conditions_for=tuple(per_glob))
     if "rule" in data:
-        config = replace(
-            config, rules=_rules(dict(data["rule"]), fail, known_rules, origins, path, prefix)
-        )
+        rules = table(data["rule"], "rule")
+        for rule_id, value in rules.items():
+            table(value, ("rule", rule_id))
+        config = replace(config, rules=_rules(rules, fail, known_rules, origins, origin))
     return replace(config, origins=origins)
+
+
+def _kind(value: object) -> str:
+    names = {bool: "a boolean", int: "an integer", float: "a number", str: "a string"}
+    names.update({list: "an array", dict: "a table"})
+    return names.get(type(value), type(value).__name__)
 
 
 def _rules(
@@ -254,8 +393,7 @@ def _rules(
     fail: Any,
     known: Mapping[str, Any] | None,
     origins: dict[str, str],
-    path: Path,
-    prefix: str,
+    origin: Any,
 ) -> dict[str, RuleSetting]:
     from drivelint.checks.registry import RuleError, parse_option_value, registry
 
@@ -264,34 +402,41 @@ def _rules(
     for rule_id, table in tables.items():
         rule = rules.get(rule_id)
         if rule is None:
-            raise fail(f"rule.{rule_id}", "unknown rule; known rules: " + ", ".join(rules))
+            raise fail(("rule", rule_id), "unknown rule; known rules: " + ", ".join(rules))
         table = dict(table)
         enabled = table.pop("enabled", True)
         if not isinstance(enabled, bool):
-            raise fail(f"rule.{rule_id}.enabled", "expected true or false")
+            raise fail(("rule", rule_id, "enabled"), "expected true or false")
         severity = None
         if "severity" in table:
+            raw = table.pop("severity")
+            if not isinstance(raw, str):
+                raise fail(("rule", rule_id, "severity"), f"expected a string, not {_kind(raw)}")
             try:
-                severity = Severity.parse(str(table.pop("severity")))
+                severity = Severity.parse(raw)
             except ValueError as exc:
-                raise fail(f"rule.{rule_id}.severity", str(exc)) from None
+                raise fail(("rule", rule_id, "severity"), str(exc)) from None
         options: dict[str, float] = {}
         for name, raw in table.items():
             option = rule.options.get(name)
             if option is None:
                 raise fail(
-                    f"rule.{rule_id}.{name}",
+                    ("rule", rule_id, name),
                     "unknown option; options: " + (", ".join(rule.options) or "none"),
                 )
+            if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
+                raise fail(("rule", rule_id, name), f"expected a quantity, not {_kind(raw)}")
             try:
-                options[name] = parse_option_value(
-                    raw, option.unit, f"{path}: {prefix}rule.{rule_id}.{name}"
-                )
+                value = parse_option_value(raw, option.unit, "")
             except RuleError as exc:
-                raise ConfigError(str(exc)) from None
+                raise fail(("rule", rule_id, name), str(exc).removeprefix(": ")) from None
+            problem = _in_range(value, OPTION_RANGES.get(name, _ANY_OPTION))
+            if problem:
+                raise fail(("rule", rule_id, name), problem)
+            options[name] = value
         given = [k for k in ("enabled", "severity") if k in tables[rule_id]] + list(options)
         for key in given:
-            origins[f"rule.{rule_id}.{key}"] = f"{path}: {prefix}rule.{rule_id}.{key}"
+            origins[f"rule.{rule_id}.{key}"] = origin(f"rule.{rule_id}.{key}")
         out[rule_id] = RuleSetting(enabled, severity, options)
     return out
 

@@ -16,6 +16,7 @@ class Limits:
     max_subckt_nesting: int = 16
     max_instance_depth: int = 32
     max_expression_chars: int = 4_096
+    max_word_chars: int = 1_024  # a name, node or number
     max_expression_depth: int = 64
     max_param_recursion: int = 64
     max_devices: int = 2_000_000
@@ -23,6 +24,12 @@ class Limits:
     max_function_depth: int = 64
     max_pwl_points: int = 1_000_000
     max_poly_dimensions: int = 16
+    # Bytes read from all files of one netlist (each file also under max_file_bytes).
+    max_total_bytes: int = 256 * 1024 * 1024
+    # Lines read in all, a file counted again each time it is included.
+    max_lines_read: int = 1_000_000
+    # Wall-clock seconds one file may take in any command (netlist, stages, check).
+    max_seconds_per_file: int = 60
 
     @classmethod
     def names(cls) -> tuple[str, ...]:

@@ -11,6 +11,7 @@ PACKAGE = Path(__file__).resolve().parent.parent / "drivelint"
 RANKS = {
     "diagnostics": 0,
     "limits": 0,
+    "paths": 0,
     "_gc": 0,
     "physics": 0,
     "netlist": 1,
@@ -23,6 +24,7 @@ RANKS = {
     "config": 6,
     "batch": 6,
     "testbench": 6,
+    "cache": 6,
     "cli": 7,
     "__main__": 7,
     "__init__": 7,

@@ -283,10 +283,22 @@ class _Elaborator:
     def run(self) -> Circuit:
         top, statements = self.new_scope(None, self.deck.statements)
         self.transient = self.transient_settings(top)
-        try:
-            self.flatten(statements, _Block(top, "", {}, ()))
-        except _LimitReached:
-            pass
+        over = _first_over_bound(statements, self.limits.max_devices)
+        if over is not None:
+            # Counted before anything is built: a small deck of nested instances can
+            # stand for billions of devices, and building them would take minutes.
+            self.report(
+                Severity.ERROR,
+                over,
+                f"the netlist flattens to more than {self.limits.max_devices} devices "
+                "(limit max_devices); not elaborated",
+                "limit",
+            )
+        else:
+            try:
+                self.flatten(statements, _Block(top, "", {}, ()))
+            except _LimitReached:
+                pass
         nets = sorted({net for d in self.devices.values() for _, net in d.pins})
         return Circuit(
             path=self.deck.path,
@@ -561,6 +573,11 @@ class _Elaborator:
                 params[key] = scope.number(assign.value)
             except DiagnosticError as exc:
                 self.record(exc)
+        multiplier = params.get("m", 1.0)
+        if not multiplier > 0:
+            raise self.fail(
+                assigns["m"].span, f"multiplier m={multiplier:g}: it must be positive", "value"
+            )
         base = Device(
             name=name,
             kind=KIND_BY_LETTER[letter],
@@ -831,6 +848,15 @@ class _Elaborator:
         if value is None and model is None and behaviour is None:
             raise self.fail(
                 element.span, f"'{element.name}' has no value: expected '{USAGE[letter]}'", "syntax"
+            )
+        if value is not None and (value < 0 or (value == 0 and letter in "cl")):
+            # No part has these values; the rules would divide by them or report nonsense.
+            what = {"r": "resistance", "c": "capacitance", "l": "inductance"}[letter]
+            least = "not be negative" if letter == "r" else "be positive"
+            raise self.fail(
+                element.span,
+                f"'{element.name}' has {what} {value:g}; it must {least}",
+                "value",
             )
         return _with(
             base,
@@ -1386,3 +1412,63 @@ def elaborate(deck: Deck, options: ElaborateOptions | None = None) -> Circuit:
     with paused_gc():
         elaborator = _Elaborator(deck, options or ElaborateOptions())
         return elaborator.run()
+
+
+def _first_over_bound(statements: Sequence[Statement], bound: int) -> Span | None:
+    """Where the flattened device count first passes ``bound``, counted without building.
+
+    Each element counts one; an instance counts what its subcircuit holds, found by name
+    as elaboration finds it (the nearest enclosing definition). Counts are memoised per
+    definition, so the cost is linear in the statements however deep the nesting.
+    Instances elaboration will refuse (undefined, recursive) count nothing.
+    """
+    memo: dict[tuple[int, int], int] = {}
+    scopes: dict[tuple[int, int], Mapping[str, Subckt]] = {}
+
+    def definitions(body: Sequence[Statement], outer: Mapping[str, Subckt]) -> Mapping[str, Subckt]:
+        # Instances look names up from where they stand, as the elaborator does; a body
+        # without definitions of its own shares its caller's table (and memo entries).
+        key = (id(body), id(outer))
+        if key not in scopes:
+            own = {s.name: s for s in body if isinstance(s, Subckt)}
+            scopes[key] = {**outer, **own} if own else outer
+        return scopes[key]
+
+    def count(
+        body: Sequence[Statement], scope: Mapping[str, Subckt], chain: tuple[int, ...]
+    ) -> int:
+        total = 0
+        for statement in body:
+            if isinstance(statement, IfBlock):
+                # Which branch applies is decided later; the largest bounds them all.
+                total += max(
+                    (count(branch, scope, chain) for _, branch in statement.branches), default=0
+                )
+                if total > bound:
+                    return bound + 1
+                continue
+            if not isinstance(statement, Element):
+                continue
+            if statement.letter != "x":
+                total += 1
+                continue
+            words = [f for f in statement.fields if isinstance(f, Word) and f.text != "params:"]
+            definition = scope.get(words[-1].text) if words else None
+            if definition is None or id(definition) in chain or len(chain) > 64:
+                continue
+            inner = definitions(definition.body, scope)
+            key = (id(definition), id(inner))
+            if key not in memo:
+                memo[key] = count(definition.body, inner, (*chain, id(definition)))
+            total += memo[key]
+            if total > bound:
+                return bound + 1
+        return total
+
+    top = definitions(statements, {})
+    running = 0
+    for statement in statements:
+        running += count([statement], top, ())
+        if running > bound:
+            return statement.span
+    return None

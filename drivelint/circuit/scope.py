@@ -210,6 +210,11 @@ class Scope:
             from drivelint.netlist.values import parse_number
 
             value = parse_number(item.text)
+            if value is not None and not math.isfinite(value):
+                # 1e400 read as a literal is what {1e400} is: no float holds it.
+                raise self.error(
+                    item.span, f"number '{_excerpt(item.text)}' is too large for a float value"
+                )
             if value is not None:
                 return value
             return self.evaluate_text(item.text, item.span)

@@ -25,7 +25,6 @@ from typing import Final, NoReturn, TypeAlias
 from lark import Lark, Token, Tree, UnexpectedCharacters, UnexpectedInput, UnexpectedToken
 
 from drivelint.limits import Limits
-from drivelint.netlist.resources import grammar_path
 from drivelint.netlist.values import parse_number
 
 Lookup: TypeAlias = Callable[[str], float | None]
@@ -757,16 +756,9 @@ def _grammar() -> Lark:
     """The expression parser, built on first use and shared by the whole process."""
     global _parser
     if _parser is None:
-        _parser = Lark(
-            grammar_path("expr.lark").read_text(encoding="utf-8"),
-            parser="lalr",
-            lexer="contextual",
-            # Tokens carry their offsets, which is all the errors need, so trees
-            # skip position propagation.
-            propagate_positions=False,
-            maybe_placeholders=True,
-            cache=True,  # the compiled tables, so start-up skips grammar analysis
-        )
+        from drivelint.netlist.parsers import parser
+
+        _parser = parser("expr.lark")
     return _parser
 
 

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from drivelint.diagnostics import Diagnostic, DiagnosticError, Severity, Span
+from drivelint.diagnostics import Diagnostic, DiagnosticError, Severity, Span, excerpt
 from drivelint.limits import Limits
 from drivelint.netlist.statements import (
     Assign,
@@ -40,6 +40,7 @@ from drivelint.netlist.statements import (
     TranCard,
     Word,
 )
+from drivelint.paths import resolved
 
 DIRECTIVE_PREFIX = "drivelint:"
 ELEMENT_LETTERS = frozenset("rclkdqmjvieifghbswxt")
@@ -123,6 +124,8 @@ class ReadOptions:
     allow_outside_root: bool = False
     search_path: tuple[Path, ...] = ()
     limits: Limits = field(default_factory=Limits)
+    # Includes under dot-folders or VCS folders are refused unless this is set.
+    allow_hidden_includes: bool = False
 
 
 @dataclass(slots=True)
@@ -190,17 +193,9 @@ class _LineParser:
     @classmethod
     def get(cls) -> Any:
         if cls._parser is None:
-            from lark import Lark
+            from drivelint.netlist.parsers import parser
 
-            from drivelint.netlist.resources import grammar_path
-
-            cls._parser = Lark(
-                grammar_path("netlist.lark").read_text(encoding="utf-8"),
-                parser="lalr",
-                lexer="contextual",
-                maybe_placeholders=False,
-                cache=True,
-            )
+            cls._parser = parser("netlist.lark")
         return cls._parser
 
 
@@ -322,6 +317,9 @@ class _Reader:
         self.directives: list[Directive] = []
         self.files: list[str] = []
         self.sources: dict[str, tuple[str, ...]] = {}
+        self.inputs: list[tuple[str, str, str]] = []
+        self.lines_read = 0  # counting a file again each time it is included
+        self.bytes_read = 0
         self.stack: list[tuple[Path, str | None]] = []
         self.title = ""
         # Open .subckt blocks (header statement, body being collected) and .if blocks.
@@ -362,29 +360,52 @@ class _Reader:
                 "limit",
             )
             return None
-        try:
-            if path.is_dir():
-                self.report(Severity.ERROR, where, f"'{shown}' is a directory, not a netlist", code)
-                return None
-            size = path.stat().st_size
-            if size > self.limits.max_file_bytes:
-                self.report(
-                    Severity.ERROR,
-                    where,
-                    f"'{shown}' is {size} bytes, over the limit of {self.limits.max_file_bytes} "
-                    "bytes (limit max_file_bytes)",
-                    "limit",
-                )
-                return None
-            data = path.read_bytes()
-        except FileNotFoundError:
-            self.report(Severity.ERROR, where, f"file '{shown}' not found", code)
+        data = read_bounded(path, self.limits.max_file_bytes)
+        if isinstance(data, _Refusal):
+            self.report(Severity.ERROR, where, data.message.format(shown=shown), data.code or code)
             return None
-        except OSError as exc:
-            self.report(Severity.ERROR, where, f"cannot read '{shown}': {exc.strerror}", code)
+        self.bytes_read += len(data)
+        if self.bytes_read > self.limits.max_total_bytes:
+            # Each file is bounded; so is their sum (2,000 files of 32 MB would be 64 GB).
+            self.report(
+                Severity.ERROR,
+                where,
+                f"more than {self.limits.max_total_bytes} bytes read from all files "
+                f"(limit max_total_bytes); '{shown}' not read",
+                "limit",
+            )
             return None
-        if b"\x00" in data[:65536]:
-            self.report(Severity.ERROR, where, f"'{shown}' is a binary file, not a netlist", code)
+        self.inputs.append(("file", str(path), _sha256(data)))
+        return self.accept(data, shown, where, code)
+
+    def count_lines(self, count: int, where: Span, shown: str) -> bool:
+        """Add ``count`` lines to those read; False once the total passes its bound.
+
+        A small file included a hundred thousand times is read each time: without this
+        bound it would build gigabytes of statements before any other limit is reached.
+        """
+        limit = self.limits.max_lines_read
+        over = self.lines_read > limit
+        self.lines_read += count
+        if self.lines_read <= limit:
+            return True
+        if not over:  # said once; later includes are skipped in silence
+            self.report(
+                Severity.ERROR,
+                where,
+                f"more than {limit} lines read, counting a file again each time it is "
+                f"included (limit max_lines_read); '{shown}' and later includes not read",
+                "limit",
+            )
+        return False
+
+    def accept(self, data: bytes, shown: str, where: Span, code: str) -> tuple[str, ...] | None:
+        """Check the bytes of a netlist (read from a file or standard input) and keep its lines."""
+        refusal = refuse_content(data, self.limits.max_file_bytes)
+        if refusal is not None:
+            self.report(
+                Severity.ERROR, where, refusal.message.format(shown=shown), refusal.code or code
+            )
             return None
         text, fallback = _decode(data)
         lines = split_physical_lines(text)
@@ -411,7 +432,8 @@ class _Reader:
             if has_title and number == 1:
                 head = raw.lstrip()[:8].lower()
                 if not (head.startswith(".subckt") or head.startswith(".model")):
-                    self.title = raw.strip()
+                    # Reports show the title: no more of it than of any other line.
+                    self.title = excerpt(raw.strip())
                     continue
                 # A model library checked on its own: its first line is a card, not a
                 # title (ngspice would drop it as one, and the library's .ends with it).
@@ -589,6 +611,8 @@ class _Reader:
             lines = self.load(path, shown, origin)
             if lines is None:
                 return True
+        if not self.count_lines(len(lines), where, shown):
+            return True
         self.stack.append(key)
         try:
             return self.read_lines(lines, shown, path, section, has_title=origin is None)
@@ -698,7 +722,7 @@ class _Reader:
                 self.report(
                     Severity.WARNING,
                     line.span,
-                    f"unknown control card '{card}' ignored",
+                    f"unknown control card{_quote_word(card, ' ')} ignored",
                     "unknown-card",
                 )
             return
@@ -720,15 +744,15 @@ class _Reader:
             self.report(
                 Severity.WARNING,
                 line.span,
-                f"element '{card}': kind '{letter.upper()}' is not modelled by drivelint; "
-                "line ignored",
+                f"element{_quote_word(card, ' ')} of kind '{letter.upper()}' is not modelled "
+                "by drivelint; line ignored",
                 "unsupported",
             )
         else:
             raise self.fail(
                 line.span,
-                f"'{line.text.split()[0]}' does not start a statement: expected an element "
-                "name (R C L K D Q M J V I E F G H B S W X …) or a dot-card",
+                f"the line{_quote_word(line.text.split()[0], ' ')} does not start a statement: "
+                "expected an element name (R C L K D Q M J V I E F G H B S W X …) or a dot-card",
             )
 
     def behavioural(self, line: LogicalLine) -> list[Field] | None:
@@ -868,11 +892,33 @@ class _Reader:
         return FuncCard(match.group(1).lower(), params, Expr(body, line.span_at(offset)), line.span)
 
     def parse(self, line: LogicalLine) -> list[Field]:
+        fields: list[Field] | None = None
         if _FLAT_CHARS.isdisjoint(line.text):
-            flat = split_flat(line)
-            if flat is not None:
-                return flat
-        return self.parse_with_grammar(line)
+            fields = split_flat(line)
+        if fields is None:
+            fields = self.parse_with_grammar(line)
+        if len(line.text) > self.limits.max_word_chars:  # else no word can be too long
+            self.check_words(fields)
+        return fields
+
+    def check_words(self, fields: Sequence[Field]) -> None:
+        """Names and numbers are short: one of half a megabyte would be echoed by every
+        report that names the device or net it makes."""
+        limit = self.limits.max_word_chars
+        for item in fields:
+            if isinstance(item, Group):
+                self.check_words(item.items)
+                continue
+            words = [item.value] if isinstance(item, Assign) else [item]
+            long = len(item.key) if isinstance(item, Assign) else 0
+            long = max([long, *(len(w.raw) for w in words if isinstance(w, Word))])
+            if long > limit:
+                raise self.fail(
+                    item.span,
+                    f"a name or value is {long} characters long, over the limit of {limit} "
+                    "(limit max_word_chars)",
+                    "limit",
+                )
 
     def parse_with_grammar(self, line: LogicalLine) -> list[Field]:
         from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
@@ -1071,18 +1117,16 @@ class _Reader:
         section = args[1].lower() if library else None
         where = line.span_at(len(card) + 1)
         kind = "library" if library else "include"
+        if self.lines_read > self.limits.max_lines_read:
+            return  # past the bound on lines read (said once, in count_lines)
         if _absent(name, ()):
             # A library at a path of the machine the deck was written on.
+            self.inputs.append(("lookup", name, ""))
             self.note_missing(
                 kind,
                 name,
                 where,
                 f"{kind} file '{name}' is not on this machine; the deck is read without it",
-            )
-            return
-        if _absent(name, (path.parent, *self.options.search_path)):
-            self.note_missing(
-                kind, name, where, f"{kind} file '{name}' not found; the deck is read without it"
             )
             return
         target = self.resolve(name, path, where)
@@ -1119,8 +1163,20 @@ class _Reader:
             else [including.parent / candidate, *(p / candidate for p in self.options.search_path)]
         )
         try:
-            found = next((t for t in tries if t.exists()), tries[0])
-            resolved = found.resolve()
+            found = None
+            for attempt in tries:
+                # Every lookup is recorded, found or not: a file created later where one
+                # was missing (or shadowing a search-path file) must change the result key.
+                if attempt.exists():
+                    found = attempt
+                    self.inputs.append(("lookup", str(attempt.absolute()), str(attempt.resolve())))
+                    break
+                self.inputs.append(("lookup", str(attempt.absolute()), ""))
+            resolved = (found or tries[0]).resolve()
+        except RuntimeError:
+            raise self.fail(
+                span, f"include '{name}' is a loop of symbolic links", "include"
+            ) from None
         except (OSError, ValueError) as exc:
             # A name the file system cannot look up: too long, or holding a NUL byte or
             # a character with no encoding in file names.
@@ -1128,17 +1184,31 @@ class _Reader:
             raise self.fail(
                 span, f"include '{name}' is not a usable file name: {reason}", "include"
             ) from None
+        if found is None:
+            # Nothing is read from a name that finds no file, wherever it points: the
+            # caller notes it as missing (and the lookups above key the cache on it).
+            return resolved
         root = self.options.root
-        if root is not None and not self.options.allow_outside_root:
-            if not resolved.is_relative_to(root.resolve()):
-                self.report(
-                    Severity.ERROR,
-                    span,
-                    f"include '{name}' resolves outside the project root '{self.display(root)}'; "
-                    "refused (set allow_outside_root to permit it)",
-                    "include",
-                )
-                return None
+        inside = root is not None and resolved.is_relative_to(root.resolve())
+        if root is not None and not inside and not self.options.allow_outside_root:
+            self.report(
+                Severity.ERROR,
+                span,
+                f"include '{name}' resolves outside the project root '{self.display(root)}'; "
+                "refused (--allow-outside-root permits it)",
+                "include",
+            )
+            return None
+        hidden = hidden_part(Path(name), resolved, root.resolve() if inside and root else None)
+        if hidden is not None and not self.options.allow_hidden_includes:
+            self.report(
+                Severity.ERROR,
+                span,
+                f"include '{name}' is in a hidden or version-control location ('{hidden}'); "
+                "refused: such files hold settings and secrets, not netlists",
+                "include",
+            )
+            return None
         return resolved
 
 
@@ -1225,6 +1295,111 @@ def _unwrap(value: str, offset: int) -> tuple[str, int]:
     return value, offset
 
 
+# Folders of version-control systems; names starting with '.' are refused as well.
+VCS_FOLDERS = frozenset({".git", ".hg", ".svn", ".bzr", "_darcs", "cvs", ".pijul", ".fossil"})
+
+
+def hidden_part(written: Path, resolved: Path, root: Path | None) -> str | None:
+    """The first dot-file, dot-folder or version-control folder on an include's way, if any.
+
+    Checked on the name as written, on the resolved file's name, and on the folders between
+    the project root and the file (the folders above the root are the user's business).
+    """
+    parts = [p for p in written.parts if p not in (".", "..", "/", "~")]
+    below = resolved.relative_to(root).parts if root is not None else (resolved.name,)
+    for part in (*parts, *below, resolved.name):
+        if part.startswith(".") and part not in (".", "..") or part.lower() in VCS_FOLDERS:
+            return part
+    return None
+
+
+@dataclass(frozen=True, slots=True)
+class _Refusal:
+    message: str  # with {shown} for the file's name
+    code: str = ""  # "" : the caller's code (file or include)
+
+
+def _sha256(data: bytes) -> str:
+    import hashlib
+
+    return hashlib.sha256(data).hexdigest()
+
+
+def read_bounded(path: Path, max_bytes: int) -> bytes | _Refusal:
+    """A regular file's bytes, at most ``max_bytes``; never blocks on a FIFO or a device.
+
+    The file is opened without blocking and checked on the open descriptor, so a FIFO or a
+    device swapped in after a check cannot hang the read.
+    """
+    import stat
+
+    try:
+        flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0)
+        fd = os.open(path, flags)
+    except FileNotFoundError:
+        return _Refusal("file '{shown}' not found")
+    except IsADirectoryError:
+        return _Refusal("'{shown}' is a directory, not a netlist")
+    except OSError as exc:
+        return _Refusal(f"cannot read '{{shown}}': {exc.strerror or exc}")
+    try:
+        info = os.fstat(fd)
+        if stat.S_ISDIR(info.st_mode):
+            return _Refusal("'{shown}' is a directory, not a netlist")
+        if not stat.S_ISREG(info.st_mode):
+            return _Refusal("'{shown}' is not a regular file (a FIFO, socket or device); not read")
+        if info.st_size > max_bytes:
+            return _Refusal(_too_big(info.st_size, max_bytes), "limit")
+        chunks = []
+        total = 0
+        while total <= max_bytes:  # the size can grow between fstat and the read
+            chunk = os.read(fd, min(1 << 20, max_bytes + 1 - total))
+            if not chunk:
+                break
+            chunks.append(chunk)
+            total += len(chunk)
+        return b"".join(chunks)
+    except OSError as exc:
+        return _Refusal(f"cannot read '{{shown}}': {exc.strerror or exc}")
+    finally:
+        os.close(fd)
+
+
+def _too_big(size: int, max_bytes: int) -> str:
+    return (
+        f"'{{shown}}' is {size} bytes, over the limit of {max_bytes} bytes (limit max_file_bytes)"
+    )
+
+
+# C0 control characters that text files do not hold (TAB, LF, VT, FF, CR and ESC aside).
+_CONTROL_BYTES = bytes(b for b in range(32) if b not in (9, 10, 11, 12, 13, 27)) + b"\x7f"
+
+
+def refuse_content(data: bytes, max_bytes: int) -> _Refusal | None:
+    """Why these bytes are not a netlist to read: too large, binary; or None."""
+    if len(data) > max_bytes:
+        return _Refusal(_too_big(len(data), max_bytes), "limit")
+    if b"\x00" in data:
+        return _Refusal("'{shown}' is a binary file, not a netlist")
+    # Text with a stray control character is still text; a file that is mostly control
+    # bytes is not (an image, an archive, a compiled model without NULs).
+    sample = data[: 1 << 16]
+    controls = len(sample) - len(sample.translate(None, _CONTROL_BYTES))
+    if sample and controls * 20 > len(sample):
+        return _Refusal("'{shown}' is a binary file (mostly control bytes), not a netlist")
+    return None
+
+
+_PLAIN_NAME = re.compile(r"[.]?[A-Za-z0-9_$#\[\]<>+\-]{1,40}")
+
+
+def _quote_word(word: str, before: str = "") -> str:
+    """A line's first word as a message quotes it (after ``before``), when it looks like a
+    SPICE name; else nothing. A word such as ``TOKEN=…`` from a file that is not a netlist
+    must not carry its value into a report."""
+    return f"{before}'{word}'" if _PLAIN_NAME.fullmatch(word) else ""
+
+
 def _group_too_deep(text: str, limit: int) -> int | None:
     """Offset of the first '(' nested deeper than ``limit``, outside braces and quotes."""
     depth = 0
@@ -1247,32 +1422,34 @@ def _split_path_args(text: str) -> list[str]:
 
 
 def read_deck(
-    path: str | Path, options: ReadOptions | None = None, text: str | None = None
+    path: str | Path, options: ReadOptions | None = None, text: str | bytes | None = None
 ) -> Deck:
-    """Read a top-level netlist and everything it includes. Never raises for bad input."""
+    """Read a top-level netlist and everything it includes. Never raises for bad input.
+
+    ``text`` is the netlist itself (standard input, or a test's string): it goes through the
+    same size, NUL and binary checks as a file's bytes.
+    """
     options = options or ReadOptions()
     cwd = Path.cwd()
     reader = _Reader(options, cwd)
     target = Path(path)
     if text is not None:
         shown = str(path)
-        lines = split_physical_lines(text)
-        reader.files.append(shown)
-        reader.sources[shown] = lines
-        reader.stack.append((target.resolve(), None))
-        reader.read_lines(lines, shown, target.resolve(), None, has_title=True)
-        reader.stack.pop()
+        data = text.encode("utf-8", "surrogatepass") if isinstance(text, str) else text
+        absolute = resolved(target)
+        loaded = reader.accept(data, shown, Span(shown, 1, 1), "file")
     else:
         shown = reader.display(target.absolute()) if target.is_absolute() else str(path)
-        absolute = target.resolve()
+        absolute = resolved(target)
+        reader.inputs.append(("lookup", str(target.absolute()), str(absolute)))
         loaded = reader.load(absolute, shown, None)
-        if loaded is not None:
-            reader.stack.append((absolute, None))
-            try:
-                reader.read_lines(loaded, shown, absolute, None, has_title=True)
-            except DiagnosticError as exc:
-                reader.diagnostics.append(exc.diagnostic)
-            reader.stack.pop()
+    if loaded is not None and reader.count_lines(len(loaded), Span(shown, 1, 1), shown):
+        reader.stack.append((absolute, None))
+        try:
+            reader.read_lines(loaded, shown, absolute, None, has_title=True)
+        except DiagnosticError as exc:
+            reader.diagnostics.append(exc.diagnostic)
+        reader.stack.pop()
     while reader.blocks:
         end = Span(shown, max(len(reader.sources.get(shown, ())), 1), 1)
         reader.close_open_ifs(end, "the deck ends")
@@ -1290,4 +1467,5 @@ def read_deck(
         diagnostics=tuple(reader.diagnostics),
         sources=reader.sources,
         missing=tuple(reader.missing),
+        inputs=tuple(reader.inputs),
     )

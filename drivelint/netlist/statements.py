@@ -172,6 +172,9 @@ class Deck:
     diagnostics: tuple[Diagnostic, ...]
     sources: dict[str, tuple[str, ...]]
     missing: tuple[Missing, ...] = ()
+    # What the result depends on besides the text: ("file", path, sha256) for each file
+    # read, ("lookup", candidate, resolved path or "") for each include lookup, found or not.
+    inputs: tuple[tuple[str, str, str], ...] = ()
 
     def line_text(self, span: Span) -> str:
         lines = self.sources.get(span.path, ())

@@ -807,7 +807,10 @@ class Exponential(Waveform):
         tau1, tau2 = self.tau1, self.tau2
         if tau1 == 0.0 or tau2 == 0.0 or tau1 == tau2:
             return None
-        t = (math.log(tau1 / tau2) + self.td2 / tau2 - self.td1 / tau1) / (1.0 / tau2 - 1.0 / tau1)
+        # log(τ1) − log(τ2), not log(τ1/τ2): the ratio of extreme constants underflows to 0.
+        t = (math.log(tau1) - math.log(tau2) + self.td2 / tau2 - self.td1 / tau1) / (
+            1.0 / tau2 - 1.0 / tau1
+        )
         return t if t > self.td2 else None
 
     def _pieces(self) -> list[_Piece]:

@@ -7,36 +7,106 @@ A library is TOML::
     vgs_max = "20 V"
     qg = "38 nC"
 
-Keys are matched case-insensitively. Kinds and the driver's pin roles are checked when the
-file is loaded; quantities are parsed when first asked for, so a run that needs none of
-them never pays for unit parsing.
+Keys are matched case-insensitively. Everything is checked when the file is loaded —
+kinds, pin roles, every key against :data:`PART_KEY_TABLE` (unit, kinds, range) — so a
+typo or an impossible value is one error naming ``parts.toml:line``, never a silently
+ignored key or a crash inside a rule.
 """
 
 from __future__ import annotations
 
-import re
-import tomllib
+import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 
-PART_KINDS = frozenset(
-    {"nmos", "pmos", "npn", "pnp", "diode", "zener", "driver", "capacitor", "resistor"}
-)
+SWITCH_KINDS = frozenset({"nmos", "pmos"})
+BJT_KINDS = frozenset({"npn", "pnp"})
+DIODE_KINDS = frozenset({"diode", "zener"})
+SEMICONDUCTOR_KINDS = SWITCH_KINDS | BJT_KINDS | DIODE_KINDS | {"driver"}
+PART_KINDS = SEMICONDUCTOR_KINDS | {"capacitor", "resistor"}
 PIN_ROLES = frozenset(
     {"boot", "switch", "high_out", "low_out", "supply", "ground", "high_in", "low_in", "enable"}
 )
 
 
+@dataclass(frozen=True, slots=True)
+class KeySpec:
+    """A parts-library key: its unit, the part kinds it applies to, its allowed range."""
+
+    unit: str
+    kinds: frozenset[str]
+    low: float = 0.0  # values must be above this (or equal, with ``closed``) ...
+    high: float = math.inf  # ... and at most this
+    closed: bool = False
+    signed: bool = False  # a negative value is read as its magnitude (vgs_min = "-8 V")
+    help: str = ""
+
+
+def _keys() -> dict[str, KeySpec]:
+    switch, bjt, diode, driver = SWITCH_KINDS, BJT_KINDS, DIODE_KINDS, frozenset({"driver"})
+    semi = SEMICONDUCTOR_KINDS
+    passive = frozenset({"capacitor", "resistor"})
+    return {
+        # switches
+        "vds_max": KeySpec("V", switch, help="drain-source voltage rating"),
+        "vgs_max": KeySpec("V", switch, help="gate-source voltage rating (positive)"),
+        "vgs_min": KeySpec("V", switch, signed=True, help="gate-source rating, negative side"),
+        "vgs_on": KeySpec("V", switch, help="V_GS the switch needs to be fully on"),
+        "vgs_plateau": KeySpec("V", switch, help="Miller plateau voltage"),
+        "vgs_qg": KeySpec("V", switch, help="V_GS at which qg is specified"),
+        "vth": KeySpec("V", switch, signed=True, help="gate threshold voltage"),
+        "qg": KeySpec("C", switch, help="total gate charge at vgs_qg"),
+        "qgd": KeySpec("C", switch, help="gate-drain (Miller) charge"),
+        "qgs": KeySpec("C", switch, help="gate-source charge"),
+        "rds_on": KeySpec("Ohm", switch, help="on-resistance"),
+        "rg_internal": KeySpec("Ohm", switch, closed=True, help="internal gate resistance"),
+        # bipolar transistors
+        "vceo_max": KeySpec("V", bjt, help="collector-emitter voltage rating, base open"),
+        # diodes and Zeners (the body diode of a switch too)
+        "vrrm": KeySpec("V", diode, help="repetitive reverse voltage rating"),
+        "vf": KeySpec("V", diode | switch | driver, help="forward voltage"),
+        "vz": KeySpec("V", diode, help="Zener voltage"),
+        "trr": KeySpec("s", diode | switch, help="reverse recovery time"),
+        "qrr": KeySpec("C", diode | switch, closed=True, help="reverse recovery charge"),
+        "ir_leak": KeySpec("A", diode | driver, closed=True, help="reverse leakage current"),
+        # driver ICs
+        "i_source": KeySpec("A", driver, help="output source current"),
+        "i_sink": KeySpec("A", driver, help="output sink current"),
+        "r_source": KeySpec("Ohm", driver, help="output pull-up resistance"),
+        "r_sink": KeySpec("Ohm", driver, help="output pull-down resistance"),
+        "uvlo": KeySpec("V", driver, help="supply under-voltage lockout threshold"),
+        "uvlo_boot": KeySpec("V", driver, help="boot supply under-voltage lockout threshold"),
+        "iq_boot": KeySpec("A", driver, closed=True, help="boot supply quiescent current"),
+        "q_levelshift": KeySpec("C", driver, closed=True, help="level-shifter charge per cycle"),
+        "t_prop": KeySpec("s", driver, closed=True, help="propagation delay"),
+        "t_prop_mismatch": KeySpec("s", driver, closed=True, help="delay mismatch"),
+        # thermal and power, any semiconductor
+        "rth_ja": KeySpec("K/W", semi, help="junction-to-ambient thermal resistance"),
+        "rth_jc": KeySpec("K/W", semi, help="junction-to-case thermal resistance"),
+        "tj_max": KeySpec("K", semi, high=1000.0, help="maximum junction temperature"),
+        "p_max": KeySpec("W", semi | passive, help="power rating"),
+        # any part
+        "v_max": KeySpec("V", PART_KINDS, help="voltage rating"),
+        "c": KeySpec("F", frozenset({"capacitor"}), help="capacitance"),
+        "tolerance": KeySpec("1", PART_KINDS, 0.0, 1.0, True, help="relative tolerance"),
+    }
+
+
+# Every key a parts file may hold besides kind and pins: unit, kinds, range. One table,
+# documented in the README's parts section; directives' `part` keys are a subset.
+PART_KEY_TABLE: Mapping[str, KeySpec] = _keys()
+
+
 class PartsError(ValueError):
-    """A parts file that cannot be used; the message names the file and the key."""
+    """A parts file that cannot be used; the message names the file, line and key."""
 
 
 @dataclass(frozen=True, slots=True)
 class Part:
     name: str
     kind: str
-    values: Mapping[str, str | float]
+    values: Mapping[str, str | float]  # key -> value in SI units (checked at load)
     pins: Mapping[str, str]  # port name (lower case) -> role
     origin: str  # "path:line" of the part's table
 
@@ -57,56 +127,124 @@ class PartsLibrary:
         return PartsLibrary({**self.parts, **other.parts}, (*self.files, *other.files))
 
 
-_TABLE = re.compile(r"^\s*\[\s*part\.\"?([^\]\"]+)\"?\s*\]", re.MULTILINE)
+def _suggest(word: str, choices: Iterable[str]) -> str:
+    import difflib
+
+    close = difflib.get_close_matches(word, sorted(choices), n=1, cutoff=0.6)
+    return f" (did you mean '{close[0]}'?)" if close else ""
+
+
+_LOADED: dict[tuple[object, ...], PartsLibrary] = {}
 
 
 def load_parts(path: Path, shown: str | None = None) -> PartsLibrary:
-    """Load one parts file; raises :class:`PartsError` naming the file and key."""
+    """Load one parts file; raises :class:`PartsError` naming the file, line and key.
+
+    Every key is checked here: an unknown key (with the nearest known one suggested), a
+    key that does not apply to the part's kind, a value that is not a finite quantity in
+    the key's unit or is out of its range, a bad kind or pin role.
+    """
+    import os
+
     shown = shown or str(path)
     try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise PartsError(f"{shown}: cannot read parts file: {exc.strerror}") from None
+        info = os.stat(path)
+        signature: tuple[object, ...] = (str(path), shown, info.st_mtime_ns, info.st_size)
+    except OSError:
+        signature = ()
+    if signature and signature in _LOADED:
+        return _LOADED[signature]
+    library = _load(path, shown)
+    if signature:
+        _LOADED[signature] = library
+    return library
+
+
+def _load(path: Path, shown: str) -> PartsLibrary:
+    from drivelint.ratings.tomlfile import read_toml
+    from drivelint.ratings.units import UnitError, parse_quantity
+
     try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise PartsError(f"{shown}: not valid TOML: {exc}") from None
-    lines = {
-        m.group(1).strip().lower(): text.count("\n", 0, m.start()) + 1
-        for m in _TABLE.finditer(text)
-    }
+        data, lines, _ = read_toml(path, shown)
+    except ValueError as exc:
+        message = str(exc).replace(f"{shown}: cannot read:", f"{shown}: cannot read parts file:")
+        raise PartsError(message) from None
+
+    def fail(keys: tuple[str, ...], message: str) -> PartsError:
+        return PartsError(f"{shown}:{lines.line(keys)}: {'.'.join(keys)}: {message}")
+
     unknown = set(data) - {"part"}
     if unknown:
+        first = sorted(unknown)[0]
         raise PartsError(
-            f"{shown}: unknown top-level key '{sorted(unknown)[0]}' (expected [part.NAME] tables)"
+            f"{shown}:{lines.line((first,))}: unknown top-level key '{first}' "
+            "(expected [part.NAME] tables)"
         )
+    tables = data.get("part", {})
+    if not isinstance(tables, dict):
+        raise fail(("part",), "expected [part.NAME] tables")
     parts: dict[str, Part] = {}
-    for name, table in data.get("part", {}).items():
+    for name, table in tables.items():
         key = name.lower()
-        where = f"{shown}:{lines.get(key, 1)}"
+        where = f"{shown}:{lines.line(('part', name))}"
         if not isinstance(table, dict):
-            raise PartsError(f"{where}: part.{name} must be a table")
-        kind = str(table.get("kind", "")).lower()
+            raise fail(("part", name), "must be a table")
+        if key in parts:
+            raise fail(("part", name), f"part '{name}' is defined twice (names ignore case)")
+        kind_raw = table.get("kind")
+        kind = kind_raw.lower() if isinstance(kind_raw, str) else ""
         if kind not in PART_KINDS:
-            raise PartsError(
-                f"{where}: part.{name}.kind = {table.get('kind')!r}; expected one of "
-                + ", ".join(sorted(PART_KINDS))
+            raise fail(
+                ("part", name, "kind"),
+                f"{kind_raw!r}; expected one of " + ", ".join(sorted(PART_KINDS)),
             )
         pins: dict[str, str] = {}
-        for port, role in dict(table.get("pins", {})).items():
-            if str(role).lower() not in PIN_ROLES:
-                raise PartsError(
-                    f"{where}: part.{name}.pins.{port} = {role!r}; expected one of "
-                    + ", ".join(sorted(PIN_ROLES))
+        given_pins = table.get("pins", {})
+        if not isinstance(given_pins, dict):
+            raise fail(("part", name, "pins"), "expected a table of PORT = ROLE")
+        if given_pins and kind != "driver":
+            raise fail(("part", name, "pins"), f"pin roles are for drivers, not {kind} parts")
+        for port, role in given_pins.items():
+            if not isinstance(role, str) or role.lower() not in PIN_ROLES:
+                raise fail(
+                    ("part", name, "pins", port),
+                    f"{role!r}; expected one of " + ", ".join(sorted(PIN_ROLES)),
                 )
-            pins[str(port).lower()] = str(role).lower()
-        values = {
-            str(k).lower(): v
-            for k, v in table.items()
-            if k not in ("kind", "pins") and isinstance(v, (str, int, float))
-        }
+            pins[str(port).lower()] = role.lower()
+        values: dict[str, str | float] = {}
+        for item, raw in table.items():
+            if item in ("kind", "pins"):
+                continue
+            lowered = item.lower()
+            spec = PART_KEY_TABLE.get(lowered)
+            keys = ("part", name, item)
+            if spec is None:
+                raise fail(keys, "unknown key" + _suggest(lowered, PART_KEY_TABLE))
+            if kind not in spec.kinds:
+                raise fail(
+                    keys,
+                    f"does not apply to a {kind} part (it is for: {', '.join(sorted(spec.kinds))})",
+                )
+            if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
+                raise fail(keys, f"expected a quantity string such as '1 {spec.unit}'")
+            try:
+                value = parse_quantity(raw, spec.unit)
+            except UnitError as exc:
+                raise fail(keys, str(exc)) from None
+            problem = _out_of_range(abs(value) if spec.signed else value, spec)
+            if problem:
+                raise fail(keys, problem)
+            values[lowered] = value
         parts[key] = Part(key, kind, values, pins, where)
     return PartsLibrary(parts, (shown,))
+
+
+def _out_of_range(value: float, spec: KeySpec) -> str | None:
+    if value < spec.low or (value == spec.low and not spec.closed) or value > spec.high:
+        above = "at least" if spec.closed else "above"
+        top = "" if math.isinf(spec.high) else f" and at most {spec.high:g}"
+        return f"{value:g} {spec.unit} is out of range: must be {above} {spec.low:g}{top}"
+    return None
 
 
 def load_libraries(paths: Iterable[Path]) -> PartsLibrary:

@@ -3,14 +3,26 @@
 The common forms — a number, an SI prefix and one of the units drivelint uses — are read
 by a regular expression; anything else goes to pint, imported only then, so that loading
 a parts file with ordinary values does not pay pint's import time.
+
+pint is handed only text that is already bounded: at most ``MAX_QUANTITY_CHARS``
+characters of digits, letters, spaces and ``. + - * / ( )``, with no power operator.
+pint evaluates what it parses with Python integers, so ``"9**9**9 Hz"`` would compute a
+number of hundreds of millions of digits, in C, where no time bound can interrupt it.
+Every result must be a finite number.
 """
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Mapping
-from decimal import Decimal
+from decimal import Decimal, InvalidOperation
 from typing import Any
+
+MAX_QUANTITY_CHARS = 64
+# What may reach pint: unit names, SI prefixes, numbers, products and quotients.
+_PINT_SAFE = re.compile(r"[0-9A-Za-z_ .+\-*/()µμΩ°]+")
+_POWER = re.compile(r"\*\*|\^")
 
 _PREFIX: Mapping[str, int] = {
     "": 0,
@@ -71,27 +83,63 @@ def parse_quantity(raw: str | float, unit: str) -> float:
     """``raw`` in SI base units of ``unit`` (one of V A F C s Hz Ohm W K K/W H 1).
 
     A bare number is taken in ``unit`` already; temperatures in ``degC`` become kelvin.
+    Raises :class:`UnitError` for anything else, including non-finite results.
     """
-    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
-        return float(raw)
-    text = str(raw)
+    if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
+        raise UnitError(f"expected a number or a quantity string, not {type(raw).__name__}")
+    if isinstance(raw, (int, float)):
+        return _finite(float(raw), str(raw))
+    text = raw
+    if len(text) > MAX_QUANTITY_CHARS:
+        raise UnitError(f"quantity is {len(text)} characters long (at most {MAX_QUANTITY_CHARS})")
     if unit == "K":
         celsius = _CELSIUS.fullmatch(text)
         if celsius:
-            return float(celsius.group(1)) + 273.15
+            return _finite(float(celsius.group(1)) + 273.15, text)
     match = _QUANTITY.fullmatch(text)
     if match is not None:
         number, prefix, symbol = match.group(1), match.group(2) or "", match.group(3)
         if symbol is None and not prefix:
-            return float(number)
+            return _finite(float(number), text)
         if symbol is not None and _UNITS[symbol] == unit:
             if symbol == "K/W" and prefix:
                 raise UnitError(f"'{text}': a prefix on K/W is not supported")
             # Decimal keeps "9 mOhm" exactly 0.009 rather than 9 * 1e-3.
-            return float(Decimal(number).scaleb(_PREFIX[prefix]))
+            try:
+                value = float(Decimal(number).scaleb(_PREFIX[prefix]))
+            except (InvalidOperation, ArithmeticError):
+                raise UnitError(f"'{text}' is out of range") from None
+            return _finite(value, text)
         if symbol is not None and _UNITS[symbol] != unit and unit != "1":
             raise UnitError(f"'{text}' is in {_UNITS[symbol]}, expected {unit}")
-    return _parse_with_pint(text, unit)
+    if not _PINT_SAFE.fullmatch(text) or _POWER.search(text):
+        raise UnitError(
+            f"cannot read '{text}' as a quantity: expected a number and a unit such as "
+            f"'{_EXAMPLES.get(unit, '1.5')}'"
+        )
+    return _finite(_parse_with_pint(text, unit), text)
+
+
+_EXAMPLES: Mapping[str, str] = {
+    "V": "20 V",
+    "A": "2 A",
+    "F": "220 nF",
+    "C": "45 nC",
+    "s": "35 ns",
+    "Hz": "100 kHz",
+    "Ohm": "8.5 mOhm",
+    "W": "2 W",
+    "K": "175 degC",
+    "K/W": "62 K/W",
+    "H": "10 uH",
+    "1": "0.95",
+}
+
+
+def _finite(value: float, text: str) -> float:
+    if not math.isfinite(value):
+        raise UnitError(f"'{text}' is not a finite number")
+    return value
 
 
 def _parse_with_pint(text: str, unit: str) -> float:
@@ -116,6 +164,8 @@ def _parse_with_pint(text: str, unit: str) -> float:
         return float(quantity.to(target).magnitude)
     except pint.errors.DimensionalityError:
         raise UnitError(f"'{text}' has the wrong unit: expected {unit}") from None
+    except (TypeError, ValueError, OverflowError, ArithmeticError) as exc:
+        raise UnitError(f"cannot read '{text}' as a quantity ({type(exc).__name__})") from None
 
 
 _REGISTRY: Any = None

@@ -8,7 +8,8 @@ from typing import TYPE_CHECKING, Any
 from drivelint import __version__
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
-from drivelint.diagnostics import Severity
+from drivelint.diagnostics import Severity, printable, quoted_line
+from drivelint.report.status import failed, file_status
 
 if TYPE_CHECKING:
     from drivelint.report.formats import ReportOptions
@@ -19,20 +20,6 @@ JSON_VERSION = 1
 _COLORS = {Severity.ERROR: "red", Severity.WARNING: "yellow", Severity.NOTE: "cyan"}
 
 
-def file_status(result: CheckResult) -> str:
-    """``error``, ``partial``, ``findings`` or ``clean``, in that order of precedence.
-
-    ``partial``: the file was read and checked around something it names but does not
-    hold (an include, a library, a model, a subcircuit); its findings, if any, are still
-    reported, and the stages that need what is missing are "not checked".
-    """
-    if any(d.severity is Severity.ERROR for d in result.circuit.diagnostics):
-        return "error"
-    if result.circuit.partial:
-        return "partial"
-    return "findings" if result.findings else "clean"
-
-
 def finding_text(
     finding: Finding, explain: bool = False, color: bool = False, source_line: str = ""
 ) -> str:
@@ -41,11 +28,9 @@ def finding_text(
         import click
 
         label = click.style(label, fg=_COLORS[finding.severity], bold=True)
-    lines = [f"{finding.span}: {label}: {finding.message} [{finding.rule}]"]
+    lines = [f"{printable(str(finding.span))}: {label}: {finding.message} [{finding.rule}]"]
     if source_line:
-        text = source_line.rstrip().expandtabs(1)
-        lines.append(f"    {text}")
-        lines.append("    " + " " * (finding.span.column - 1) + "^")
+        lines.extend(quoted_line(source_line, finding.span.column).split("\n"))
     if explain:
         lines.append(f"    switch: {finding.switch}")
         for name, value in sorted(finding.values.items()):
@@ -53,7 +38,8 @@ def finding_text(
         for step in finding.derivation:
             lines.append(f"    | {step}")
     lines.append(f"    fix: {finding.fix}")
-    return "\n".join(lines)
+    # Names and messages carry text from the netlist: no control character reaches a terminal.
+    return "\n".join(printable(line) for line in lines)
 
 
 def results_text(results: Sequence[CheckResult], explain: bool = False, color: bool = False) -> str:
@@ -92,13 +78,11 @@ def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
     by_rule = Counter(f.rule for f in findings)
     for rule, count in sorted(by_rule.items()):
         lines.append(f"  {rule}: {count}")
-    failed = [
-        r.circuit.path for r in results if any(d.severity is Severity.ERROR for d in r.diagnostics)
-    ]
-    if failed:
+    broken = [r.circuit.path for r in results if failed(r)]
+    if broken:
         lines.append(
-            f"  files with errors: {len(failed)} ({', '.join(failed[:5])}"
-            + (", …" if len(failed) > 5 else "")
+            f"  files with errors: {len(broken)} ({', '.join(broken[:5])}"
+            + (", …" if len(broken) > 5 else "")
             + ")"
         )
     partial = [r.circuit.path for r in results if file_status(r) == "partial"]
@@ -108,7 +92,7 @@ def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
             + (", …" if len(partial) > 5 else "")
             + ")"
         )
-    return "\n".join(lines)
+    return "\n".join(printable(line) for line in lines)
 
 
 def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING
 
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
-from drivelint.diagnostics import Diagnostic, Severity, Span
+from drivelint.diagnostics import Diagnostic, Severity, Span, printable
 from drivelint.report.findings import finding_text
 from drivelint.report.sarif import portable_path
 
@@ -43,8 +43,14 @@ def annotation(severity: Severity, span: Span, title: str, message: str) -> str:
         "col": str(max(span.column, 1)),
         "title": title,
     }
-    listed = ",".join(f"{key}={escape_property(value)}" for key, value in properties.items())
-    return f"::{COMMANDS[severity]} {listed}::{escape_data(message)}"
+    # CR and LF are the workflow syntax's to escape; every other control character (ESC,
+    # which the log viewer acts on, among them) becomes a visible escape first.
+    listed = ",".join(
+        f"{key}={escape_property(printable(value, keep_line_breaks=True))}"
+        for key, value in properties.items()
+    )
+    text = escape_data(printable(message, keep_line_breaks=True))
+    return f"::{COMMANDS[severity]} {listed}::{text}"
 
 
 def finding_annotation(finding: Finding, explain: bool = False) -> str:

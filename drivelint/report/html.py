@@ -20,9 +20,10 @@ from drivelint import __version__
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
 from drivelint.circuit.model import Circuit
-from drivelint.diagnostics import Diagnostic, Severity
+from drivelint.diagnostics import Diagnostic, Severity, excerpt, printable
 from drivelint.netlist.values import format_si
 from drivelint.physics.bootstrap import boot_voltage_after, hold_time
+from drivelint.report.status import file_status
 from drivelint.stages.model import DriveStage, GatePath
 
 if TYPE_CHECKING:
@@ -46,14 +47,10 @@ SEVERITIES = (Severity.ERROR, Severity.WARNING, Severity.NOTE)
 
 
 def _e(text: object) -> str:
-    return escape(str(text), quote=True)
+    return escape(printable(str(text)), quote=True)
 
 
 def _status(result: CheckResult) -> str:
-    from drivelint.report.findings import file_status
-
-    if any(d.severity is Severity.ERROR for d in result.diagnostics):
-        return "error"
     return file_status(result)
 
 
@@ -699,7 +696,7 @@ def _severity_badge(severity: Severity) -> str:
 def _finding_html(
     finding: Finding, circuit: Circuit, anchor: str, explain: bool, accepted: bool = False
 ) -> str:
-    line = circuit.line_text(finding.span).rstrip("\r\n")
+    line = excerpt(circuit.line_text(finding.span))
     head = (
         f'<div class="fhead">{_severity_badge(finding.severity)} '
         f'<code class="rule">{_e(finding.rule)}</code> '
@@ -808,13 +805,13 @@ def _design_article(
     if shown:
         rows = "".join(
             f'<tr><td>{_severity_badge(d.severity)}</td><td class="loc">{_e(d.span)}</td>'
-            f"<td>{_e(d.message)}</td><td><code>{_e(d.code)}</code></td>"
-            f'<td><pre class="src">{_e(d.source_line.rstrip())}</pre></td></tr>'
+            f"<td>{_e(d.message)}</td><td><code>{_e(d.code)}</code></td></tr>"
             for d in shown
         )
+        # Positions only: the line an input problem is on may not be a netlist line at all.
         parts.append(
             '<h4>Input problems</h4><table class="diagnostics"><thead><tr><th>severity</th>'
-            "<th>where</th><th>message</th><th>code</th><th>line</th></tr></thead>"
+            "<th>where</th><th>message</th><th>code</th></tr></thead>"
             f"<tbody>{rows}</tbody></table>"
         )
     placed: set[int] = set()

@@ -13,9 +13,10 @@ from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 from drivelint.checks.runner import CheckResult
-from drivelint.diagnostics import Severity
+from drivelint.diagnostics import Severity, printable
 from drivelint.report.findings import finding_text
 from drivelint.report.sarif import portable_path
+from drivelint.report.status import file_status as status_of
 
 if TYPE_CHECKING:
     from drivelint.report.formats import ReportOptions
@@ -28,27 +29,33 @@ _NOT_XML = re.compile("[^\t\n\r\x20-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
 
 
 def _xml_safe(text: str) -> str:
+    """Text XML can carry and a terminal showing it will not act on: each line made
+    printable (control characters as visible escapes), the lines kept."""
+    text = "\n".join(printable(line) for line in text.split("\n"))
     return _NOT_XML.sub(lambda m: f"\\x{ord(m.group()):02x}", text)
 
 
+JUNIT_STATUS = {"error": "error", "findings": "failure", "clean": "passed"}
+
+
 def file_status(result: CheckResult) -> str:
-    """``error`` (input errors), ``failure`` (findings), ``partial`` or ``passed``.
+    """JUnit's words for :func:`drivelint.report.status.file_status`: ``error`` (input
+    errors), ``failure`` (findings), ``partial`` or ``passed``.
 
     A partial file (read around something missing) with findings is a failure; without
     findings it is reported as skipped in part, since some of its stages were not checked.
     """
-    if any(d.severity is Severity.ERROR for d in result.diagnostics):
-        return "error"
-    if result.findings:
-        return "failure"
-    return "partial" if result.circuit.partial else "passed"
+    status = status_of(result)
+    if status == "partial":
+        return "failure" if result.findings else "partial"
+    return JUNIT_STATUS[status]
 
 
 def _testcase(result: CheckResult, explain: bool) -> ET.Element:
     name = _xml_safe(portable_path(result.circuit.path))
     case = ET.Element("testcase", {"classname": SUITE, "name": name})
     errors = [d for d in result.diagnostics if d.severity is Severity.ERROR]
-    if errors:
+    if status_of(result) == "error":
         first = errors[0]
         error = ET.SubElement(
             case,
@@ -62,7 +69,8 @@ def _testcase(result: CheckResult, explain: bool) -> ET.Element:
                 "type": first.code,
             },
         )
-        error.text = _xml_safe("\n".join(d.render() for d in errors))
+        # Positions and messages only: no line of an input file goes into the report.
+        error.text = _xml_safe("\n".join(d.headline() for d in errors))
     for finding in result.findings:
         failure = ET.SubElement(
             case, "failure", {"message": _xml_safe(finding.message), "type": finding.rule}
@@ -72,7 +80,7 @@ def _testcase(result: CheckResult, explain: bool) -> ET.Element:
         needs = ", ".join(m.describe() for m in result.circuit.missing)
         ET.SubElement(case, "skipped", {"message": _xml_safe(f"partial: read without {needs}")})
     # What does not fail the file is still worth seeing beside it.
-    notes = [d.render() for d in result.diagnostics if d.severity is Severity.WARNING]
+    notes = [d.headline() for d in result.diagnostics if d.severity is Severity.WARNING]
     notes += [f"accepted: {finding_text(f)}" for f in result.accepted]
     if notes:
         ET.SubElement(case, "system-out").text = _xml_safe("\n".join(notes))

@@ -6,6 +6,7 @@ import math
 from typing import Any
 
 from drivelint.circuit.model import Circuit, Device
+from drivelint.diagnostics import printable
 
 
 def _number(value: float) -> float | str:
@@ -96,4 +97,4 @@ def netlist_text(circuit: Circuit) -> str:
         lines.append("  read in part, without: " + ", ".join(m.describe() for m in circuit.missing))
     for diagnostic in circuit.diagnostics:
         lines.append(diagnostic.render())
-    return "\n".join(lines)
+    return "\n".join(printable(line) for text in lines for line in text.split("\n"))

@@ -20,7 +20,9 @@ from drivelint import __version__
 from drivelint.checks.base import Finding
 from drivelint.checks.registry import Rule, registry
 from drivelint.checks.runner import CheckResult
-from drivelint.diagnostics import Diagnostic, Severity, Span
+from drivelint.diagnostics import Diagnostic, Severity, Span, excerpt
+from drivelint.paths import resolved
+from drivelint.report.status import failed
 
 if TYPE_CHECKING:
     from drivelint.report.formats import ReportOptions
@@ -47,7 +49,7 @@ def portable_path(path: str) -> str:
     pure = PurePath(path)
     if pure.is_absolute():
         try:
-            pure = Path(path).resolve().relative_to(Path.cwd().resolve())
+            pure = resolved(Path(path)).relative_to(resolved(Path.cwd()))
         except ValueError:
             return pure.as_posix()
     return posixpath.normpath(pure.as_posix())
@@ -57,8 +59,10 @@ def artifact_uri(path: str) -> tuple[str, str | None]:
     """The URI of a checked file and its base id (None for an absolute ``file:`` URI)."""
     portable = portable_path(path)
     if PurePath(portable).is_absolute():
-        return "file://" + quote(portable if portable.startswith("/") else "/" + portable), None
-    return quote(portable), SOURCE_ROOT
+        absolute = portable if portable.startswith("/") else "/" + portable
+        return "file://" + quote(absolute, errors="surrogateescape"), None
+    # A file name that is not UTF-8 keeps its own bytes, percent-encoded.
+    return quote(portable, errors="surrogateescape"), SOURCE_ROOT
 
 
 def _unwrap(text: str) -> str:
@@ -123,8 +127,13 @@ class _Artifacts:
 
 
 def _physical(span: Span, source_line: str, artifacts: _Artifacts) -> dict[str, Any]:
+    """A location; with a snippet (a short excerpt) only for a finding's own device line.
+
+    Input problems and related locations carry their position alone: the line of an input
+    problem may not be a netlist line at all (an included file that holds something else).
+    """
     region: dict[str, Any] = {"startLine": max(span.line, 1), "startColumn": max(span.column, 1)}
-    text = source_line.rstrip("\r\n")
+    text = excerpt(source_line)
     if text:
         region["snippet"] = {"text": text}
     return {"artifactLocation": artifacts.location(span.path), "region": region}
@@ -169,7 +178,7 @@ def _related(result: CheckResult, finding: Finding, artifacts: _Artifacts) -> li
         related.append(
             {
                 "id": number,
-                "physicalLocation": _physical(span, result.circuit.line_text(span), artifacts),
+                "physicalLocation": _physical(span, "", artifacts),
                 "message": {"text": text},
             }
         )
@@ -181,7 +190,7 @@ def _fingerprint(finding: Finding) -> str:
     key = "\0".join(
         (portable_path(finding.span.path), finding.rule, finding.switch, finding.device)
     )
-    return hashlib.sha256(key.encode("utf-8")).hexdigest()[:32]
+    return hashlib.sha256(key.encode("utf-8", "surrogateescape")).hexdigest()[:32]
 
 
 def _acceptance_reason(result: CheckResult, finding: Finding) -> str:
@@ -240,9 +249,7 @@ def _notification(
     return {
         "level": LEVELS[diagnostic.severity],
         "message": {"text": diagnostic.message},
-        "locations": [
-            {"physicalLocation": _physical(diagnostic.span, diagnostic.source_line, artifacts)}
-        ],
+        "locations": [{"physicalLocation": _physical(diagnostic.span, "", artifacts)}],
         "descriptor": {"id": diagnostic.code, "index": codes[diagnostic.code]},
     }
 
@@ -280,7 +287,7 @@ def sarif_log(results: Sequence[CheckResult]) -> dict[str, Any]:
         ]
     invocation = {
         # False when some input could not be read as written: its checks are incomplete.
-        "executionSuccessful": not any(d.severity is Severity.ERROR for d in diagnostics),
+        "executionSuccessful": not any(failed(r) for r in ordered),
         "toolExecutionNotifications": [_notification(d, codes, artifacts) for d in diagnostics],
     }
     run = {
@@ -303,5 +310,21 @@ def sarif_log(results: Sequence[CheckResult]) -> dict[str, Any]:
     return {"version": SARIF_VERSION, "$schema": SARIF_SCHEMA, "runs": [run]}
 
 
+# Characters JSON may carry raw but a terminal or an editor acts on: written as \\u escapes
+# (valid JSON, since outside strings the log holds only ASCII).
+_RAW_UNSAFE = {
+    code: f"\\u{code:04x}"
+    for code in (
+        0x7F,
+        *range(0x80, 0xA0),
+        0x2028,
+        0x2029,
+        *range(0x202A, 0x202F),
+        *range(0x2066, 0x206A),
+    )
+}
+
+
 def format_sarif(results: Sequence[CheckResult], options: ReportOptions) -> str:
-    return json.dumps(sarif_log(results), indent=2, ensure_ascii=False) + "\n"
+    text = json.dumps(sarif_log(results), indent=2, ensure_ascii=False)
+    return text.translate(_RAW_UNSAFE) + "\n"

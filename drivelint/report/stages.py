@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from drivelint.circuit.model import Circuit
+from drivelint.diagnostics import printable
 from drivelint.stages.model import DriveStage
 
 
@@ -89,4 +90,5 @@ def stages_text(circuit: Circuit, stages: Sequence[DriveStage], show_all: bool =
     lines = [f"{circuit.path}: {len(stages)} switches, {floating} floating"]
     lines.extend(stage_text(s) for s in shown)
     lines.extend(d.render() for d in circuit.diagnostics)
-    return "\n".join(lines)
+    # Names come from the netlist: no control character reaches a terminal.
+    return "\n".join(printable(line) for text in lines for line in text.split("\n"))

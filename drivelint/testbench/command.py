@@ -20,12 +20,11 @@ from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
-from drivelint.batch import DEFAULT_SECONDS_PER_FILE, BatchOptions, Job, check_job
+from drivelint.batch import BatchOptions, Job, check_job, load_options
 from drivelint.checks.base import Finding
 from drivelint.checks.facts import StageFacts, devices_by_net
 from drivelint.checks.registry import registry
 from drivelint.checks.runner import CheckResult, RuleSetting
-from drivelint.config import Config
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.netlist.values import format_si
 from drivelint.ratings.directives import CONDITION_KEYS, parse_directives
@@ -51,7 +50,7 @@ class BenchOptions:
     parts: tuple[Path, ...] = ()
     run: bool = False
     jobs: int = 1
-    seconds_per_file: float = DEFAULT_SECONDS_PER_FILE
+    seconds_per_file: float | None = None  # None: each file's limits.max_seconds_per_file
     run_timeout: float = DEFAULT_TIMEOUT
     max_output: int = MAX_OUTPUT
     ngspice: str | None = None  # the executable; None: found on the PATH
@@ -311,25 +310,24 @@ class _Folders:
         return self.root / candidate
 
 
-def make_testbenches(
-    paths: Sequence[Path], configs: Sequence[Config], options: BenchOptions
-) -> Outcome:
-    """Write the testbench decks of every finding of ``paths`` (one configuration each)."""
+def make_testbenches(jobs: Sequence[Job], options: BenchOptions) -> Outcome:
+    """Write the testbench decks of every finding of ``jobs`` (planned as ``check`` plans
+    them: each with its configuration and the sandbox it may use)."""
     outcome = Outcome()
     folders = _Folders(options.output)
-    for path, config in zip(paths, configs):
-        _one_file(path, config, options, folders, outcome)
+    for job in jobs:
+        _one_file(job, options, folders, outcome)
     if options.run:
         _run_all(outcome, options)
     outcome.records.sort(key=Record.sort_key)
     return outcome
 
 
-def _one_file(
-    path: Path, config: Config, options: BenchOptions, folders: _Folders, outcome: Outcome
-) -> None:
+def _one_file(job: Job, options: BenchOptions, folders: _Folders, outcome: Outcome) -> None:
+    path = job.path
     batch = BatchOptions(parts=options.parts, seconds_per_file=options.seconds_per_file)
-    result = check_job(Job(path, config), batch)
+    seconds = job.seconds(batch)
+    result = check_job(job, batch)
     # A directive in a comment that cannot be read does not change what a simulator does;
     # any other error would leave a deck that does not run.
     errors = [
@@ -343,14 +341,14 @@ def _one_file(
     if not findings:
         return
     try:
-        with time_limit(options.seconds_per_file):
-            _decks_for(path, config, options, folders.folder(path), result, findings, outcome)
+        with time_limit(seconds):
+            _decks_for(job, options, folders.folder(path), result, findings, outcome)
     except _TimeLimit:
         outcome.diagnostics.append(
             _diagnostic(
                 path,
-                f"writing testbenches took longer than {options.seconds_per_file:g} s "
-                "(limit seconds_per_file); file skipped",
+                f"writing testbenches took longer than {seconds:g} s "
+                "(limit max_seconds_per_file); file skipped",
                 "limit",
             )
         )
@@ -368,8 +366,7 @@ def _wanted(finding: Finding, options: BenchOptions) -> bool:
 
 
 def _decks_for(
-    path: Path,
-    config: Config,
+    job: Job,
     options: BenchOptions,
     folder: Path,
     result: CheckResult,
@@ -377,15 +374,17 @@ def _decks_for(
     outcome: Outcome,
 ) -> None:
     from drivelint.netlist.reader import ReadOptions, read_deck
-    from drivelint.pipeline import find_project_root, options_from, parts_for
+    from drivelint.pipeline import find_project_root, parts_for
 
+    path, config = job.path, job.config
     circuit = result.circuit
-    load = options_from(config)
+    load = load_options(job)
     read = ReadOptions(
         root=load.root or find_project_root(path),
         allow_outside_root=load.allow_outside_root,
         search_path=load.search_path,
         limits=load.limits,
+        allow_hidden_includes=load.allow_hidden_includes,
     )
     design = Design(read_deck(path, read), circuit)
     library = parts_for(path, (*config.parts, *options.parts))

@@ -185,7 +185,7 @@ def test_a_crashing_rule_costs_one_file(monkeypatch: pytest.MonkeyPatch, tmp_pat
 
 
 def test_cached_results_survive_pickling_unchanged() -> None:
-    # The cache and the worker pool move results through pickle; positional_reduce
+    # The worker pool moves results through pickle (the cache is JSON); positional_reduce
     # rebuilds the dataclasses through their constructors, which must give equal objects.
     import pickle
 

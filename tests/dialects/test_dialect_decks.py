@@ -124,14 +124,15 @@ def test_a_library_checked_on_its_own_reads_its_first_card() -> None:
     # The first line of a model library is its .SUBCKT card, not a title: read as a card,
     # with a note saying so (ngspice would drop it as a title and the .ENDS with it).
     circuit = load(HERE / "inc" / "fet_library.lib")
-    assert [d.severity for d in circuit.diagnostics] == [Severity.NOTE]
+    assert [d.severity for d in circuit.diagnostics] == [Severity.NOTE, Severity.NOTE]
     assert "first line is a '.subckt' card" in circuit.diagnostics[0].message
+    assert circuit.diagnostics[1].code == "library"  # defined, none placed: nothing to check
     assert circuit.title == ""
 
 
 def test_a_partial_deck_checks_what_does_not_depend_on_what_is_missing() -> None:
     from drivelint.pipeline import check_path
-    from drivelint.report.findings import file_status
+    from drivelint.report.status import file_status
 
     result = check_path(HERE / "19_partial.cir")
     assert file_status(result) == "partial"
@@ -148,7 +149,7 @@ def test_stages_away_from_what_is_missing_are_still_checked(tmp_path: Path) -> N
     # A bundled example with an undefined block on nets of its own added: the drive
     # stage does not touch it, so it is checked as before and the file is partial.
     from drivelint.pipeline import check_text
-    from drivelint.report.findings import file_status
+    from drivelint.report.status import file_status
 
     example = HERE.parent.parent / "examples" / "tool36_leg_totem_pole.cir"
     text = example.read_text()

@@ -126,7 +126,7 @@ def test_bad_quantities(text: str, unit: str) -> None:
 def test_parts_file_errors_name_file_and_key(tmp_path) -> None:  # type: ignore[no-untyped-def]
     path = tmp_path / "parts.toml"
     path.write_text('[part.X]\nkind = "nmos"\nqg = "38 nC"\n[part.Y]\nkind = "widget"\n')
-    with pytest.raises(PartsError, match=r"parts.toml:4: part.Y.kind"):
+    with pytest.raises(PartsError, match=r"parts.toml:5: part.Y.kind"):
         load_parts(path)
     path.write_text('[part.D]\nkind = "driver"\npins = { VB = "bootx" }\n')
     with pytest.raises(PartsError, match="pins.VB"):

@@ -193,8 +193,9 @@ def test_input_errors_become_tool_notifications(
     for notification in notifications:
         location = notification["locations"][0]["physicalLocation"]
         assert location["artifactLocation"]["uri"] == "decks/broken.cir"
-        line = location["region"]["startLine"]
-        assert location["region"]["snippet"]["text"] == BROKEN.split("\n")[line - 1]
+        # Position only: the line of an input problem may not be a netlist line at all
+        # (an included secret), so no snippet of it reaches a dashboard.
+        assert "snippet" not in location["region"]
         assert notification["level"] == "error"
     clean = [r for r in examples if not any(d.severity is Severity.ERROR for d in r.diagnostics)]
     assert sarif(clean)["runs"][0]["invocations"][0]["executionSuccessful"] is True

@@ -11,6 +11,7 @@ from pathlib import Path
 import pytest
 from testbench_support import EXAMPLES, NGSPICE, build
 
+from drivelint.batch import Job
 from drivelint.config import Config
 from drivelint.testbench.command import (
     MAX_NAME,
@@ -122,7 +123,7 @@ def test_a_broken_netlist_is_a_diagnostic_and_the_batch_goes_on(tmp_path: Path) 
 
 def test_the_time_bound_of_check_holds(tmp_path: Path) -> None:
     options = BenchOptions(output=tmp_path / "out", seconds_per_file=1e-6)
-    outcome = make_testbenches([EXAMPLES / "tool36_leg_totem_pole.cir"], [Config()], options)
+    outcome = make_testbenches([Job(EXAMPLES / "tool36_leg_totem_pole.cir", Config())], options)
     assert outcome.failed and outcome.diagnostics
     assert outcome.diagnostics[0].code == "limit"
     assert not (tmp_path / "out").exists()

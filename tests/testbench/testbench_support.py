@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from drivelint.config import find_config, load_config
+from drivelint.batch import BatchOptions, plan
 from drivelint.pipeline import collect_paths
 from drivelint.testbench.command import BenchOptions, Outcome, make_testbenches
 
@@ -21,9 +21,9 @@ NO_NGSPICE = "ngspice is not installed (Debian package 'ngspice'); cannot simula
 
 def build(sources: Iterable[Path], output: Path, run: bool = False) -> Outcome:
     """What ``drivelint testbench SOURCES --output OUTPUT [--run]`` does, in process."""
-    paths = collect_paths(tuple(sources))
-    configs = [load_config(find_config(p)) for p in paths]
-    return make_testbenches(paths, configs, BenchOptions(output=output, run=run, jobs=2))
+    sources = tuple(sources)
+    jobs = plan(collect_paths(sources), BatchOptions(scan_roots=sources))
+    return make_testbenches(jobs, BenchOptions(output=output, run=run, jobs=2))
 
 
 def needs_ngspice() -> None:
