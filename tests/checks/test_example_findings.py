@@ -17,12 +17,13 @@ ROOT = Path(__file__).resolve().parents[2]
 # (example, rule, device, line): the mistakes listed in examples/README.md.
 EXPECTED = {
     ("buck12v_5v_400k_sync.cir", "bootstrap-diode-slow", "d_bst", 26),
+    # the same slow diode: its recovery charge is most of what C_BST must deliver
+    ("buck12v_5v_400k_sync.cir", "bootstrap-capacitor-small", "c_bst", 27),
     ("heater96v_isolated_supply.cir", "gate-overvoltage", "d_z", 30),
     ("loadswitch24v_dc_enable.cir", "dc-hold", "ven", 38),
     ("loadswitch24v_dc_enable.cir", "gate-overvoltage", "q4", 52),
     ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-no-refresh", "vhia", 38),
     ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-diode-voltage", "xlega.d_bt", 47),
-    ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-diode-voltage", "xlegb.d_bt", 47),
     ("tool36_leg_totem_pole.cir", "bootstrap-capacitor-small", "c1", 34),
 }
 CLEAN = [

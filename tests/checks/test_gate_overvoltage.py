@@ -124,20 +124,30 @@ def test_bootstrap_puts_its_own_voltage_across_gate_source() -> None:
     (finding,) = [f for f in lint(text) if f.device == "m1"]
     assert finding.severity is Severity.ERROR
     assert finding.span.line == line_of(text, "M1")
-    assert value(finding, "vgs_max_positive") == pytest.approx(24 - V_F)
+    # less the little the gate takes from the 470 nF as the two settle at turn-on
+    # (charge sharing, Q_g/(C + C_g): about 0.2 V for the model's 2 nF + 1 nF)
+    assert value(finding, "vgs_max_positive") == pytest.approx(24 - V_F, abs=0.3)
+    assert value(finding, "vgs_max_positive") < 24 - V_F
+    assert "sharing its charge" in finding.values["vgs_drive"].origin
     assert value(finding, "vgs_limit_positive") == pytest.approx(VGS_MAX_TYPICAL)
     assert "no gate–source clamp" in finding.message
     assert "at most 20 V" in finding.fix
 
 
-def test_rail_fed_gate_sees_the_whole_rail_while_the_source_is_at_ground() -> None:
-    # With the switch off its source sits at ground (load to ground), so a gate pulled up
-    # from a 24 V rail starts from V_GS = 24 V − 0 (common practice).
+def test_rail_fed_gate_sees_the_whole_rail_only_with_the_output_shorted() -> None:
+    # A gate pulled up from a 24 V rail while the drain sits on the same 24 V: in normal
+    # operation the source follows the gate up (textbook source follower), so V_GS stays
+    # well inside the rating; only with the source held at ground (an output short) does
+    # the gate see the whole 24 V − 0 (common practice). That case is a warning, and the
+    # fix is the clamp that would protect it.
     text = RAIL_FED.format(clamp="")
     (finding,) = lint(text)
     assert finding.device == "m1" and finding.span.line == line_of(text, "M1")
-    assert value(finding, "vgs_max_positive") == pytest.approx(24.0)
+    assert finding.severity is Severity.WARNING
+    assert value(finding, "vgs_max_positive") == pytest.approx(0.0)
+    assert value(finding, "vgs_output_short") == pytest.approx(24.0)
     assert value(finding, "v_gate_supply") == pytest.approx(24.0)
+    assert "shorted" in finding.message
     # The pull-down returns to ground, but a resistive load lets the source follow the
     # gate down (textbook source follower): V_GS stays at about −V_th (VTO = 3 V).
     assert value(finding, "vgs_max_negative") == pytest.approx(-3.0)
@@ -152,9 +162,11 @@ def test_reference_zener_to_ground_caps_a_rail_fed_gate() -> None:
     # (textbook Zener reference): the 24 V source follower's gate stays at 15 V.
     text = (EXAMPLES / "linreg24v_source_follower.cir").read_text(encoding="utf-8")
     assert lint(text) == []
-    # Without the reference the gate can reach the 24 V input.
+    # Without the reference the gate can reach the 24 V input: with the output shorted
+    # that is the whole 24 V across gate and source (a warning for a linear stage).
     (finding,) = lint(text.replace("D_REF 0 REF ZENER_15", "* no reference"))
-    assert value(finding, "vgs_max_positive") == pytest.approx(24.0)
+    assert value(finding, "vgs_output_short") == pytest.approx(24.0)
+    assert finding.severity is Severity.WARNING
 
 
 # -- the negative side ------------------------------------------------------------------------
@@ -172,7 +184,7 @@ def test_pull_down_to_ground_with_output_capacitance_reaches_minus_bus() -> None
     assert value(finding, "vgs_limit_negative") == pytest.approx(-VGS_MAX_TYPICAL)
     assert value(finding, "c_source_node") == pytest.approx(47e-6)
     assert value(finding, "tau_source_node") == pytest.approx(48 * 47e-6)
-    assert value(finding, "vgs_max_positive") == pytest.approx(12.0 - V_F)
+    assert value(finding, "vgs_max_positive") == pytest.approx(12.0 - V_F, abs=0.3)
     assert "return q1 to the source out" in finding.fix
     # The fix's Zener stays off at the 11.3 V drive with 5 % tolerance: 12 V (E24).
     assert "Zener of 12 V" in finding.fix
