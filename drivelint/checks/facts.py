@@ -490,8 +490,14 @@ class StageFacts:
 
     @cached_property
     def v_refresh(self) -> float:
-        """The switch node's level at the end of the recharge, as the capacitor sees it."""
-        return self.v_sw_low.value - self.dead_time_boost.value
+        """The switch node's level at the end of the recharge, as the capacitor sees it.
+
+        The dead-time boost is not counted here: it needs the load current to flow out of
+        the node, which a light load or a reversed current takes away. Hold, sizing and
+        headroom figures are judged without it; the stress maximum (``v_boot_max``) and the
+        recovery charge count it.
+        """
+        return self.v_sw_low.value
 
     @cached_property
     def recharge_time(self) -> Value | None:
@@ -601,8 +607,6 @@ class StageFacts:
             self.v_aux.value, self.diode_vf.value, v_refresh=self.v_refresh
         )
         how = "V_aux − V_F" + (" − V_sw,low" if self.v_sw_low.value else "")
-        if self.dead_time_boost.value:
-            how += f" + {self.dead_time_boost.text()} dead-time boost"
         return Value(volts, "V", f"computed: {how}")
 
     @cached_property
@@ -636,7 +640,7 @@ class StageFacts:
         if supply.kind != "bootstrap" or self.v_aux_max is None or self.diode is None:
             return None
         volts = boot_physics.boot_voltage_max(
-            self.v_aux_max.value, self.diode_vf.value, self.v_refresh
+            self.v_aux_max.value, self.diode_vf.value, self.v_refresh - self.dead_time_boost.value
         )
         how = "V_aux,max − V_F − V_sw,low"
         if self.dead_time_boost.value:

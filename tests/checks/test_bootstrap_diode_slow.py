@@ -179,8 +179,10 @@ def test_example_buck_rectifier_as_boot_diode() -> None:
     # Q_cycle = Q_g + Q_ls + I_drain·t_on, without the recovery: parts.toml's Q_g, scaled to
     # the drive level, and q_levelshift 0.1 nC; the drain includes at least iq_boot 50 µA and
     # DGP_400's ir_leak 5 µA.
+    # (the 5 V rail less the rectifier's drop drives the gate to about 4.35 V, a little
+    # under the 4.5 V at which parts.toml gives the 8.5 nC)
     i_drain = 55e-6
-    assert values["q_per_cycle"].value > 8.5e-9 + 0.1e-9 + i_drain * t_on
+    assert 8.0e-9 + 0.1e-9 + i_drain * t_on < values["q_per_cycle"].value < 9.5e-9
     # Q_rr = TT·I_F with TT = 4 µs (Lauritzen and Ma 1991), I_F as the recharge ends, plus
     # the charge the dead-time step pushes into the diffusion capacitance of a diode that
     # cannot recover within it: many times the gate's charge.
