@@ -1109,6 +1109,11 @@ class _StageBuilder:
             )
         if supply.kind == "charge-pump":
             notes.append(self.pump_note(supply))
+        if driver is not None and driver[0].origin == "pin names":
+            info = driver[0]
+            notes.append(
+                f"{info.device} (subcircuit {info.subckt}) taken as a driver IC by its pin names"
+            )
         clamps = self.clamps()
         refresh = self.refresh()
         related = {

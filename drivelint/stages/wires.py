@@ -79,7 +79,20 @@ def _two_nets(device: Device) -> tuple[str, str] | None:
 
 
 def _filter_nets(circuit: Circuit, rails: Mapping[str, float]) -> frozenset[str]:
-    """Nets (not rails themselves) with a filter-sized capacitor to ground or a rail."""
+    """Nets (not rails themselves) with a filter-sized capacitor to ground or a rail (also
+    through its ESR, a milliohm resistor)."""
+    rails = dict(rails)
+    for device in circuit.devices.values():
+        nets = _two_nets(device)
+        if device.kind != "resistor" or device.value is None or nets is None:
+            continue
+        if abs(device.value) / device.multiplier > WIRE_MAX_RESISTANCE:
+            continue
+        a, b = nets
+        if a in rails and b not in rails:
+            rails[b] = rails[a]
+        elif b in rails and a not in rails:
+            rails[a] = rails[b]
     out: set[str] = set()
     for device in circuit.devices.values():
         if device.kind != "capacitor" or device.value is None:

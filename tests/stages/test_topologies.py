@@ -230,3 +230,18 @@ def test_source_followers_are_linear() -> None:
         stage = stage_of(deck, switch)
         assert stage.mode == "linear", deck
         assert any("linear stage" in n for n in stage.notes)
+
+
+def test_a_filter_capacitor_behind_its_esr_still_makes_a_filter(tmp_path: Path) -> None:
+    text = """470 nH output inductor onto 22 µF with 5 mΩ of ESR
+VIN vin 0 DC 12
+L1 sw out 470n
+C1 out esr 22u
+R1 esr 0 5m
+RB out 0 1
+.end
+"""
+    path = tmp_path / "deck.cir"
+    path.write_text(text, encoding="utf-8")
+    names = {w.device for w in find_wires(load_circuit(path))}
+    assert names == {"r1"}
