@@ -983,8 +983,9 @@ class StageFacts:
                 return None
             tau = trr.value
             where = f"t_rr {trr.text()} taken as the carrier lifetime ({trr.origin})"
-        step = self.dead_time_boost.value
+        step = self.freewheel_drop.value if self.dead_time_boost.value > 0 else 0.0
         c, n_vt, dead = self.c_hold, self._n_vt, self.dead_time
+        params = model.params if model is not None else {}
         slow = dead is not None and self._tt > dead.value
         if step > 0 and c is not None and n_vt is not None and dead is not None and not slow:
             # A dead time just before the turn-on drops the node a diode drop lower and the
@@ -1001,19 +1002,21 @@ class StageFacts:
                 where += " (the current still charging it at the end of the dead time)"
         stored = diode_physics.recovery_charge(tau, current)
         how = f"computed: TT·I_F = {where} × {format_si(current, 'A')} flowing as the recharge ends"
-        if step > 0 and c is not None and n_vt is not None and slow and self._tt > 0:
-            # The dead time drops the node a diode drop lower just before the turn-on. A diode
-            # whose TT outlasts the dead time cannot follow: the step divides between the hold
-            # capacitor and its diffusion capacitance TT·I/(n·V_T), which stores that much
-            # more charge (SPICE diode model). A faster diode's stored charge just follows
-            # its current, TT·I_F.
-            c_diffusion = self._tt * current / n_vt
-            surge = step * c_diffusion * c.value / (c_diffusion + c.value)
-            stored += surge
-            how += (
-                f", plus {format_si(surge, 'C')} pushed into its diffusion capacitance by the "
-                f"{self.dead_time_boost.text()} dead-time step"
+        if step > 0 and c is not None and n_vt is not None and dead is not None and slow:
+            # A diode whose TT outlasts the dead time cannot follow the step: its diffusion
+            # charge grows with the current the step drives into the capacitor (SPICE3
+            # diode with RS and TT in series with C), and comes back at the rising edge.
+            r_path = (self.stage.supply.series_resistance or 0.0) + params.get("rs", 0.0)
+            after = diode_physics.stored_charge_after_step(
+                c.value, params["is"], n_vt, r_path, self._tt, current, step, dead.value
             )
+            if after > stored:
+                how += (
+                    f"; the diode cannot recover within the {dead.text()} dead time, whose "
+                    f"{format_si(step, 'V')} step drives its stored charge to "
+                    f"{format_si(after, 'C')}"
+                )
+                stored = after
         return computed(stored, "C", how)
 
     @cached_property

@@ -996,7 +996,12 @@ class _StageBuilder:
         if depth >= MAX_COMBINE_DEPTH or len(trail) >= MAX_CONTROL_HOPS:
             return None
         origins = [self.trace_source(n, flip, trail, depth + 1) for n, flip in inputs]
-        signals = [o for o in origins if o.kind != "tied"]
+        # a fixed level (a tied input, a DC reference source) is a threshold, not a signal
+        signals = [
+            o
+            for o in origins
+            if o.kind != "tied" and not (o.waveform is not None and o.waveform.kind == "dc")
+        ]
         if not signals:
             return None
         names = {o.source for o in signals}

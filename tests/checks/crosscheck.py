@@ -198,7 +198,7 @@ def measure_switching(
         earliest = max(boot[j] for j in range(k, first_rise + 1))
         for (rise, fall), stop in zip(spans, previous_fall, strict=True):
             # back from the rise, past the node's low stretch, to where the gate is still
-            # low: the end of the recharge (the highest point before the turn-on)
+            # low: the end of the recharge is the highest point from there to the rise
             i = rise
             while i > stop and node[i] > near_low:
                 i -= 1
@@ -214,9 +214,13 @@ def measure_switching(
     if nets.diode:
         current = w[device_current(nets.diode)]
         back = []
-        for rise, fall in spans:
+        for (rise, fall), stop in zip(spans, previous_fall, strict=True):
+            # from where the gate starts to rise: a diode refilling a dead-time dip stops
+            # and recovers while the node is still close to its low level
             i = rise
-            while i > 0 and node[i] > near_low:
+            while i > stop and node[i] > near_low:
+                i -= 1
+            while i > stop and vgs[i] > gate_low:
                 i -= 1
             mid = (rise + fall) // 2
             charge = -sum(

@@ -412,7 +412,26 @@ QUIET_EXAMPLES = [
     "boost12v_led_lowside.cir",
     "heater12v_pchannel_highside.cir",
     "linreg24v_source_follower.cir",
+    "classd45v_split_rail_amp.cir",  # every pull-down returns to the switch node
+    "valve24v_pump_loadswitch.cir",  # the 15 V Zener holds the riding reservoir's charge
+    "buck48v_closed_loop_ammeters.cir",
+    "winch36v_shunt_load_dump.cir",
+    "actuator24v_hbridge_held_leg.cir",  # leg B never on
 ]
+
+
+def test_linear_regulator_example_warns_for_the_output_short() -> None:
+    # examples/README.md: the pass device's gate is pulled up from 60 V with no Zener. In
+    # normal operation the source follows the gate (V_GS a few volts, ngspice in
+    # tests/test_examples_simulate.py); with the output shorted V_GS heads for 60 V, and
+    # with the output held up by C_OUT while Q_EA pulls the gate down, for −48 V.
+    result = check_path(EXAMPLES / "linreg48v_pass_follower.cir")
+    found = {f.device: f for f in result.findings if f.rule == RULE}
+    assert set(found) == {"m_pass", "q_ea"}
+    assert all(f.severity is Severity.WARNING for f in found.values())
+    assert value(found["m_pass"], "vgs_output_short") == pytest.approx(60.0)
+    assert value(found["q_ea"], "vgs_max_negative") == pytest.approx(-48.0)
+    assert "Zener of 18 V" in found["m_pass"].fix
 
 
 @pytest.mark.parametrize("name", QUIET_EXAMPLES)
@@ -422,7 +441,12 @@ def test_other_examples_give_nothing_for_this_rule(name: str) -> None:
 
 
 def test_every_example_is_covered() -> None:
-    covered = {*QUIET_EXAMPLES, "loadswitch24v_dc_enable.cir", "heater96v_isolated_supply.cir"}
+    covered = {
+        *QUIET_EXAMPLES,
+        "loadswitch24v_dc_enable.cir",
+        "heater96v_isolated_supply.cir",
+        "linreg48v_pass_follower.cir",
+    }
     assert covered == {p.name for p in EXAMPLES.glob("*.cir")}
 
 
