@@ -166,10 +166,7 @@ def check_gate_headroom(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
             "across it"
         )
     elif locked:
-        consequence = (
-            f"below the driver's lockout {found.lockout.text()}, so it turns the switch off "  # type: ignore[union-attr]
-            "unasked"
-        )
+        consequence = f"{_near_lockout(facts, vgs)}, so the driver may turn the switch off unasked"
     elif not_on:
         consequence = (
             f"at or below {found.full_on.text()} ({found.full_on.origin}): the switch never "  # type: ignore[union-attr]
@@ -184,10 +181,10 @@ def check_gate_headroom(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
     droop_text = (
         f", {found.vgs_on_worst.text()} after a {found.droop.text()} droop" if found.droop else ""
     )
-    if droop_locks and found.lockout is not None:
+    if droop_locks:
         consequence += (
-            f"; after one on-time's droop it is {found.vgs_on_worst.text()}, below the "
-            f"driver's lockout {found.lockout.text()}"
+            f"; after one on-time's droop it is {found.vgs_on_worst.text()}, "
+            f"{_near_lockout(facts, after)}"
         )
     message = (
         f"{what} gives {stage.switch} only {level.text()} of gate drive{droop_text}, at or "
@@ -207,6 +204,15 @@ def check_gate_headroom(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
     yield ctx.finding(
         device, message, values, fix=fix, derivation=tuple(derivation), severity=severity
     )
+
+
+def _near_lockout(facts: StageFacts, vgs: float) -> str:
+    """How a level stands against the driver's boot lockout and its part-to-part margin."""
+    uvlo = facts.uvlo
+    assert uvlo is not None
+    if vgs < uvlo.value:
+        return f"below the driver's boot lockout {uvlo.text()}"
+    return f"within {_v(vgs - uvlo.value)} of the driver's boot lockout {uvlo.text()}"
 
 
 def _device(stage: DriveStage, facts: StageFacts) -> str:
