@@ -245,3 +245,45 @@ RB out 0 1
     path.write_text(text, encoding="utf-8")
     names = {w.device for w in find_wires(load_circuit(path))}
     assert names == {"r1"}
+
+
+def test_a_subcircuit_of_behavioural_sources_and_switches_with_driver_pins(
+    tmp_path: Path,
+) -> None:
+    # Not in any parts library: its ports (VDD HB HO HS LI) say "driver", its inside is
+    # behavioural sources and voltage-controlled switches; the stage says what was assumed.
+    text = """behavioural half-bridge driver with driver-like ports
+VIN vin 0 DC 48
+V12 v12 0 DC 12
+VHI hi 0 PULSE(0 5 0 10n 10n 2u 5u)
+VLI li 0 PULSE(5 0 0 10n 10n 2.2u 5u)
+XD v12 hb ho sw lo 0 hi li BDRV
+D_B v12 hb dfast
+C_B hb sw 220n
+M_H vin ho sw nfet
+M_L sw lo 0 nfet
+L_O sw vo 22u
+C_O vo 0 47u
+R_L vo 0 4
+.subckt BDRV VDD HB HO HS LO VSS HI LI
+B_H hc VSS V = V(HI,VSS) > 2.5 ? 1 : 0
+S_HU HB HO hc VSS SWM
+S_HD HO HS VSS hc SWM
+B_L lc VSS V = V(LI,VSS) > 2.5 ? 1 : 0
+S_LU VDD LO lc VSS SWM
+S_LD LO VSS VSS lc SWM
+.model SWM SW(VT=0.5 VH=0.1 RON=3 ROFF=1e8)
+.ends BDRV
+.model dfast D(IS=1n N=1.5 RS=0.2 BV=100 TT=20n)
+.model nfet VDMOS(VTO=3 KP=20 Cgs=2n Cgdmax=1n)
+.end
+"""
+    (stage,) = [s for s in stages_of_text(text, tmp_path) if s.floating]
+    assert stage.driver is not None and stage.driver.device == "xd"
+    assert stage.driver.origin == "pin names"
+    assert stage.supply.kind == "bootstrap" and stage.supply.diode == "d_b"
+    assert stage.control is not None and stage.control.source == "vhi"
+    assert stage.mode == "switching"
+    assert any(
+        "xd (subcircuit bdrv) taken as a driver IC by its pin names" in n for n in stage.notes
+    )
