@@ -165,11 +165,7 @@ def check_dc_hold(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     i_drain = drains.total
     t_hold: float | None = None
     if c_hold is not None and dv is not None:
-        # An unknown gate charge is taken as none: the hold time is then an upper bound.
-        # The gate shares the capacitor's charge and its drains: C + C_g holds the supply.
-        t_hold = boot_physics.hold_time(
-            c_hold.value + facts.c_gate.value, dv.value, qg.value if qg else 0.0, i_drain.value
-        )
+        t_hold = _hold_time(facts, c_hold.value, dv.value, i_drain.value)
     if not unbounded:
         if t_hold is None or c_hold is None or dv is None or qg is None:
             return
@@ -180,6 +176,19 @@ def check_dc_hold(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
         if on_time.value <= t_hold:
             return
     yield _dc_hold_finding(stage, ctx, drains, t_hold)
+
+
+def _hold_time(facts: StageFacts, c_hold: float, dv: float, i_drain: float) -> float:
+    """The card's t_hold: C + C_g (the gate shares the capacitor's charge) discharged by a
+    drain linear in the boot voltage, from V_boot,0 less the gate's charge down to
+    V_boot,min. An unknown gate charge is taken as none: the hold time is then an upper
+    bound."""
+    qg = facts.qg.value if facts.qg else 0.0
+    c_total = c_hold + facts.c_gate.value
+    v_min = facts.v_boot_min.value
+    return boot_physics.hold_time_linear(
+        c_total, v_min + dv, v_min, qg, i_drain, facts.drain_slope.value
+    )
 
 
 def _dc_hold_finding(
@@ -225,9 +234,9 @@ def _dc_hold_finding(
             "t_hold = ((C + C_g)/g)·ln(I(V_1)/I(V_min)) with I(V) = I_drain,on + g·(V − V_boot,0), "
             f"g = {format_si(slope.value, 'A')}/V ({slope.origin}); for g = 0: "
             "((C + C_g)·ΔV_allowed − Q_g)/I_drain",
-            f"       = (({c_hold.text()} + {facts.c_gate.text()}) × {dv.text()} − {q_text}) / "
-            f"{i_drain.text()} "
-            f"= {format_si(t_hold, 's')}",
+            f"       with C + C_g = {c_hold.text()} + {facts.c_gate.text()}, ΔV_allowed = "
+            f"{dv.text()}, Q_g = {q_text}, I_drain,on = {i_drain.text()}: "
+            f"t_hold = {format_si(t_hold, 's')}",
             f"  I_drain,on = I_q + I_leak + I_R = {drains.quiescent.text()} + "
             f"{drains.i_leak.text()} + {drains.i_resistive.text()}",
             f"  drains: {_drain_list(drains, most=8)}",
