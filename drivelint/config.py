@@ -211,7 +211,8 @@ CONDITION_RANGES: Mapping[str, tuple[float, float, bool]] = {
     "on_time_max": (0.0, 1e6, False),
     "v_bus": (0.0, 1e6, False),
     "v_aux": (0.0, 1e4, False),
-    "ambient": (0.0, 1000.0, False),  # kelvin
+    # kelvin: -100 °C to 300 °C, wider than any rated part; the diode laws lose meaning beyond
+    "ambient": (173.0, 574.0, True),
     "load_current": (0.0, 1e6, True),
 }
 # Ranges of rule options by name; any other option must be finite and not negative.

@@ -3,6 +3,11 @@
 A rule reads these and the physics functions; it never digs into parts files or model
 cards itself, so a value means the same in every rule and every finding can say where it
 came from.
+
+Voltages are to ground unless a name says otherwise. A supply given as a waveform (a surge,
+a dip, a soft start) has a highest and a lowest level: stress figures use the highest
+(``v_bus``, ``v_aux_max``, ``v_boot_max``), headroom and hold figures the lowest
+(``v_aux``, ``v_boot0``).
 """
 
 from __future__ import annotations
@@ -12,24 +17,52 @@ from collections.abc import Callable, Mapping, Sequence
 from functools import cached_property
 from typing import TYPE_CHECKING
 
-from drivelint.circuit.model import Circuit, Device
+from drivelint.circuit.model import GROUND, Circuit, Device
 from drivelint.diagnostics import Span
+from drivelint.netlist.values import format_si
 from drivelint.netlist.waveforms import Waveform
 from drivelint.physics import bootstrap as boot_physics
 from drivelint.physics import diode as diode_physics
 from drivelint.physics import gate as gate_physics
 from drivelint.ratings.directives import DirectiveSet
 from drivelint.ratings.ratings import Ratings
-from drivelint.ratings.values import Value
-from drivelint.stages.model import DriveStage
+from drivelint.ratings.values import Value, computed
+from drivelint.stages.model import DriveStage, Rail
 
 if TYPE_CHECKING:
     from drivelint.checks.drains import Drain, OnDrains
 
-# The smallest current at which a model card's forward drop is evaluated: a boot supply
-# at rest still feeds about a microampere of capacitor and board leakage (common
-# practice), and the ideal Shockley law would otherwise give a drop of zero.
-DIODE_VF_MIN_CURRENT = 1e-6
+# The smallest current at which a model card's forward drop is evaluated (the ideal
+# Shockley law would otherwise give a drop of zero). A boot supply at rest feeds only what
+# the netlist shows drawing from it; a real board adds capacitor and board leakage of up to
+# a microampere (common practice), worth giving as the capacitor's or diode's ir_leak when
+# a hold time depends on the last few tenths of a volt.
+DIODE_VF_MIN_CURRENT = 1e-9
+# Junction temperature when no ambient is given: SPICE's nominal temperature (TNOM, 27 °C),
+# which is also what a simulation of the deck runs at (SPICE3 / ngspice manual).
+DEFAULT_TEMPERATURE = 300.15
+# A charge pump's diodes carry little more than the gate's steady current: their drop is
+# taken at this current when nothing better is known (common practice: small-signal
+# diodes at about a milliampere).
+PUMP_DIODE_CURRENT = 1e-3
+# A freewheeling load current at the switch node is taken at this current when nothing gives
+# it (a body diode's drop changes by n·V_T·ln 10 ≈ 60 mV per decade).
+FREEWHEEL_CURRENT_DEFAULT = 1.0
+# The gate takes its charge up to the Miller plateau within about this long of the driver's
+# edge (tens of nanoseconds for a driver IC, common practice): a hold capacitor refilled
+# faster than this through the bootstrap path while the node is still low gets that charge
+# back before the node rises.
+PLATEAU_TIME = 100e-9
+# The diode refills a dip down to a few n·V_T, where its current has fallen back to what it
+# carried before (Shockley law: e³ ≈ 20×).
+REFILL_RESIDUE_NVT = 3.0
+# The documented default for V_GS(on) when neither the parts library nor a gate-charge test
+# voltage gives one: the V_GS at which R_DS(on) is rated, 10 V for standard-level parts and
+# 4.5 V for logic-level ones, told apart by the model's threshold (common practice:
+# logic-level parts have V_th of about 1–2 V, standard-level ones 2–4 V).
+VGS_ON_DEFAULT = 10.0
+VGS_ON_LOGIC_LEVEL = 4.5
+LOGIC_LEVEL_MAX_VTO = 2.0
 
 
 def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
@@ -39,6 +72,10 @@ def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
         for net in set(device.nets):
             index.setdefault(net, []).append(device)
     return index
+
+
+def _where(device: Device) -> str:
+    return f"{device.span.path}:{device.span.line}"
 
 
 class StageFacts:
@@ -101,45 +138,106 @@ class StageFacts:
         return self.configured.get(key)
 
     @cached_property
+    def waveform(self) -> Waveform | None:
+        control = self.stage.control
+        return control.waveform if control else None
+
+    @cached_property
+    def modulated(self) -> bool:
+        """The command comes out of a modulator: its duty is the loop's, not the netlist's."""
+        control = self.stage.control
+        return control is not None and control.modulated
+
+    @cached_property
     def threshold(self) -> float | None:
-        waveform = self.stage.control.waveform if self.stage.control else None
+        waveform = self.waveform
         if waveform is None:
             return None
+        if waveform.kind == "dc":
+            from drivelint.stages.recognise import DC_LOGIC_THRESHOLD
+
+            return DC_LOGIC_THRESHOLD
         return (waveform.high() + waveform.low()) / 2
 
     def _control_origin(self) -> str:
         control = self.stage.control
         source = control.source if control else None
+        if control is not None and control.kind == "tied":
+            return "control input tied to a fixed level"
         device = self.device(source)
-        where = f" ({device.span.path}:{device.span.line})" if device else ""
+        where = f" ({_where(device)})" if device else ""
+        if control is not None and control.modulated:
+            return f"carrier of the modulator {source}{where}"
         return f"control waveform of {source}{where}"
 
     @cached_property
-    def v_bus(self) -> Value | None:
-        given = self.condition("v_bus")
+    def temperature(self) -> Value:
+        given = self.condition("ambient")
         if given is not None:
             return given
-        bus = self.stage.bus
-        if bus is None or bus.volts is None:
+        return Value(DEFAULT_TEMPERATURE, "K", "default: 27 °C, SPICE's nominal temperature (TNOM)")
+
+    def _rail_value(self, rail: Rail | None, key: str, lowest: bool) -> Value | None:
+        given = self.condition(key)
+        if given is not None:
+            return given
+        if rail is None or rail.volts is None:
             return None
-        return Value(bus.volts, "V", f"DC rail {bus.net}")
+        if rail.low is None:
+            return Value(rail.volts, "V", f"DC rail {rail.net}")
+        if lowest:
+            return Value(rail.low, "V", f"lowest level of {rail.source} once up (rail {rail.net})")
+        return Value(rail.volts, "V", f"highest level of {rail.source} (rail {rail.net})")
+
+    @cached_property
+    def v_bus(self) -> Value | None:
+        """The bus the drain switches, at its highest (stress)."""
+        return self._rail_value(self.stage.bus, "v_bus", lowest=False)
+
+    @cached_property
+    def v_bus_min(self) -> Value | None:
+        return self._rail_value(self.stage.bus, "v_bus", lowest=True)
 
     @cached_property
     def v_aux(self) -> Value | None:
-        given = self.condition("v_aux")
-        if given is not None:
-            return given
-        aux = self.stage.supply.aux
-        if aux is None or aux.volts is None:
+        """The auxiliary rail (or pump feed) at its lowest once up (headroom, hold)."""
+        return self._rail_value(self._aux_rail, "v_aux", lowest=True)
+
+    @cached_property
+    def v_aux_max(self) -> Value | None:
+        return self._rail_value(self._aux_rail, "v_aux", lowest=False)
+
+    @cached_property
+    def _aux_rail(self) -> Rail | None:
+        supply = self.stage.supply
+        if supply.kind not in ("bootstrap", "charge-pump"):
             return None
-        return Value(aux.volts, "V", f"DC rail {aux.net}")
+        return supply.aux
+
+    @cached_property
+    def v_sw_low(self) -> Value:
+        """Where the switch node sits while it is pulled low: the refresh path's return."""
+        levels = []
+        for refresh in self.stage.refresh:
+            if refresh.kind not in ("low-side switch", "freewheel diode"):
+                continue
+            ref = refresh.reference
+            volts = 0.0 if ref in (None, GROUND) else self.circuit.rails.get(ref or "")
+            if volts is not None:
+                levels.append((volts, refresh.devices[0], ref or GROUND))
+        if not levels:
+            return Value(0.0, "V", "ground")
+        volts, device, net = min(levels)
+        if net == GROUND:
+            return Value(0.0, "V", f"ground ({device} returns the switch node there)")
+        return Value(volts, "V", f"rail {net} ({device} returns the switch node there)")
 
     @cached_property
     def fsw(self) -> Value | None:
         given = self.condition("fsw")
         if given is not None:
             return given
-        waveform = self.stage.control.waveform if self.stage.control else None
+        waveform = self.waveform
         frequency = waveform.frequency() if waveform else None
         return Value(frequency, "Hz", self._control_origin()) if frequency else None
 
@@ -152,12 +250,15 @@ class StageFacts:
     ) -> Value | None:
         """A condition given by directive or configuration, else measured on the control
         waveform: the time (or fraction) it commands the switch on. An inverting drive
-        commands it on while its input is low."""
+        commands it on while its input is low. A modulator's duty is not measured: only
+        a configured condition gives it."""
         given = self.condition(key)
         if given is not None:
             return given
         control = self.stage.control
         if control is None or control.waveform is None or self.threshold is None:
+            return None
+        if control.modulated:
             return None
         measure = below if control.inverting else above
         value = measure(control.waveform, self.threshold)
@@ -171,62 +272,425 @@ class StageFacts:
 
     @cached_property
     def on_time(self) -> Value | None:
-        """The longest continuous on-time the control demands (inf for a DC command)."""
-        return self._measure_control(
+        """The longest continuous on-time the control demands (inf for a DC command).
+
+        Under a modulator with nothing configured, one period of its carrier stands in: a
+        switching cycle cannot hold the switch on longer without the loop going to 100 %.
+        """
+        found = self._measure_control(
             "on_time_max",
             "s",
             lambda w, t: w.longest_time_above(t),
             lambda w, t: w.longest_time_below(t),
         )
+        if found is None and self.waveform is None and self.condition("duty_max") is not None:
+            fsw = self.condition("fsw")
+            duty = self.condition("duty_max")
+            if fsw is not None and duty is not None:
+                # Conditions without a waveform: one period's share stands in.
+                return computed(duty.value / fsw.value, "s", "computed: D/f_sw (conditions)")
+        if found is not None or not self.modulated:
+            return found
+        if self.duty_max is not None and self.fsw is not None:
+            return computed(
+                self.duty_max.value / self.fsw.value,
+                "s",
+                f"computed: D_max/f_sw with the configured duty ({self.duty_max.origin})",
+            )
+        waveform = self.waveform
+        period = waveform.period() if waveform else None
+        if period is None:
+            return None
+        return Value(
+            period,
+            "s",
+            f"one period of the carrier of the modulator {self.stage.control.source}"  # type: ignore[union-attr]
+            " (the loop sets the duty, the netlist does not; set duty_max or on_time_max "
+            "to refine)",
+        )
+
+    @cached_property
+    def never_on(self) -> bool:
+        """The command never turns the switch on (a leg held off in this scenario)."""
+        on = self.on_time
+        return on is not None and on.value <= 0 and self.condition("on_time_max") is None
 
     @cached_property
     def off_time(self) -> Value | None:
-        """The shortest off-time per cycle, when the control is periodic."""
+        """The shortest time per cycle the switch node is held low: the high side's off-time
+        (1 − D)/f_sw, less the dead time where the low side's own command shows it."""
         if self.fsw is None or self.duty_max is None:
             return None
-        return Value((1 - self.duty_max.value) / self.fsw.value, "s", "computed: (1 − D)/f_sw")
+        high_off = (1 - self.duty_max.value) / self.fsw.value
+        best = Value(high_off, "s", "computed: (1 − D)/f_sw")
+        for refresh in self.stage.refresh:
+            command = refresh.command
+            wave = command.waveform if command else None
+            if command is None or wave is None or command.modulated:
+                continue
+            period = wave.period()
+            if period is None:
+                continue
+            threshold = (wave.high() + wave.low()) / 2
+            duty = wave.duty_below(threshold) if command.inverting else wave.duty_above(threshold)
+            if duty is None:
+                continue
+            window = duty * period
+            if 0 < window < best.value:
+                device = self.device(command.source)
+                where = f" ({_where(device)})" if device else ""
+                best = Value(
+                    window,
+                    "s",
+                    f"on-time of the low side {refresh.devices[0]}'s command "
+                    f"{command.source}{where}: (1 − D)/f_sw = {format_si(high_off, 's')} "
+                    "less the dead time",
+                )
+        return best
+
+    # -- the diode -----------------------------------------------------------------------
+
+    def diode_vf_at(self, current: float, why: str, device: Device | None = None) -> Value:
+        """The forward drop of ``device`` (the bootstrap diode) at ``current``.
+
+        A directive's vf is used as given. A model card with IS is evaluated at the current
+        and the junction temperature (Shockley law with IS at temperature, plus I·RS), since
+        a datasheet V_F is one point at a rated current (typically 1 A). Then the parts
+        library's vf, then the documented default.
+        """
+        device = device if device is not None else self.diode
+        if device is None:
+            return Value(0.7, "V", "default: silicon junction forward drop (common practice)")
+        given = self.directives.parts.get(device.name, {}).get("vf")
+        if given is not None:
+            return Value(given[0], "V", f"directive ({given[1].path}:{given[1].line})")
+        model = device.model
+        if model is not None and model.params.get("is"):
+            params = model.params
+            amps = max(current, DIODE_VF_MIN_CURRENT) / device.multiplier
+            drop = diode_physics.diode_drop(
+                amps,
+                params["is"],
+                params.get("n", 1.0),
+                params.get("rs", 0.0),
+                self.temperature.value,
+            )
+            return Value(
+                drop,
+                "V",
+                f"model {model.name} IS/N/RS at {format_si(amps * device.multiplier, 'A')} "
+                f"({why}) and {self.temperature.text()} ({model.span.path}:{model.span.line})",
+            )
+        rated = self.ratings.get(device, "vf")
+        if rated is not None:
+            return rated
+        return Value(0.7, "V", "default: silicon junction forward drop (common practice)")
+
+    @cached_property
+    def _n_vt(self) -> float | None:
+        """N·V_T of the bootstrap diode's model at the junction temperature."""
+        model = self.diode.model if self.diode else None
+        if model is None or not model.params.get("is"):
+            return None
+        return model.params.get("n", 1.0) * diode_physics.thermal_voltage(self.temperature.value)
+
+    @cached_property
+    def _tt(self) -> float:
+        model = self.diode.model if self.diode else None
+        return model.params.get("tt", 0.0) if model is not None else 0.0
+
+    # -- dead time and freewheeling ---------------------------------------------------------
+
+    @cached_property
+    def freewheeling(self) -> bool:
+        """A load current flows out of the switch node while the switch is off: an inductor
+        on the node (directly or behind one series resistor) carries it, and a low-side
+        switch's body diode or a freewheel diode takes it whenever nothing else conducts."""
+        stage = self.stage
+        if not any(r.kind in ("low-side switch", "freewheel diode") for r in stage.refresh):
+            return False
+        for device in self.by_net.get(stage.source, ()):
+            if device.kind == "inductor":
+                return True
+            if device.kind == "resistor" and device.value is not None:
+                far = next((n for n in device.nets if n != stage.source), None)
+                if far and any(d.kind == "inductor" for d in self.by_net.get(far, ())):
+                    return True
+        return False
+
+    @cached_property
+    def dead_time(self) -> Value | None:
+        """The gap before each turn-on in which neither switch conducts: half the difference
+        between the high side's off-time and the low side's own on-time (taken as split
+        evenly between the two edges)."""
+        if self.off_time is None or self.fsw is None or self.duty_max is None:
+            return None
+        high_off = (1 - self.duty_max.value) / self.fsw.value
+        gap = high_off - self.off_time.value
+        if gap <= 0:
+            return None
+        return computed(gap / 2, "s", "computed: ((1 − D)/f_sw − low-side on-time)/2")
+
+    @cached_property
+    def freewheel_drop(self) -> Value:
+        """Forward drop of what carries the freewheeling current in a dead time: the low
+        side's body diode (VDMOS or bulk-junction model IS/N), or the freewheel diode."""
+        load = self.condition("load_current")
+        current = load.value if load else FREEWHEEL_CURRENT_DEFAULT
+        why = f"{format_si(current, 'A')} of load current" + ("" if load else " (default)")
+        for refresh in self.stage.refresh:
+            device = self.device(refresh.devices[0])
+            model = device.model if device else None
+            if device is None or model is None or not model.params.get("is"):
+                continue
+            if refresh.kind in ("low-side switch", "freewheel diode"):
+                params = model.params
+                drop = diode_physics.diode_drop(
+                    current / device.multiplier,
+                    params["is"],
+                    params.get("n", 1.0),
+                    params.get("rs", 0.0) if refresh.kind == "freewheel diode" else 0.0,
+                    self.temperature.value,
+                )
+                return Value(drop, "V", f"model {model.name} IS/N at {why}")
+        return Value(0.7, "V", "default: silicon junction forward drop (common practice)")
+
+    @cached_property
+    def _refill_tau(self) -> float | None:
+        """R·C of the bootstrap path with the diode conducting hard (series resistors and
+        the diode's RS)."""
+        c = self.c_hold
+        if c is None or self.diode is None:
+            return None
+        model = self.diode.model
+        rs = model.params.get("rs", 0.0) / self.diode.multiplier if model else 0.0
+        return ((self.stage.supply.series_resistance or 0.0) + rs) * c.value
+
+    @cached_property
+    def dead_time_boost(self) -> Value:
+        """How much higher the hold capacitor charges while a freewheeling current holds the
+        switch node a diode drop below its low level just before the turn-on."""
+        none = Value(0.0, "V", "no freewheeling dead time before the turn-on")
+        if not self.freewheeling or self._refill_tau is None:
+            return none
+        only_diode = all(r.kind != "low-side switch" for r in self.stage.refresh)
+        window = self.off_time if only_diode else self.dead_time
+        if window is None:
+            return none
+        tau = self._refill_tau
+        share = 1.0 if tau <= 0 else -math.expm1(-window.value / tau)
+        boost = self.freewheel_drop.value * share
+        return computed(
+            boost,
+            "V",
+            f"computed: V_F,freewheel {self.freewheel_drop.text()} × (1 − exp(−t/τ)), "
+            f"t = {window.text()} ({'off-time' if only_diode else 'dead time'}), "
+            f"τ = {format_si(tau, 's')}",
+        )
+
+    @cached_property
+    def v_refresh(self) -> float:
+        """The switch node's level at the end of the recharge, as the capacitor sees it.
+
+        The dead-time boost is not counted here: it needs the load current to flow out of
+        the node, which a light load or a reversed current takes away. Hold, sizing and
+        headroom figures are judged without it; the stress maximum (``v_boot_max``) and the
+        recovery charge count it.
+        """
+        return self.v_sw_low.value
+
+    @cached_property
+    def recharge_time(self) -> Value | None:
+        """How long each recharge lasts: the off-time of a switching stage.
+
+        A statically commanded stage has none: its capacitor has been charging since the
+        supply came up, and at rest the diode carries only what the boot supply draws (the
+        state a simulator's operating point also starts from).
+        """
+        if self.off_time is not None and self.off_time.value > 0:
+            return self.off_time
+        return None
+
+    @cached_property
+    def recharge_end_current(self) -> Value:
+        """What the bootstrap diode still carries as the recharge ends.
+
+        The diode's own charging law (:func:`drivelint.physics.diode.recharge_end_current`:
+        Shockley current and TT diffusion charge into the hold capacitor), for the charge
+        each cycle takes back, plus what the boot supply draws with the switch off (the
+        driver's quiescent current and the leakage it feeds).
+        """
+        steady = self.i_quiescent.value + self.i_leak.value
+        c_hold, t_rest, n_vt = self.c_hold, self.recharge_time, self._n_vt
+        if c_hold is None or t_rest is None or n_vt is None:
+            return Value(steady, "A", "computed: driver quiescent + leakage (switch off)")
+        q = self._q_cycle_guess
+        charging = diode_physics.recharge_end_current(c_hold.value, n_vt, self._tt, q, t_rest.value)
+        return computed(
+            charging + steady,
+            "A",
+            f"computed: diode charging law for {format_si(q, 'C')} in {t_rest.text()} "
+            f"({t_rest.origin}), plus {format_si(steady, 'A')} drawn with the switch off",
+        )
+
+    @cached_property
+    def diode_vf(self) -> Value:
+        return self.diode_vf_at(self.recharge_end_current.value, "as the recharge ends")
 
     # -- the floating supply --------------------------------------------------------------
 
     @cached_property
-    def diode_vf(self) -> Value:
-        rated = self.ratings.get(self.diode, "vf")
-        if rated is not None:
-            return rated
-        model = self.diode.model if self.diode else None
-        if model is not None and model.params.get("is"):
-            # At the end of a recharge the diode carries only what the boot supply draws,
-            # so its drop is taken at that current (Shockley relation), not at a rated one.
-            current = max(self.recharge_end_current, DIODE_VF_MIN_CURRENT)
-            n = model.params.get("n", 1.0)
-            drop = diode_physics.forward_voltage(current, model.params["is"], n)
-            drop += current * model.params.get("rs", 0.0)
-            from drivelint.netlist.values import format_si
-
-            return Value(
-                drop,
-                "V",
-                f"model {model.name} IS/N/RS at the end-of-recharge current "
-                f"{format_si(current, 'A')} ({model.span.path}:{model.span.line})",
+    def _pump(self) -> tuple[Value, Value] | None:
+        """(lowest, highest) output of a charge pump, to ground or (riding on the source)
+        above the source, with its two diode drops and the clock's swing."""
+        supply = self.stage.supply
+        if supply.kind != "charge-pump" or supply.clock is None or supply.clock.volts is None:
+            return None
+        drops = 0.0
+        for name in (supply.feed_diode, supply.diode):
+            drops += self.diode_vf_at(
+                PUMP_DIODE_CURRENT, "a pump diode at a milliampere", self.device(name)
+            ).value
+        clock = supply.clock.volts
+        how = f"{supply.clock.source}'s {clock:g} V swing − two diode drops ({drops:.2f} V)"
+        if supply.aux is not None and supply.aux.net == self.stage.source:
+            level = clock - drops
+            return (
+                computed(level, "V", f"computed: above the source, {how}"),
+                computed(level, "V", f"computed: above the source, {how}"),
             )
-        return Value(0.7, "V", "default: silicon junction forward drop (common practice)")
+        if self.v_aux is None or self.v_aux_max is None:
+            return None
+        return (
+            computed(
+                self.v_aux.value + clock - drops, "V", f"computed: {self.v_aux.text()} + {how}"
+            ),
+            computed(
+                self.v_aux_max.value + clock - drops,
+                "V",
+                f"computed: {self.v_aux_max.text()} + {how}",
+            ),
+        )
+
+    @cached_property
+    def pump_output(self) -> Value | None:
+        """A charge pump's output to ground at its highest (None when riding on the source)."""
+        supply = self.stage.supply
+        if self._pump is None or (supply.aux is not None and supply.aux.net == self.stage.source):
+            return None
+        return self._pump[1]
 
     @cached_property
     def v_boot0(self) -> Value | None:
-        """The boot supply just after a full recharge (V_boot,0)."""
+        """The gate supply above the source with the switch on, at its lowest: for a
+        bootstrap V_aux − V_F − V_sw,low just after a recharge (V_boot,0)."""
+        supply = self.stage.supply
+        if supply.kind == "isolated" and supply.aux and supply.aux.volts is not None:
+            return Value(supply.aux.lowest or 0.0, "V", f"isolated source {supply.source}")
+        if supply.kind == "charge-pump":
+            pump = self._pump
+            if pump is None:
+                return None
+            low = pump[0]
+            if self.pump_output is None:
+                return low
+            if self.v_bus is None:
+                return None
+            return computed(
+                low.value - self.v_bus.value,
+                "V",
+                f"computed: pump output {low.text()} − bus {self.v_bus.text()}",
+            )
+        if supply.kind != "bootstrap" or self.v_aux is None or self.diode is None:
+            return None
+        volts = boot_physics.bootstrap_voltage(
+            self.v_aux.value, self.diode_vf.value, v_refresh=self.v_refresh
+        )
+        how = "V_aux − V_F" + (" − V_sw,low" if self.v_sw_low.value else "")
+        return Value(volts, "V", f"computed: {how}")
+
+    @cached_property
+    def v_boot_max(self) -> Value | None:
+        """The same supply at its highest (a surge on the auxiliary rail)."""
         supply = self.stage.supply
         if supply.kind == "isolated" and supply.aux and supply.aux.volts is not None:
             return Value(supply.aux.volts, "V", f"isolated source {supply.source}")
-        if supply.kind != "bootstrap" or self.v_aux is None or self.diode is None:
+        if supply.kind == "charge-pump":
+            pump = self._pump
+            if pump is None:
+                return None
+            if self.pump_output is None:
+                return pump[1]
+            # A reservoir riding on the source charges to the pump's full output while the
+            # source is low, and brings it to the gate at the next turn-on.
+            if supply.riding:
+                return computed(
+                    pump[1].value - self.v_sw_low.value,
+                    "V",
+                    f"computed: pump output {pump[1].text()} held by the reservoir "
+                    f"{supply.capacitor} from the off-state (source at {self.v_sw_low.text()})",
+                )
+            if self.v_bus_min is None:
+                return None
+            return computed(
+                pump[1].value - self.v_bus_min.value,
+                "V",
+                f"computed: pump output {pump[1].text()} − bus {self.v_bus_min.text()}",
+            )
+        if supply.kind != "bootstrap" or self.v_aux_max is None or self.diode is None:
             return None
-        volts = boot_physics.bootstrap_voltage(self.v_aux.value, self.diode_vf.value)
-        return Value(volts, "V", "computed: V_aux − V_F")
+        volts = boot_physics.boot_voltage_max(
+            self.v_aux_max.value, self.diode_vf.value, self.v_refresh - self.dead_time_boost.value
+        )
+        how = "V_aux,max − V_F − V_sw,low"
+        if self.dead_time_boost.value:
+            how += f" + {self.dead_time_boost.text()} dead-time boost"
+        return Value(volts, "V", f"computed: {how}")
+
+    @cached_property
+    def vgs_on_max(self) -> Value | None:
+        """The on-state V_GS at its highest: what a gate–source clamp must stay off at."""
+        supply = self.stage.supply
+        if supply.kind == "charge-pump":
+            pump = self._pump
+            if pump is None:
+                return None
+            if self.pump_output is None:
+                return pump[1]
+            if self.v_bus_min is None:
+                return None
+            return computed(
+                pump[1].value - self.v_bus_min.value,
+                "V",
+                f"computed: pump output {pump[1].text()} − bus {self.v_bus_min.text()}",
+            )
+        return self.v_boot_max
 
     @cached_property
     def vgs_on(self) -> Value:
-        found = self.ratings.get_or_default(self.switch, "vgs_on")
-        assert found is not None
-        return found
+        """The V_GS the switch needs to be fully on: the parts library's (or a directive's)
+        vgs_on, else its gate-charge test voltage vgs_qg, else the documented default."""
+        found = self.ratings.get(self.switch, "vgs_on")
+        if found is not None:
+            return found
+        tested = self.ratings.get(self.switch, "vgs_qg")
+        if tested is not None:
+            return Value(tested.value, "V", f"gate-charge test voltage vgs_qg ({tested.origin})")
+        model = self.switch.model
+        vto = abs(model.params["vto"]) if model is not None and "vto" in model.params else None
+        if vto is not None and vto <= LOGIC_LEVEL_MAX_VTO:
+            return Value(
+                VGS_ON_LOGIC_LEVEL,
+                "V",
+                f"default: 4.5 V, the V_GS at which logic-level parts are rated (model "
+                f"{model.name} VTO = {vto:g} V; common practice; give vgs_on for the part)",  # type: ignore[union-attr]
+            )
+        return Value(
+            VGS_ON_DEFAULT,
+            "V",
+            "default: the V_GS at which R_DS(on) of standard-level parts is rated, 10 V "
+            "(common practice; give vgs_on for the part)",
+        )
 
     @cached_property
     def uvlo(self) -> Value | None:
@@ -237,9 +701,9 @@ class StageFacts:
 
         part = self.ratings.parts.get(driver.subckt)
         raw = part.raw("uvlo_boot") if part else None
-        if raw is None:
+        if part is None or raw is None:
             return None
-        return Value(parse_quantity(raw, "V"), "V", f"{part.origin} (part {part.name} uvlo_boot)")  # type: ignore[union-attr]
+        return Value(parse_quantity(raw, "V"), "V", f"{part.origin} (part {part.name} uvlo_boot)")
 
     @cached_property
     def v_boot_min(self) -> Value:
@@ -252,46 +716,119 @@ class StageFacts:
         cap = self.capacitor
         if cap is None or cap.value is None:
             return None
-        return Value(
-            cap.value * cap.multiplier, "F", f"{cap.name} ({cap.span.path}:{cap.span.line})"
-        )
+        return Value(cap.value * cap.multiplier, "F", f"{cap.name} ({_where(cap)})")
 
     # -- charge and current ---------------------------------------------------------------------
 
     @cached_property
-    def qg_switch(self) -> Value | None:
-        """The switch's own gate charge: rated, or estimated from its model's capacitances."""
-        rated = self.ratings.get(self.switch, "qg")
-        multiplier = self.switch.multiplier
-        if rated is not None:
-            return Value(rated.value * multiplier, "C", rated.origin)
-        model = self.switch.model
-        drive = self.v_boot0.value if self.v_boot0 else 10.0
+    def v_switched(self) -> float:
+        """The drain–source voltage the switch blocks when off: bus to the node's low level."""
         bus = self.v_bus.value if self.v_bus else 0.0
+        return bus - self.v_sw_low.value
+
+    def _qg_at(self, drive: float) -> Value | None:
+        """The switch's own gate charge at a drive level ``drive``."""
+        multiplier = self.switch.multiplier
+        rated = self.ratings.get(self.switch, "qg")
+        if rated is not None:
+            tested = self.ratings.get(self.switch, "vgs_qg")
+            qgd = self.ratings.get(self.switch, "qgd")
+            # A charge given by directive is the user's figure for this design: it is scaled
+            # only with a test voltage given the same way.
+            mixed = tested is not None and (
+                rated.origin.startswith("directive") != tested.origin.startswith("directive")
+            )
+            if tested is None or drive <= 0 or mixed:
+                return Value(rated.value * multiplier, "C", rated.origin)
+            if qgd is not None and qgd.origin.startswith("directive") != rated.origin.startswith(
+                "directive"
+            ):
+                qgd = None
+            charge = gate_physics.gate_charge_at_drive(
+                rated.value, tested.value, drive, qgd.value if qgd else None
+            )
+            how = "Q_gd + (Q_g − Q_gd)·V/V_qg" if qgd else "Q_g·V/V_qg"
+            return Value(
+                charge * multiplier,
+                "C",
+                f"computed: {how} at V = {format_si(drive, 'V')} from {rated.text()} at "
+                f"{tested.text()} ({rated.origin})",
+            )
+        model = self.switch.model
         if model is None:
             return None
         params = model.params
         width = self.switch.params.get("w", 1.0)
+        drive = drive if drive > 0 else 10.0
         if model.type == "vdmos" and "cgs" in params:
-            c_gs, c_gd = params["cgs"], params.get("cgdmax", 0.0)
+            charge = gate_physics.vdmos_gate_charge(
+                params["cgs"],
+                params.get("cgdmin", params.get("cgdmax", 0.0)),
+                params.get("cgdmax", 0.0),
+                params.get("a", 1.0),
+                drive,
+                self.v_switched,
+            )
+            how = "C_gs·V + Q_gd(V) − Q_gd(−V_DS) of the VDMOS capacitance model"
         elif "cgso" in params or "cgdo" in params:
-            c_gs, c_gd = params.get("cgso", 0.0) * width, params.get("cgdo", 0.0) * width
+            charge = gate_physics.gate_charge_estimate(
+                params.get("cgso", 0.0) * width,
+                params.get("cgdo", 0.0) * width,
+                drive,
+                self.v_switched,
+            )
+            how = "C_gs·V + C_gd·(V_DS + V) from the overlap capacitances"
         else:
             return None
-        charge = gate_physics.gate_charge_estimate(c_gs, c_gd, drive, bus) * multiplier
         return Value(
-            charge,
+            charge * multiplier,
             "C",
-            f"estimate from model {model.name} capacitances: C_gs·V_drive + C_gd·(V_bus + V_drive)",
+            f"computed: {how} of model {model.name}, V = {format_si(drive, 'V')}, "
+            f"V_DS = {format_si(self.v_switched, 'V')}",
         )
 
     @cached_property
-    def qg_external(self) -> Value:
-        """Charge taken by capacitors on the gate: to the source C·V_boot, elsewhere
-        C·(V_bus + V_boot), as the gate rises from off to V_bus + V_boot."""
+    def qg_switch(self) -> Value | None:
+        """The switch's own gate charge at the drive level the supply gives."""
+        return self._qg_at(self.v_boot0.value if self.v_boot0 else 0.0)
+
+    @cached_property
+    def c_gate(self) -> Value:
+        """Slope of the gate-charge curve near the drive level (what shares the hold
+        capacitor's charge): (Q_g − Q_gd)/V_qg from the parts library, else the model's
+        C_gs + C_gd at V_GD = V_drive."""
+        multiplier = self.switch.multiplier
+        rated = self.ratings.get(self.switch, "qg")
+        tested = self.ratings.get(self.switch, "vgs_qg")
+        if rated is not None and tested is not None:
+            qgd = self.ratings.get(self.switch, "qgd")
+            return computed(
+                gate_physics.gate_capacitance_above_plateau(
+                    rated.value, tested.value, qgd.value if qgd else None
+                )
+                * multiplier,
+                "F",
+                "computed: (Q_g − Q_gd)/V_qg",
+            )
+        model = self.switch.model
+        params = model.params if model else {}
+        drive = self.v_boot0.value if self.v_boot0 else 10.0
+        if model is not None and model.type == "vdmos" and "cgs" in params:
+            c = params["cgs"] + gate_physics.vdmos_gate_drain_capacitance(
+                drive,
+                params.get("cgdmin", params.get("cgdmax", 0.0)),
+                params.get("cgdmax", 0.0),
+                params.get("a", 1.0),
+            )
+            return computed(c * multiplier, "F", f"computed: C_gs + C_gd(V_GD = {drive:.3g} V)")
+        width = self.switch.params.get("w", 1.0)
+        c = (params.get("cgso", 0.0) + params.get("cgdo", 0.0)) * width
+        return computed(c * multiplier, "F", "computed: overlap C_gs + C_gd" if c else "none known")
+
+    def _external_at(self, drive: float) -> tuple[float, list[str]]:
+        """Charge of capacitors on the gate at a drive level: to the source C·V, elsewhere
+        C·(V_DS + V), as the gate rises from off to V_bus + V."""
         stage = self.stage
-        drive = self.v_boot0.value if self.v_boot0 else 0.0
-        bus = self.v_bus.value if self.v_bus else 0.0
         total = 0.0
         names = []
         for device in self.by_net.get(stage.gate, ()):
@@ -300,11 +837,38 @@ class StageFacts:
             far = next((n for n in device.nets if n != stage.gate), None)
             if far is None:
                 continue
-            swing = drive if far == stage.source else bus + drive
+            swing = drive if far == stage.source else self.v_switched + drive
             total += device.value * device.multiplier * swing
             names.append(device.name)
+        return total, names
+
+    @cached_property
+    def qg_external(self) -> Value:
+        """Charge taken by capacitors on the gate at the supply's drive level."""
+        total, names = self._external_at(self.v_boot0.value if self.v_boot0 else 0.0)
         how = f"computed: capacitors on the gate ({', '.join(names)})" if names else "none"
         return Value(total, "C", how)
+
+    def q_cycle_at(self, drive: float) -> float | None:
+        """The charge per on-time with the supply at ``drive``: gate, level shifter, drains
+        (which follow the boot voltage) and recovery. None when the gate charge is unknown."""
+        from drivelint.checks.drains import on_drains
+
+        own = self._qg_at(drive)
+        on = self.on_time
+        if own is None or on is None or not math.isfinite(on.value):
+            return None
+        drains = on_drains(self.stage, self, drive)
+        q_rr = self.recovery_charge.value if self.recovery_charge else 0.0
+        return boot_physics.charge_budget(
+            own.value + self._external_at(drive)[0],
+            self.q_ls.value,
+            drains.quiescent.value,
+            drains.i_leak.value,
+            drains.i_resistive.value,
+            on.value,
+            q_rr,
+        )
 
     @cached_property
     def qg(self) -> Value | None:
@@ -360,13 +924,6 @@ class StageFacts:
         return self.on_drains.resistive if self.v_boot0 is not None else ()
 
     @cached_property
-    def recharge_end_current(self) -> float:
-        """What the boot supply draws at the end of a recharge, with the switch off: the
-        driver's quiescent current and the leakage it supplies (the gate is low, so gate and
-        level-shift resistors carry next to nothing)."""
-        return self.i_quiescent.value + self.i_leak.value
-
-    @cached_property
     def i_resistive(self) -> Value:
         return self.on_drains.i_resistive
 
@@ -374,6 +931,194 @@ class StageFacts:
     def i_drain(self) -> Value:
         """Every current that discharges the hold capacitor while the switch is on."""
         return self.on_drains.total
+
+    @cached_property
+    def drain_slope(self) -> Value:
+        """How the on-time drain changes with the boot voltage, dI/dV [A/V]: resistive drains
+        follow it, the driver's quiescent current and leakage do not. From the account of
+        drains at V_boot,0 and at 80 % of it."""
+        from drivelint.checks.drains import on_drains
+
+        v0 = self.v_boot0.value if self.v_boot0 else 0.0
+        if v0 <= 0:
+            return Value(0.0, "1", "none")
+        low = on_drains(self.stage, self, 0.8 * v0).total.value
+        slope = max(0.0, (self.i_drain.value - low) / (0.2 * v0))
+        return Value(slope, "1", "computed: (I(V_boot,0) − I(0.8·V_boot,0))/(0.2·V_boot,0), in A/V")
+
+    @cached_property
+    def _q_cycle_guess(self) -> float:
+        """Charge per cycle before the diode's drop is known (it only sets that drop)."""
+        v_aux = self.v_aux.value if self.v_aux else 10.0
+        drive = v_aux - 0.7 - self.v_sw_low.value
+        own = self._qg_at(drive)
+        on = self.on_time.value if self.on_time and math.isfinite(self.on_time.value) else 0.0
+        base = (own.value if own else 0.0) + self.q_ls.value
+        drain = self.i_quiescent.value + self.i_leak.value
+        return base + drain * on
+
+    @cached_property
+    def recovery_charge(self) -> Value | None:
+        """Charge the bootstrap diode gives back each time the switch node rises.
+
+        The charge-control model of the SPICE diode: the diffusion charge TT·I_F stored at
+        the current I_F still flowing as the recharge ends (the parts library's qrr when
+        it gives one). Re-supplied by the next off-time, so it belongs in the budget.
+        """
+        rated = self.ratings.get(self.diode, "qrr")
+        if rated is not None:
+            return rated
+        if self.diode is None or self.stage.mode != "switching":
+            return None
+        model = self.diode.model
+        current = self.recharge_end_current.value
+        if self._tt > 0 and model is not None:
+            tau = self._tt
+            where = f"model {model.name} TT {format_si(tau, 's')}"
+        else:
+            # Without TT, t_rr stands in for the lifetime: with the reverse current equal to
+            # the forward one, the charge-control model recovers in about TT.
+            trr = self.ratings.get(self.diode, "trr")
+            if trr is None:
+                return None
+            tau = trr.value
+            where = f"t_rr {trr.text()} taken as the carrier lifetime ({trr.origin})"
+        step = self.freewheel_drop.value if self.dead_time_boost.value > 0 else 0.0
+        c, n_vt, dead = self.c_hold, self._n_vt, self.dead_time
+        params = model.params if model is not None else {}
+        slow = dead is not None and self._tt > dead.value
+        if step > 0 and c is not None and n_vt is not None and dead is not None and not slow:
+            # A dead time just before the turn-on drops the node a diode drop lower and the
+            # diode charges the capacitor that much further: the current it still carries at
+            # the edge follows its charging law over the dead time (C·n·V_T/t), at most what
+            # the path's resistance lets through.
+            refill = c.value * n_vt / dead.value
+            tau_path = self._refill_tau or 0.0
+            if tau_path > 0:
+                limit = step * math.exp(-dead.value / tau_path) * c.value / tau_path
+                refill = min(refill, max(limit, 0.0))
+            if refill > current:
+                current = refill
+                where += " (the current still charging it at the end of the dead time)"
+        stored = diode_physics.recovery_charge(tau, current)
+        how = f"computed: TT·I_F = {where} × {format_si(current, 'A')} flowing as the recharge ends"
+        if step > 0 and c is not None and n_vt is not None and dead is not None and slow:
+            # A diode whose TT outlasts the dead time cannot follow the step: its diffusion
+            # charge grows with the current the step drives into the capacitor (SPICE3
+            # diode with RS and TT in series with C), and comes back at the rising edge.
+            r_path = (self.stage.supply.series_resistance or 0.0) + params.get("rs", 0.0)
+            after = diode_physics.stored_charge_after_step(
+                c.value, params["is"], n_vt, r_path, self._tt, current, step, dead.value
+            )
+            if after > stored:
+                how += (
+                    f"; the diode cannot recover within the {dead.text()} dead time, whose "
+                    f"{format_si(step, 'V')} step drives its stored charge to "
+                    f"{format_si(after, 'C')}"
+                )
+                stored = after
+        return computed(stored, "C", how)
+
+    @cached_property
+    def q_per_cycle(self) -> Value | None:
+        """Charge the hold capacitor delivers per on-time: Q_g + Q_ls + I_drain·t_on + Q_rr."""
+        qg, on = self.qg, self.on_time
+        if qg is None or on is None or not math.isfinite(on.value):
+            return None
+        drains = self.on_drains
+        q_rr = self.recovery_charge.value if self.recovery_charge else 0.0
+        total = boot_physics.charge_budget(
+            qg.value,
+            self.q_ls.value,
+            drains.quiescent.value,
+            drains.i_leak.value,
+            drains.i_resistive.value,
+            on.value,
+            q_rr,
+        )
+        return computed(total, "C", "computed: Q_g + Q_ls + (I_q + I_leak + I_R)·t_on + Q_rr")
+
+    @cached_property
+    def refilled_charge(self) -> Value:
+        """The part of the gate charge the bootstrap path puts back before the node rises.
+
+        Up to the Miller plateau the gate charges while a freewheeling current still holds
+        the switch node low: the dip it makes in the hold capacitor is refilled through the
+        diode when that path is fast (R·C within the plateau time), down to a residue of a
+        few n·V_T·C. Only a small capacitor dips that far; a well-sized one gets nothing
+        back this way, and the full Q_g counts.
+        """
+        none = Value(0.0, "C", "none (no fast refill before the node rises)")
+        tau, c, n_vt = self._refill_tau, self.c_hold, self._n_vt
+        if not self.freewheeling or tau is None or c is None or n_vt is None:
+            return none
+        if (
+            tau > PLATEAU_TIME
+            or self.dead_time is None
+            and any(r.kind == "low-side switch" for r in self.stage.refresh)
+        ):
+            return none
+        plateau = self.ratings.get(self.switch, "vgs_plateau")
+        vth = self.ratings.get(self.switch, "vth")
+        level = plateau if plateau is not None else vth
+        if level is None:
+            return none
+        q_pre = self._charge_before_plateau(level.value)
+        if q_pre is None:
+            return none
+        credit = q_pre - REFILL_RESIDUE_NVT * n_vt * c.value
+        if credit <= 0:
+            return none
+        return computed(
+            credit,
+            "C",
+            f"computed: gate charge to {level.text()} ({format_si(q_pre, 'C')}) less "
+            f"{REFILL_RESIDUE_NVT:g}·n·V_T·C, refilled through the diode (τ = "
+            f"{format_si(tau, 's')}) while the node is still low",
+        )
+
+    def _charge_before_plateau(self, level: float) -> float | None:
+        """Gate charge to ``level`` with the drain–source voltage still at the bus."""
+        multiplier = self.switch.multiplier
+        rated = self.ratings.get(self.switch, "qg")
+        tested = self.ratings.get(self.switch, "vgs_qg")
+        if rated is not None and tested is not None:
+            qgd = self.ratings.get(self.switch, "qgd")
+            return (
+                gate_physics.gate_charge_at_drive(
+                    rated.value, tested.value, level, qgd.value if qgd else None
+                )
+                - (qgd.value if qgd else 0.0)
+            ) * multiplier
+        model = self.switch.model
+        params = model.params if model else {}
+        if model is not None and model.type == "vdmos" and "cgs" in params:
+            lo, hi, a = (
+                params.get("cgdmin", params.get("cgdmax", 0.0)),
+                params.get("cgdmax", 0.0),
+                params.get("a", 1.0),
+            )
+            swing = self.v_switched
+            q_gd = gate_physics.vdmos_gate_drain_charge(
+                level - swing, lo, hi, a
+            ) - gate_physics.vdmos_gate_drain_charge(-swing, lo, hi, a)
+            return (params["cgs"] * level + q_gd) * multiplier
+        width = self.switch.params.get("w", 1.0)
+        c = (params.get("cgso", 0.0) + params.get("cgdo", 0.0)) * width
+        return c * level * multiplier if c else None
+
+    @cached_property
+    def droop_per_cycle(self) -> Value | None:
+        """The hold capacitor's droop over one on-time, with charge sharing with the gate."""
+        q, c, v0 = self.q_per_cycle, self.c_hold, self.v_boot0
+        if q is None or c is None or v0 is None or self.qg is None:
+            return None
+        credit = self.refilled_charge.value
+        droop = gate_physics.shared_droop(
+            v0.value, c.value, self.qg.value - credit, self.c_gate.value, q.value - self.qg.value
+        )
+        how = "computed: (Q_total − Q_refilled)/(C + C_g) (charge shared with the gate)"
+        return computed(droop, "V", how if credit else how.replace(" − Q_refilled", ""))
 
     @cached_property
     def delta_v_allowed(self) -> Value | None:

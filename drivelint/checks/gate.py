@@ -19,6 +19,7 @@ from drivelint.checks.facts import StageFacts
 from drivelint.circuit.model import GROUND, Device
 from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
+from drivelint.physics import bootstrap as boot_physics
 from drivelint.physics import gate as gate_physics
 from drivelint.physics import stress
 from drivelint.physics.preferred import next_preferred, preferred_values
@@ -191,7 +192,13 @@ def _clamp_levels(clamp: Clamp, stage: DriveStage, facts: StageFacts) -> _ClampL
 
 @dataclass(frozen=True, slots=True)
 class _Drive:
-    """The highest V_GS one pull-up path can apply."""
+    """The highest V_GS one pull-up path can apply.
+
+    ``level`` is the highest in normal operation (switch off with its gate low, or on with
+    its source up); ``short`` the V_GS with the source held at its low level while the gate
+    is pulled up — an output short, or the first instant of a turn-on into a load that
+    cannot move — where that differs (a gate fed from a ground-referenced rail or pump).
+    """
 
     level: float
     path: GatePath
@@ -199,6 +206,13 @@ class _Drive:
     origin: Value
     resistance: float | None  # series resistance of the path, None when it has none
     note: str
+    short: float | None = None
+    short_note: str = ""
+    steady: float | None = None  # the on-state level a clamp must stay off at (None: level)
+
+    @property
+    def on_level(self) -> float:
+        return self.level if self.steady is None else self.steady
 
 
 def _resistance(device: Device | None) -> float | None:
@@ -229,37 +243,87 @@ def _ground_zener(path: GatePath, stage: DriveStage, facts: StageFacts) -> tuple
     return best
 
 
-def _drives(stage: DriveStage, facts: StageFacts) -> list[_Drive]:
+def _drives(stage: DriveStage, facts: StageFacts, undershoot: float) -> list[_Drive]:
     out: list[_Drive] = []
+    supply = stage.supply
     for path in stage.pullups:
         ohms = [_resistance(facts.device(n)) for n in path.devices]
         series = sum(r for r in ohms if r is not None) or None
         if path.returns_to == "boot":
-            if facts.v_boot0 is None:
+            top = facts.v_boot_max
+            if top is None:
                 continue
-            out.append(
-                _Drive(
-                    facts.v_boot0.value,
-                    path,
-                    True,
-                    facts.v_boot0,
-                    series,
-                    "the floating supply across gate and source",
+            level = top.value
+            note = "the floating supply across gate and source"
+            if supply.capacitor and facts.c_hold is not None and facts.qg is not None:
+                # The gate takes its charge from the hold capacitor: the two settle together,
+                # Q_g/(C + C_g) below where the capacitor started.
+                # A recovering diode takes its stored charge back during the same edge.
+                q_rr = facts.recovery_charge.value if facts.recovery_charge else 0.0
+                share = (facts.qg.value + q_rr) / (facts.c_hold.value + facts.c_gate.value)
+                level = max(0.0, level - share)
+                note += f" after sharing its charge with the gate ({_v(share)})"
+            steady = facts.vgs_on_max.value if facts.vgs_on_max else level
+            steady = min(steady, level)
+            if supply.kind == "bootstrap" and undershoot > 0:
+                level = boot_physics.boot_voltage_max(top.value, 0.0, 0.0, undershoot)
+                note += f" (charged {_v(undershoot)} higher by the switch node's undershoot)"
+            pump = facts.pump_output
+            if supply.kind == "charge-pump" and pump is not None and not supply.riding:
+                # A pump to ground: the source follows the gate up; with it held low the
+                # gate sees the pump's whole output.
+                note = "the charge pump's output with the source up at the bus"
+                out.append(
+                    _Drive(
+                        level,
+                        path,
+                        True,
+                        top,
+                        series,
+                        note,
+                        gate_physics.worst_positive_vgs(pump.value, facts.v_sw_low.value),
+                        f"the charge pump's output {pump.text()} with the source held at "
+                        f"{facts.v_sw_low.text()}",
+                        steady,
+                    )
                 )
-            )
+                continue
+            if supply.kind == "charge-pump" and supply.riding:
+                note = (
+                    f"the reservoir {supply.capacitor}, charged to the pump's output while the "
+                    "source was low, at each turn-on"
+                )
+            out.append(_Drive(level, path, True, top, series, note, steady=steady))
             continue
         rail = facts.circuit.rails.get(path.end_net)
         if rail is None or rail <= 0:
             continue
-        level = Value(rail, "V", f"DC rail {path.end_net}")
-        note = f"rail {path.end_net} to ground while the source is at ground (switch off)"
+        level_value = Value(rail, "V", f"DC rail {path.end_net}")
+        where = f"rail {path.end_net}"
         capped = _ground_zener(path, stage, facts)
         if capped is not None and capped[0].value < rail:
-            level = Value(capped[0].value, "V", f"Zener {capped[1]} to ground ({capped[0].origin})")
-            note = f"Zener {capped[1]} to ground on the pull-up from rail {path.end_net}"
-        # The source is at ground while the switch is off: V_GS = V_gate − 0.
-        vgs = gate_physics.worst_positive_vgs(level.value, 0.0)
-        out.append(_Drive(vgs, path, False, level, series, note))
+            level_value = Value(
+                capped[0].value, "V", f"Zener {capped[1]} to ground ({capped[0].origin})"
+            )
+            where = f"the Zener {capped[1]} to ground on the pull-up from rail {path.end_net}"
+        # With the switch on its source rises to the bus (or follows the gate a threshold
+        # below it); off, its gate is low. Only a source held down (an output short) sees
+        # the whole gate voltage.
+        bus_low = facts.v_bus_min.value if facts.v_bus_min else 0.0
+        normal = max(0.0, gate_physics.worst_positive_vgs(level_value.value, bus_low))
+        short = gate_physics.worst_positive_vgs(level_value.value, facts.v_sw_low.value)
+        out.append(
+            _Drive(
+                normal,
+                path,
+                False,
+                level_value,
+                series,
+                f"{where} with the source up at the bus",
+                short,
+                f"{where} with the source held at {facts.v_sw_low.text()}",
+            )
+        )
     return out
 
 
@@ -399,40 +463,51 @@ def _preferred_at_most(value: float, series: str = ZENER_SERIES) -> float | None
 
 
 def _zener_between(drive: float | None, limit: float, tolerance: float) -> float | None:
-    """The lowest standard Zener that stays off at ``drive`` (with tolerance) and ≤ ``limit``."""
-    if drive is None or drive <= 0:
-        return _preferred_at_most(limit)
+    """The lowest standard Zener that stays off at ``drive`` and clamps strictly inside ``limit``.
+
+    With tolerance t a Zener of nominal V_Z conducts anywhere from V_Z·(1 − t) to V_Z·(1 + t):
+    it must start above the drive, V_Z·(1 − t) > V_drive, and end below the limit,
+    V_Z·(1 + t) < V_limit (a clamp at the rating itself protects nothing).
+    """
     if not 0 <= tolerance < 1:
         return None
-    choice = next_preferred(drive / (1.0 - tolerance), ZENER_SERIES)
-    return choice if choice <= limit else None
+    ceiling = limit / (1.0 + tolerance)
+    if drive is None or drive <= 0:
+        choice = _preferred_at_most(ceiling * (1 - 1e-9))
+        return choice if choice is not None and choice * (1.0 + tolerance) < limit else None
+    choice = next_preferred(drive / (1.0 - tolerance) * (1 + 1e-9), ZENER_SERIES)
+    return choice if choice * (1.0 + tolerance) < limit else None
 
 
 # -- the check -----------------------------------------------------------------------------------
 
 
-def check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
-    """V_GS beyond the rating either way with no clamp holding it; clamps that misbehave."""
-    if stage.channel != "nmos":
-        return  # a P-channel switch's on-state V_GS is negative; not this rule's model
-    facts = ctx.facts
-    tolerance = ctx.options["zener_tolerance"]
-    rating = _rating(facts, ctx.options["derating"])
+def gate_extremes(stage: DriveStage, facts: StageFacts, options: Mapping[str, float]) -> _Extremes:
+    """The highest and lowest V_GS of a stage, after the clamps that hold them."""
+    tolerance = options["zener_tolerance"]
+    rating = _rating(facts, options["derating"])
     limit_pos, limit_neg = rating.limit_positive, rating.limit_negative
     clamps = [_clamp_levels(c, stage, facts) for c in stage.clamps]
-    drives = _drives(stage, facts)
+    drives = _drives(stage, facts, options.get("undershoot", 0.0))
     vth = facts.ratings.get(facts.switch, "vth")
-    hold = _source_hold(stage, facts, ctx.options["hold_time_constant"])
+    hold = _source_hold(stage, facts, options["hold_time_constant"])
     pulls, complete = _pulldowns(stage, facts, hold, vth)
 
     # Positive side: the highest drive, held down by any clamp that conducts within the limit.
     drive = max(drives, key=lambda d: d.level) if drives else None
+    short = max(
+        (d for d in drives if d.short is not None), key=lambda d: d.short or 0.0, default=None
+    )
     boot_drive = max((d for d in drives if d.from_boot), key=lambda d: d.level, default=None)
     holding_pos = [c for c in clamps if c.positive is not None and 0 < c.positive <= limit_pos]
     unknown_pos = any(c.positive is None for c in clamps)
+    clamp_pos = min((c.positive for c in holding_pos if c.positive is not None), default=None)
     vgs_pos: float | None = None
     if drive is not None:
-        vgs_pos = min([drive.level, *(c.positive for c in holding_pos if c.positive is not None)])
+        vgs_pos = drive.level if clamp_pos is None else min(drive.level, clamp_pos)
+    vgs_short: float | None = None
+    if short is not None and short.short is not None:
+        vgs_short = short.short if clamp_pos is None else min(short.short, clamp_pos)
 
     # Negative side: the lowest pull-down result, held up by a clamp within the limit.
     holding_neg = [c for c in clamps if c.negative is not None and limit_neg <= c.negative < 0]
@@ -445,15 +520,84 @@ def check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fin
         vgs_neg = 0.0  # every pull-down returns to the source
     else:
         vgs_neg = None
+    return _Extremes(
+        rating,
+        clamps,
+        drive,
+        short,
+        boot_drive,
+        hold,
+        pulls,
+        worst,
+        vth,
+        vgs_pos,
+        vgs_short,
+        vgs_neg,
+        bool(holding_pos),
+        unknown_pos,
+        bool(holding_neg),
+        unknown_neg,
+        tolerance,
+    )
+
+
+@dataclass(frozen=True, slots=True)
+class _Extremes:
+    rating: _Rating
+    clamps: list[_ClampLevels]
+    drive: _Drive | None
+    short: _Drive | None
+    boot_drive: _Drive | None
+    hold: _SourceHold
+    pulls: list[_Pulldown]
+    worst: _Pulldown | None
+    vth: Value | None
+    vgs_pos: float | None
+    vgs_short: float | None
+    vgs_neg: float | None
+    holding_pos: bool
+    unknown_pos: bool
+    holding_neg: bool
+    unknown_neg: bool
+    tolerance: float
+
+
+def check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
+    """V_GS beyond the rating either way with no clamp holding it; clamps that misbehave."""
+    if stage.channel != "nmos":
+        return  # a P-channel switch's on-state V_GS is negative; not this rule's model
+    facts = ctx.facts
+    if facts.never_on:
+        return  # never commanded on: its gate stays low in this scenario
+    found = gate_extremes(stage, facts, ctx.options)
+    rating, clamps, drive, boot_drive, worst = (
+        found.rating,
+        found.clamps,
+        found.drive,
+        found.boot_drive,
+        found.worst,
+    )
+    limit_pos, limit_neg = rating.limit_positive, rating.limit_negative
+    linear = stage.mode == "linear"
 
     summary: dict[str, Value] = dict(rating.values())
-    if vgs_pos is not None:
+    if found.vgs_pos is not None:
         summary["vgs_max_positive"] = computed(
-            vgs_pos, "V", "computed: highest V_GS of the pull-ups, after any clamp within the limit"
+            found.vgs_pos,
+            "V",
+            "computed: highest V_GS of the pull-ups in normal operation, after any clamp "
+            "within the limit",
         )
-    if vgs_neg is not None:
+    if found.vgs_short is not None:
+        summary["vgs_output_short"] = computed(
+            found.vgs_short,
+            "V",
+            "computed: V_GS with the source held at its low level (output short), after any "
+            "clamp within the limit",
+        )
+    if found.vgs_neg is not None:
         summary["vgs_max_negative"] = computed(
-            vgs_neg,
+            found.vgs_neg,
             "V",
             "computed: lowest V_GS of the pull-downs, after any clamp within the limit"
             if worst is not None
@@ -462,12 +606,24 @@ def check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fin
     if drive is not None:
         summary["vgs_drive"] = computed(drive.level, "V", f"computed: {drive.note}")
         summary["v_gate_supply"] = drive.origin
+    undershoot = ctx.options.get("undershoot", 0.0)
+    if undershoot and stage.supply.kind == "bootstrap":
+        summary["undershoot"] = Value(undershoot, "V", "option undershoot")
 
-    positive_fired = (
-        drive is not None and drive.level > limit_pos and not holding_pos and not unknown_pos
+    clear_pos = not found.holding_pos and not found.unknown_pos
+    positive_fired = drive is not None and drive.level > limit_pos and clear_pos
+    short_fired = (
+        not positive_fired
+        and found.short is not None
+        and found.short.short is not None
+        and found.short.short > limit_pos
+        and clear_pos
     )
     negative_fired = (
-        worst is not None and worst.vgs < limit_neg and not holding_neg and not unknown_neg
+        worst is not None
+        and worst.vgs < limit_neg
+        and not found.holding_neg
+        and not found.unknown_neg
     )
 
     for levels in clamps:
@@ -478,17 +634,30 @@ def check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fin
             summary,
             rating,
             boot_drive,
-            tolerance,
-            positive_fired,
+            found.tolerance,
+            positive_fired or short_fired,
             negative_fired,
         )
     if positive_fired:
         assert drive is not None
-        yield _positive_finding(stage, ctx, summary, rating, drive, clamps, tolerance)
+        yield _positive_finding(stage, ctx, summary, rating, drive, clamps, found.tolerance, linear)
+    if short_fired:
+        assert found.short is not None
+        yield _short_finding(stage, ctx, summary, rating, found.short, clamps, found.tolerance)
     if negative_fired:
         assert worst is not None and facts.v_bus is not None
         yield _negative_finding(
-            stage, ctx, summary, rating, worst, hold, vth, clamps, boot_drive, tolerance
+            stage,
+            ctx,
+            summary,
+            rating,
+            worst,
+            found.hold,
+            found.vth,
+            clamps,
+            boot_drive,
+            found.tolerance,
+            linear,
         )
 
 
@@ -517,7 +686,7 @@ def _clamp_findings(
             levels.negative, "V", "computed: Zener voltages plus forward drops, source above gate"
         )
     limit_pos, limit_neg = rating.limit_positive, rating.limit_negative
-    drive_level = boot_drive.level if boot_drive else None
+    drive_level = boot_drive.on_level if boot_drive else None
     zener = _zener_between(drive_level, limit_pos, tolerance)
     zener_text = (
         f"a Zener of {_v(zener)} (cathode at the gate {stage.gate}, "
@@ -551,9 +720,9 @@ def _clamp_findings(
 
     if levels.positive is not None and math.isfinite(levels.positive) and levels.positive_zener:
         tolerance_low = levels.positive - tolerance * levels.positive_zener
-        if boot_drive is not None and levels.positive < boot_drive.level:
+        if boot_drive is not None and levels.positive < boot_drive.on_level:
             current = (
-                (boot_drive.level - levels.positive) / boot_drive.resistance
+                (boot_drive.on_level - levels.positive) / boot_drive.resistance
                 if boot_drive.resistance
                 else None
             )
@@ -570,7 +739,7 @@ def _clamp_findings(
                 else ", draws from the floating supply"
             )
             fix = (
-                f"use {zener_text} — it stays off at the {_v(boot_drive.level)} drive "
+                f"use {zener_text} — it stays off at the {_v(boot_drive.on_level)} drive "
                 f"(±{tolerance:.0%}) and clamps within the {_v(limit_pos)} limit — "
                 f"or remove {device}"
                 if zener_text
@@ -579,16 +748,16 @@ def _clamp_findings(
             yield ctx.finding(
                 device,
                 f"{what} clamps {stage.switch} V_GS at {_v(levels.positive)}, below the "
-                f"{_v(boot_drive.level)} drive level: it conducts every on-time{drain} and pins "
+                f"{_v(boot_drive.on_level)} drive level: it conducts every on-time{drain} and pins "
                 f"V_GS at about {_v(levels.positive)}",
                 values,
                 fix=fix,
                 derivation=(
                     f"V_drive = {boot_drive.origin.text()} ({boot_drive.origin.origin})",
-                    f"V_clamp+ = {_v(levels.positive)} < V_drive = {_v(boot_drive.level)}",
+                    f"V_clamp+ = {_v(levels.positive)} < V_drive = {_v(boot_drive.on_level)}",
                     *(
                         (
-                            f"I ≤ (V_drive − V_clamp+)/R_series = ({_v(boot_drive.level)} − "
+                            f"I ≤ (V_drive − V_clamp+)/R_series = ({_v(boot_drive.on_level)} − "
                             f"{_v(levels.positive)})/{format_si(boot_drive.resistance or 0, 'Ω')} "
                             f"= {format_si(current, 'A')}",
                         )
@@ -597,14 +766,14 @@ def _clamp_findings(
                     ),
                 ),
             )
-        elif boot_drive is not None and tolerance_low < boot_drive.level:
+        elif boot_drive is not None and tolerance_low < boot_drive.on_level:
             values["clamp_positive_low"] = computed(
                 tolerance_low, "V", "computed: V_clamp+ − tolerance × V_Z"
             )
             values["zener_tolerance"] = Value(tolerance, "1", "option zener_tolerance")
             yield ctx.finding(
                 device,
-                f"{what} may conduct at the {_v(boot_drive.level)} drive level: with "
+                f"{what} may conduct at the {_v(boot_drive.on_level)} drive level: with "
                 f"±{tolerance:.0%} tolerance it clamps from {_v(tolerance_low)}, "
                 f"so it can draw from the floating supply every on-time",
                 values,
@@ -616,7 +785,7 @@ def _clamp_findings(
                 derivation=(
                     f"V_clamp+,low = V_clamp+ − tol·V_Z = {_v(levels.positive)} − "
                     f"{tolerance:g}·{_v(levels.positive_zener)} = {_v(tolerance_low)}",
-                    f"V_drive = {_v(boot_drive.level)} > V_clamp+,low",
+                    f"V_drive = {_v(boot_drive.on_level)} > V_clamp+,low",
                 ),
                 severity=Severity.WARNING,
             )
@@ -671,6 +840,16 @@ def _not_holding(clamps: list[_ClampLevels], side: str) -> str:
     return "and " + "; ".join(parts)
 
 
+def _clamp_fix(stage: DriveStage, limit: float, tolerance: float) -> str:
+    zener = _zener_between(None, limit, tolerance)
+    if zener is None:
+        return f"drive the gate from a rail of at most {_v(limit)}"
+    return (
+        f"clamp it with a Zener of {_v(zener)} (cathode at the gate {stage.gate}, anode at "
+        f"the source {stage.source}) behind a series resistor from the supply"
+    )
+
+
 def _positive_finding(
     stage: DriveStage,
     ctx: CheckContext,
@@ -679,22 +858,24 @@ def _positive_finding(
     drive: _Drive,
     clamps: list[_ClampLevels],
     tolerance: float,
+    linear: bool,
 ) -> Finding:
     limit = rating.limit_positive
     values = dict(summary)
-    if drive.from_boot:
+    supply = stage.supply
+    if drive.from_boot and not (supply.kind == "charge-pump" and supply.riding):
         fix = (
             f"lower the floating supply to at most {_v(limit)} (a lower auxiliary or isolated "
             "rail); a Zener clamp here would conduct every on-time and drain it"
         )
+    elif drive.from_boot:
+        fix = _clamp_fix(stage, limit, tolerance) + (
+            f", or return the reservoir {supply.capacitor} to ground instead of the source"
+        )
     else:
-        zener = _preferred_at_most(limit / (1.0 + tolerance))
         fix = (
-            f"feed the gate through a resistor and clamp it with a Zener of {_v(zener)} "
-            f"(cathode at the gate {stage.gate}, anode at the source {stage.source}), "
-            f"or drive it from a rail of at most {_v(limit)}"
-            if zener
-            else f"drive the gate from a rail of at most {_v(limit)}"
+            _clamp_fix(stage, limit, tolerance)
+            + f", or drive it from a rail of at most {_v(limit)} above the bus"
         )
     return ctx.finding(
         stage.switch,
@@ -704,12 +885,45 @@ def _positive_finding(
         values,
         fix=fix,
         derivation=(
-            "V_GS,max = V_gate,max − V_source,min"
-            + (" = V_boot" if drive.from_boot else " = V_rail − 0"),
-            f"         = {drive.origin.text()} ({drive.origin.origin}) = {_v(drive.level)}",
+            "V_GS,max = V_gate,max − V_source (normal operation)",
+            f"         = {drive.origin.text()} ({drive.origin.origin}) → {_v(drive.level)}",
             f"limit = V_GS(max) × derating = {rating.positive.text()} × {rating.derating:g} "
             f"= {_v(limit)}",
         ),
+        severity=Severity.WARNING if linear else None,
+    )
+
+
+def _short_finding(
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    drive: _Drive,
+    clamps: list[_ClampLevels],
+    tolerance: float,
+) -> Finding:
+    """The output-short case: the gate pulled up while the source cannot follow."""
+    assert drive.short is not None
+    limit = rating.limit_positive
+    facts = ctx.facts
+    where = "the source" if stage.mode == "linear" else "the output"
+    return ctx.finding(
+        stage.switch,
+        f"with {where} {stage.source} shorted to {facts.v_sw_low.text()}, {stage.switch}'s "
+        f"gate is still pulled up from {drive.short_note.split(' with ')[0]}: V_GS reaches "
+        f"{_v(drive.short)}, above the {_v(limit)} limit{rating.derated_text(rating.positive)}, "
+        f"{_not_holding(clamps, 'positive')} (in normal operation the source follows the "
+        f"gate and V_GS stays at {_v(drive.level)})",
+        dict(summary),
+        fix=_clamp_fix(stage, limit, tolerance) + ", so that an output short cannot break the gate",
+        derivation=(
+            "V_GS,short = V_gate,max − V_source,low (the source held down by a short)",
+            f"           = {drive.short_note} → {_v(drive.short)}",
+            f"limit = V_GS(max) × derating = {rating.positive.text()} × {rating.derating:g} "
+            f"= {_v(limit)}",
+        ),
+        severity=Severity.WARNING,
     )
 
 
@@ -724,6 +938,7 @@ def _negative_finding(
     clamps: list[_ClampLevels],
     boot_drive: _Drive | None,
     tolerance: float,
+    linear: bool = False,
 ) -> Finding:
     facts = ctx.facts
     assert facts.v_bus is not None
@@ -736,8 +951,9 @@ def _negative_finding(
         values["v_threshold"] = vth
     where = "ground" if pull.path.returns_to == "ground" else f"rail {pull.path.end_net}"
     zener = _zener_between(
-        boot_drive.level if boot_drive else None, rating.limit_positive, tolerance
+        boot_drive.on_level if boot_drive else None, rating.limit_positive, tolerance
     )
+    held_by = " and ".join(r for r in hold.reasons if r) or "what holds the switch node up"
     clamp_fix = (
         f"clamp it with a Zener of {_v(zener)} from the source {stage.source} (anode) to the "
         f"gate {stage.gate} (cathode), which holds V_GS at about -0.7 V and stays off at the "
@@ -749,7 +965,7 @@ def _negative_finding(
     return ctx.finding(
         pull.device,
         f"{pull.device} pulls {stage.switch}'s gate to {where} while the source is held at "
-        f"{facts.v_bus.text()} by {' and '.join(hold.reasons)}: V_GS reaches {_v(pull.vgs)} "
+        f"{facts.v_bus.text()} by {held_by}: V_GS reaches {_v(pull.vgs)} "
         f"at turn-off, beyond the {_v(limit)} limit{rating.derated_text(rating.negative)}, "
         f"{_not_holding(clamps, 'negative')}",
         values,
@@ -768,6 +984,7 @@ def _negative_finding(
             f"limit = V_GS(min) × derating = {rating.negative.text()} × {rating.derating:g} "
             f"= {_v(limit)}",
         ),
+        severity=Severity.WARNING if linear else None,
     )
 
 

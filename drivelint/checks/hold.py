@@ -14,6 +14,7 @@ from drivelint.checks.drains import OnDrains
 from drivelint.checks.facts import StageFacts
 from drivelint.netlist.values import format_si
 from drivelint.physics import bootstrap as boot_physics
+from drivelint.physics import gate as gate_physics
 from drivelint.physics.preferred import next_preferred
 from drivelint.ratings.values import Value, computed
 from drivelint.stages.model import DriveStage
@@ -34,85 +35,102 @@ def _drain_list(drains: OnDrains, most: int = 3) -> str:
 
 def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     facts = ctx.facts
-    if stage.supply.kind != "bootstrap" or facts.capacitor is None:
+    if stage.supply.kind != "bootstrap" or facts.capacitor is None or facts.never_on:
         return
     c_hold, qg, dv, v_boot = facts.c_hold, facts.qg, facts.delta_v_allowed, facts.v_boot0
-    on_time = facts.on_time
+    on_time, q_cycle = facts.on_time, facts.q_per_cycle
     if c_hold is None or qg is None or dv is None or v_boot is None or on_time is None:
         return
     # An unbounded on-time is dc-hold's finding; a switch never commanded on takes nothing.
-    if not math.isfinite(on_time.value) or on_time.value <= 0:
+    if not math.isfinite(on_time.value) or on_time.value <= 0 or q_cycle is None:
         return
-    # Starting below the minimum is not a sizing problem: no capacitor can fix it.
+    # Starting below the minimum is not a sizing problem: no capacitor can fix it (the
+    # supply level is gate-headroom's finding).
     if dv.value <= 0:
         return
     drains = facts.on_drains
-    q_total = boot_physics.charge_budget(
-        qg.value,
-        facts.q_ls.value,
-        drains.quiescent.value,
-        drains.i_leak.value,
-        drains.i_resistive.value,
-        on_time.value,
-    )
+    q_total = q_cycle.value
+    q_rr = facts.recovery_charge
     margin = ctx.options["margin"]
     c_min = boot_physics.required_capacitance(q_total, dv.value)
     c_required = margin * c_min
     if c_hold.value >= c_required:
         return
-    droop = boot_physics.droop_per_cycle(q_total, c_hold.value)
+    droop_value = facts.droop_per_cycle
+    assert droop_value is not None
+    droop = droop_value.value
     suggested = next_preferred(c_required, PREFERRED_SERIES)
-    droop_suggested = boot_physics.droop_per_cycle(q_total, suggested)
+    droop_suggested = gate_physics.shared_droop(
+        v_boot.value, suggested, qg.value, facts.c_gate.value, q_total - qg.value
+    )
     cap = facts.capacitor.name
-    drained = q_total - qg.value - facts.q_ls.value
+    drained = q_total - qg.value - facts.q_ls.value - (q_rr.value if q_rr else 0.0)
     values: dict[str, Value] = {
         "capacitance": c_hold,
         "gate_charge": qg,
+        "gate_capacitance": facts.c_gate,
         "level_shift_charge": facts.q_ls,
         **drains.values(),
         "on_time": on_time,
-        "charge_per_cycle": computed(
-            q_total, "C", "computed: Q_g + Q_ls + (I_q + I_leak + I_R)·t_on"
-        ),
+        "charge_per_cycle": q_cycle,
         "v_boot": v_boot,
         "v_boot_min": facts.v_boot_min,
+        "vgs_on": facts.vgs_on,
         "delta_v_allowed": dv,
         "margin": Value(margin, "1", "option margin"),
         "minimum_capacitance": computed(c_min, "F", "computed: Q_total/ΔV_allowed"),
         "required_capacitance": computed(c_required, "F", "computed: margin·Q_total/ΔV_allowed"),
-        "droop_per_cycle": computed(droop, "V", "computed: Q_total/C"),
+        "droop_per_cycle": droop_value,
         "suggested_capacitance": computed(
             suggested, "F", f"computed: next {PREFERRED_SERIES} value ≥ required (IEC 60063)"
         ),
         "suggested_droop_per_cycle": computed(
-            droop_suggested, "V", "computed: Q_total/C_suggested"
+            droop_suggested, "V", "computed: Q_total/(C_suggested + C_g)"
         ),
     }
+    if q_rr is not None:
+        values["recovery_charge"] = q_rr
     i_q, i_leak, i_r = drains.quiescent, drains.i_leak, drains.i_resistive
+    rr_text = f" + {q_rr.text()}" if q_rr else ""
+    fix = (
+        f"use {format_si(suggested, 'F')} ({PREFERRED_SERIES}) or more for {cap}: "
+        f"≥ {format_si(c_required, 'F')} = {margin:g} × {format_si(q_total, 'C')} / "
+        f"{dv.text()}; it then droops {format_si(droop_suggested, 'V')} per cycle"
+    )
+    if q_rr is not None and q_rr.value > 0.5 * q_total and facts.diode is not None:
+        # Most of the budget is the diode's recovery: a faster diode is the better fix.
+        without = q_total - q_rr.value
+        c_fast = margin * boot_physics.required_capacitance(without, dv.value)
+        fix = (
+            f"most of the {format_si(q_total, 'C')} is {facts.diode.name}'s recovery charge "
+            f"({q_rr.text()}): with a fast-recovery or Schottky bootstrap diode the budget is "
+            f"{format_si(without, 'C')} and {cap} needs only ≥ {format_si(c_fast, 'F')}; "
+            f"keeping the diode, {fix}"
+        )
     yield ctx.finding(
         cap,
         f"{cap} = {c_hold.text()} is too small for {stage.switch}: each on-time "
         f"({on_time.text()}) takes {format_si(q_total, 'C')} (Q_g {qg.text()}"
         + (f", Q_ls {facts.q_ls.text()}" if facts.q_ls.value else "")
+        + (f", Q_rr {q_rr.text()}" if q_rr else "")
         + f", {format_si(drained, 'C')} drained), a droop of {format_si(droop, 'V')} per cycle "
         f"against {dv.text()} allowed ({v_boot.text()} → {facts.v_boot_min.text()}); "
         f"needs ≥ {format_si(c_required, 'F')}",
         values,
-        fix=f"use {format_si(suggested, 'F')} ({PREFERRED_SERIES}) or more for {cap}: "
-        f"≥ {format_si(c_required, 'F')} = {margin:g} × {format_si(q_total, 'C')} / "
-        f"{dv.text()}; it then droops {format_si(droop_suggested, 'V')} per cycle",
+        fix=fix,
         derivation=(
-            "Q_total = Q_g + Q_ls + (I_q + I_leak + I_R)·t_on",
+            "Q_total = Q_g + Q_ls + (I_q + I_leak + I_R)·t_on + Q_rr",
             f"        = {qg.text()} + {facts.q_ls.text()} + ({i_q.text()} + {i_leak.text()} "
-            f"+ {i_r.text()})·{on_time.text()} = {format_si(q_total, 'C')}",
+            f"+ {i_r.text()})·{on_time.text()}{rr_text} = {format_si(q_total, 'C')}",
+            f"  Q_g: {qg.origin}",
             f"  drains: {_drain_list(drains, most=6)}",
             "ΔV_allowed = V_boot,0 − V_boot,min",
             f"           = {v_boot.text()} − {facts.v_boot_min.text()} = {dv.text()}"
             f"  (V_boot,min: {facts.v_boot_min.origin})",
             f"C_req = margin·Q_total/ΔV_allowed = {margin:g} × {format_si(q_total, 'C')} / "
             f"{dv.text()} = {format_si(c_required, 'F')}",
-            f"ΔV per cycle = Q_total/C = {format_si(q_total, 'C')} / {c_hold.text()} = "
-            f"{format_si(droop, 'V')}",
+            f"ΔV per cycle = Q_total/(C + C_g) = {format_si(q_total, 'C')} / ({c_hold.text()} + "
+            f"{facts.c_gate.text()}) = {format_si(droop, 'V')}",
             f"next {PREFERRED_SERIES} value ≥ {format_si(c_required, 'F')}: "
             f"{format_si(suggested, 'F')} (droop {format_si(droop_suggested, 'V')})",
         ),
@@ -136,7 +154,7 @@ def _demanding_device(stage: DriveStage, facts: StageFacts) -> str:
 
 def check_dc_hold(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     facts = ctx.facts
-    if stage.supply.kind != "bootstrap":
+    if stage.supply.kind != "bootstrap" or facts.never_on:
         return
     on_time = facts.on_time
     if on_time is None or on_time.value <= 0:
@@ -147,20 +165,30 @@ def check_dc_hold(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     i_drain = drains.total
     t_hold: float | None = None
     if c_hold is not None and dv is not None:
-        # An unknown gate charge is taken as none: the hold time is then an upper bound.
-        t_hold = boot_physics.hold_time(
-            c_hold.value, dv.value, qg.value if qg else 0.0, i_drain.value
-        )
+        t_hold = _hold_time(facts, c_hold.value, dv.value, i_drain.value)
     if not unbounded:
         if t_hold is None or c_hold is None or dv is None or qg is None:
             return
         # Below the minimum from the start, or a gate charge alone beyond the allowed
         # droop: the supply voltage or the capacitor is the problem, reported elsewhere.
-        if dv.value <= 0 or c_hold.value * dv.value <= qg.value:
+        if dv.value <= 0 or (c_hold.value + facts.c_gate.value) * dv.value <= qg.value:
             return
         if on_time.value <= t_hold:
             return
     yield _dc_hold_finding(stage, ctx, drains, t_hold)
+
+
+def _hold_time(facts: StageFacts, c_hold: float, dv: float, i_drain: float) -> float:
+    """The card's t_hold: C + C_g (the gate shares the capacitor's charge) discharged by a
+    drain linear in the boot voltage, from V_boot,0 less the gate's charge down to
+    V_boot,min. An unknown gate charge is taken as none: the hold time is then an upper
+    bound."""
+    qg = facts.qg.value if facts.qg else 0.0
+    c_total = c_hold + facts.c_gate.value
+    v_min = facts.v_boot_min.value
+    return boot_physics.hold_time_linear(
+        c_total, v_min + dv, v_min, qg, i_drain, facts.drain_slope.value
+    )
 
 
 def _dc_hold_finding(
@@ -177,6 +205,7 @@ def _dc_hold_finding(
     values: dict[str, Value] = {"on_time": on_time, **drains.values()}
     if c_hold is not None:
         values["capacitance"] = c_hold
+        values["gate_capacitance"] = facts.c_gate
     if qg is not None:
         values["gate_charge"] = qg
     if v_boot is not None and dv is not None:
@@ -185,15 +214,29 @@ def _dc_hold_finding(
         values["delta_v_allowed"] = dv
     derivation: list[str] = []
     if t_hold is not None and c_hold is not None and dv is not None:
-        origin = "computed: (C·ΔV_allowed − Q_g)/I_drain"
+        origin = (
+            "computed: ((C + C_g)/g)·ln(I(V_1)/I(V_min)), V_1 = V_boot,0 − Q_g/(C + C_g), "
+            "I(V) = I_drain + g·(V − V_boot,0)"
+            if facts.drain_slope.value
+            else "computed: ((C + C_g)·ΔV_allowed − Q_g)/I_drain"
+        )
         if qg is None:
             origin += " with Q_g unknown (taken as 0: an upper bound)"
         values["hold_time"] = computed(t_hold, "s", origin)
         q_text = qg.text() if qg else "0 C (unknown)"
+        slope = facts.drain_slope
+        values["r_drain_equivalent"] = computed(
+            1.0 / slope.value if slope.value > 0 else math.inf,
+            "Ohm",
+            "computed: 1/g, the resistance the drains behave like as the boot voltage sags",
+        )
         derivation += [
-            "t_hold = (C·ΔV_allowed − Q_g)/I_drain,on",
-            f"       = ({c_hold.text()} × {dv.text()} − {q_text}) / {i_drain.text()} "
-            f"= {format_si(t_hold, 's')}",
+            "t_hold = ((C + C_g)/g)·ln(I(V_1)/I(V_min)) with I(V) = I_drain,on + g·(V − V_boot,0), "
+            f"g = {format_si(slope.value, 'A')}/V ({slope.origin}); for g = 0: "
+            "((C + C_g)·ΔV_allowed − Q_g)/I_drain",
+            f"       with C + C_g = {c_hold.text()} + {facts.c_gate.text()}, ΔV_allowed = "
+            f"{dv.text()}, Q_g = {q_text}, I_drain,on = {i_drain.text()}: "
+            f"t_hold = {format_si(t_hold, 's')}",
             f"  I_drain,on = I_q + I_leak + I_R = {drains.quiescent.text()} + "
             f"{drains.i_leak.text()} + {drains.i_resistive.text()}",
             f"  drains: {_drain_list(drains, most=8)}",

@@ -2,32 +2,69 @@
 
 from __future__ import annotations
 
-import math
 from collections.abc import Iterator
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.facts import StageFacts
 from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
-from drivelint.physics import bootstrap as boot_physics
-from drivelint.physics import diode as diode_physics
 from drivelint.ratings.values import Value, computed
 from drivelint.stages.model import DriveStage
 
 
-def _carrier_lifetime(ctx: CheckContext, trr: Value) -> Value:
-    """τ for Q_rr = τ·I_F: the model's TT (the SPICE charge-control lifetime), else t_rr.
+def _gate_resistance(stage: DriveStage, facts: StageFacts) -> Value | None:
+    """Series resistance of the pull-up path to the gate, plus the switch's internal gate
+    resistance (parts rg_internal, else the model's RG)."""
+    path = next((p for p in stage.pullups if p.returns_to == "boot"), None)
+    if path is None:
+        return None
+    ohms = 0.0
+    names = []
+    for name in path.devices:
+        device = facts.device(name)
+        if device is not None and device.kind == "resistor" and device.value is not None:
+            ohms += device.value / device.multiplier
+            names.append(name)
+    internal = facts.ratings.get(facts.switch, "rg_internal")
+    model = facts.switch.model
+    if internal is not None:
+        ohms += internal.value
+        names.append(f"R_G,int {internal.text()}")
+    elif model is not None and model.params.get("rg"):
+        ohms += model.params["rg"]
+        names.append(f"model RG {format_si(model.params['rg'], 'Ω')}")
+    if ohms <= 0:
+        return None
+    return computed(ohms, "Ohm", f"computed: {' + '.join(names)}")
 
-    t_rr stands in for τ when no TT is known: with the reverse current equal to the forward
-    current the charge-control model recovers in about TT (the same estimate the ratings use
-    the other way round).
+
+def switch_node_rise_time(stage: DriveStage, facts: StageFacts) -> Value | None:
+    """How long the switch node takes to rise: the Miller charge over the gate current.
+
+    t_rise = Q_gd/I_G with I_G = (V_drive − V_plateau)/R_G, limited by the driver's source
+    current where the parts library gives it (gate-charge switching-time estimate of
+    power MOSFET application notes; textbook). None when the Miller charge, the plateau or
+    the gate resistance is not known.
     """
-    diode = ctx.facts.diode
-    model = diode.model if diode else None
-    if model is not None and model.params.get("tt"):
-        return Value(
-            model.params["tt"], "s", f"model {model.name} TT ({model.span.path}:{model.span.line})"
-        )
-    return Value(trr.value, "s", f"t_rr taken as the carrier lifetime ({trr.origin})")
+    qgd = facts.ratings.get(facts.switch, "qgd")
+    plateau = facts.ratings.get(facts.switch, "vgs_plateau")
+    drive = facts.v_boot0
+    resistance = _gate_resistance(stage, facts)
+    if qgd is None or plateau is None or drive is None or resistance is None:
+        return None
+    if drive.value <= plateau.value:
+        return None
+    current = (drive.value - plateau.value) / resistance.value
+    source = facts._driver_value("i_source", "A")
+    if source is not None:
+        current = min(current, source.value)
+    return computed(
+        qgd.value * facts.switch.multiplier / current,
+        "s",
+        f"computed: Q_gd/I_G, I_G = (V_drive − V_plateau)/R_G = ({drive.text()} − "
+        f"{plateau.text()})/{resistance.text()}"
+        + (f", at most the driver's {source.text()}" if source else ""),
+    )
 
 
 def check_diode_slow(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
@@ -38,12 +75,16 @@ def check_diode_slow(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
         return
     # Recovery matters only where the switch node keeps swinging; a DC-commanded stage
     # recovers once. A switching frequency given as a condition says it swings.
-    if stage.mode != "switching" and facts.fsw is None:
+    if (stage.mode != "switching" and facts.fsw is None) or facts.never_on:
         return
     trr = facts.ratings.get(diode, "trr")
     if trr is None:
         return
-    trr_max = ctx.options["trr_max"]
+    rise = switch_node_rise_time(stage, facts)
+    option_ceiling = ctx.options["trr_max"]
+    # A diode that recovers within the switch node's rise stops conducting backwards before
+    # the node is high: the ceiling is the longer of the option and the rise time.
+    trr_max = max(option_ceiling, rise.value) if rise is not None else option_ceiling
     fraction = ctx.options["off_time_fraction"]
     off_time = facts.off_time if facts.finite(facts.off_time) else None
     window_limit = (
@@ -56,8 +97,14 @@ def check_diode_slow(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
 
     values: dict[str, Value] = {
         "trr": trr,
-        "trr_max": Value(trr_max, "s", "option trr_max"),
+        "trr_max": computed(
+            trr_max,
+            "s",
+            "option trr_max" if trr_max == option_ceiling else "switch-node rise time",
+        ),
     }
+    if rise is not None:
+        values["switch_node_rise_time"] = rise
     derivation: list[str] = []
     if off_time is not None and window_limit is not None:
         values["off_time"] = off_time
@@ -70,13 +117,16 @@ def check_diode_slow(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
         if facts.duty_max is not None:
             values["duty_max"] = facts.duty_max
         derivation.append(
-            f"t_off = (1 − D)/f_sw = {off_time.text()}; "
+            f"t_off = {off_time.text()} ({off_time.origin}); "
             f"limit = k·t_off = {fraction:g} × {off_time.text()} = {format_si(window_limit, 's')}"
         )
-    derivation.append(f"ceiling t_rr,max = {format_si(trr_max, 's')} (option trr_max)")
+    derivation.append(
+        f"ceiling t_rr,max = max(option trr_max {format_si(option_ceiling, 's')}, "
+        f"switch-node rise {rise.text() if rise else 'unknown'}) = {format_si(trr_max, 's')}"
+    )
     derivation.append(f"t_rr = {trr.text()} ({trr.origin})")
 
-    lost = _recovery_charge(ctx, trr, off_time, values, derivation)
+    lost = _recovery_charge(ctx, values, derivation)
 
     allowed = min(trr_max, window_limit) if window_limit is not None else trr_max
     parts: list[str] = []
@@ -113,63 +163,30 @@ def check_diode_slow(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
 
 def _recovery_charge(
     ctx: CheckContext,
-    trr: Value,
-    off_time: Value | None,
     values: dict[str, Value],
     derivation: list[str],
 ) -> float | None:
-    """Q_rr = τ·I_F with I_F the mean recharge current Q_cycle/t_off; None when unknown.
-
-    Adds every input and result to ``values`` and the formula lines to ``derivation``.
-    """
+    """Q_rr per cycle from the shared facts (rated qrr, else TT·I_F at the end of the
+    recharge); None when unknown. Adds its inputs to ``values`` and ``derivation``."""
     facts = ctx.facts
-    rated = facts.ratings.get(facts.diode, "qrr")
-    if rated is not None:
-        values["recovery_charge"] = rated
-        derivation.append(f"Q_rr = {rated.text()} ({rated.origin})")
-        return rated.value
-    if off_time is None or off_time.value <= 0 or facts.qg is None:
+    q_rr = facts.recovery_charge
+    if q_rr is None:
         return None
-    on_time = facts.on_time
-    if on_time is None and facts.fsw is not None and facts.duty_max is not None:
-        # Conditions without a waveform give no longest on-time; one period's share stands in.
-        on_time = computed(facts.duty_max.value / facts.fsw.value, "s", "computed: D/f_sw")
-    if on_time is None or not math.isfinite(on_time.value):
-        return None
-    q_cycle = boot_physics.charge_budget(
-        facts.qg.value,
-        facts.q_ls.value,
-        facts.i_quiescent.value,
-        facts.i_leak.value,
-        facts.i_resistive.value,
-        on_time.value,
-    )
-    i_forward = q_cycle / off_time.value
-    tau = _carrier_lifetime(ctx, trr)
-    q_rr = diode_physics.recovery_charge(tau.value, i_forward)
-    if not math.isfinite(q_rr):
-        return None
-    values.update(
-        {
-            "qg": facts.qg,
-            "q_ls": facts.q_ls,
-            "i_drain": facts.i_drain,
-            "on_time": on_time,
-            "q_per_cycle": computed(q_cycle, "C", "computed: Q_g + Q_ls + I_drain·t_on"),
-            "recharge_current": computed(i_forward, "A", "computed: Q_cycle / t_off (mean)"),
-            "carrier_lifetime": tau,
-            "recovery_charge": computed(q_rr, "C", "computed: τ·I_F (charge-control model)"),
-        }
-    )
-    derivation.extend(
-        (
-            f"Q_cycle = Q_g + Q_ls + I_drain·t_on = {facts.qg.text()} + {facts.q_ls.text()} "
-            f"+ {facts.i_drain.text()} × {on_time.text()} = {format_si(q_cycle, 'C')}",
-            f"I_F = Q_cycle / t_off = {format_si(i_forward, 'A')}",
-            f"Q_rr = τ·I_F = {tau.text()} × {format_si(i_forward, 'A')} = {format_si(q_rr, 'C')}",
+    values["recovery_charge"] = q_rr
+    derivation.append(f"Q_rr = {q_rr.text()} ({q_rr.origin})")
+    current = facts.recharge_end_current
+    values["recharge_end_current"] = current
+    q_cycle = facts.q_per_cycle
+    if q_cycle is not None:
+        gate_side = q_cycle.value - q_rr.value
+        values["q_per_cycle"] = computed(
+            gate_side, "C", "computed: Q_g + Q_ls + I_drain·t_on (without the recovery)"
         )
-    )
-    return q_rr
+        derivation.append(
+            f"the supply delivers {format_si(gate_side, 'C')} per cycle besides the recovery; "
+            f"I_F as the recharge ends: {current.text()} ({current.origin})"
+        )
+    return q_rr.value
 
 
 CHECKS = {"bootstrap-diode-slow": check_diode_slow}

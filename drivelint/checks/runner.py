@@ -49,7 +49,11 @@ def check_circuit(
     ratings = Ratings(parts, directives)
     diagnostics: list[Diagnostic] = list(circuit.diagnostics) + list(directives.diagnostics)
     findings: list[Finding] = []
-    by_net = devices_by_net(circuit)
+    # The rules see the circuit recognition saw: wires (ammeters, strays, shunts) merged.
+    from drivelint.stages.wires import collapse_wires
+
+    merged = collapse_wires(circuit).circuit
+    by_net = devices_by_net(merged)
     for stage in stages:
         if not stage.floating:
             continue
@@ -68,7 +72,7 @@ def check_circuit(
                 )
             )
             continue
-        facts = StageFacts(stage, circuit, ratings, directives, conditions, by_net)
+        facts = StageFacts(stage, merged, ratings, directives, conditions, by_net)
         for rule in rules.values():
             setting = settings.get(rule.id, RuleSetting())
             if not setting.enabled:

@@ -261,3 +261,214 @@ def max_duty_for_boot_min(
     if math.isinf(fraction_off):
         return 0.0
     return min(1.0, max(0.0, 1.0 - fraction_off))
+
+
+def boot_voltage_max(
+    v_aux_max: Volts, v_f_diode: Volts, v_switch_low: Volts = 0.0, v_undershoot: Volts = 0.0
+) -> Volts:
+    """Highest voltage across the hold capacitor: V_aux,max − V_F − V_sw,low + V_undershoot.
+
+    The capacitor charges to the auxiliary rail less the diode drop, measured from where the
+    switch node sits while it is pulled low (V_sw,low: 0 V for a low side to ground, the
+    negative rail of a split supply); a switch node that rings ``v_undershoot`` below that
+    level as it falls lets the diode charge the capacitor that much higher.
+
+    v_aux_max: highest auxiliary rail [V]; v_f_diode: diode drop [V]; v_switch_low: switch
+    node voltage during refresh [V]; v_undershoot: its negative excursion, as a magnitude [V].
+    """
+    return v_aux_max - v_f_diode - v_switch_low + v_undershoot
+
+
+def boot_cycle(
+    v_peak: Volts,
+    v_target: Volts,
+    q_at_target: Coulombs,
+    dq_dv: Farads,
+    c: Farads,
+    r_charge: Ohms,
+    t_off: Seconds,
+    c_gate: Farads = 0.0,
+) -> SustainedBoot:
+    """One switching cycle of a bootstrap supply: (valley at the end of the on-time, peak at
+    the end of the following off-time), from the peak before it.
+
+    The on-time takes Q(V) = Q_t + dQ/dV·(V − V_target) from the capacitor at V = v_peak
+    (a gate charge and resistive drains that grow with the boot voltage); the off-time
+    recharges it toward V_target with τ = R·C: V' = V_target − (V_target − V_valley)·a,
+    a = exp(−t_off/τ).
+
+    v_peak: boot voltage at the start of the on-time [V]; v_target: recharge target [V];
+    q_at_target: charge per on-time at V_target [C]; dq_dv: its slope [F]; c: hold
+    capacitance [F]; r_charge: charge-path resistance [Ohm]; t_off: off-time [s]; c_gate:
+    the gate's incremental capacitance, which shares the on-time's droop [F].
+    """
+    valley = v_peak - (q_at_target + dq_dv * (v_peak - v_target)) / (c + c_gate)
+    tau = r_charge * c
+    x = math.inf if tau == 0 else _ratio(t_off, tau)
+    a = math.exp(-x)
+    return SustainedBoot(peak=v_target - (v_target - valley) * a, valley=valley)
+
+
+def sustained_boot_voltage_linear(
+    v_target: Volts,
+    q_at_target: Coulombs,
+    dq_dv: Farads,
+    c: Farads,
+    r_charge: Ohms,
+    t_off: Seconds,
+    c_gate: Farads = 0.0,
+) -> SustainedBoot:
+    """The fixed point of :func:`boot_cycle`: the steady state of a charge per cycle that
+    grows with the boot voltage.
+
+    With the deficit u = V_target − V_peak and C' = C + C_g (the gate shares the droop; the
+    recharge time constant is R·C), the cycle map gives u = a·(u + (Q_t − k·u)/C'), so
+    u = a·Q_t/(C'·(1 − a + a·k/C')) and the valley is V_target − u − (Q_t − k·u)/C'.
+    With k = 0 and C_g = 0 this is :func:`sustained_boot_voltage`.
+    A charge that falls with the voltage (k > 0) lets the supply settle higher than the
+    fixed-charge formula says, and always at a positive voltage when Q vanishes at 0 V.
+
+    Arguments as for :func:`boot_cycle` (k = dq_dv).
+    """
+    if q_at_target == 0 and dq_dv == 0:
+        return SustainedBoot(peak=v_target, valley=v_target)
+    tau = r_charge * c
+    x = math.inf if tau == 0 else _ratio(t_off, tau)
+    one_minus_a = -math.expm1(-x)
+    a = 1.0 - one_minus_a
+    shared = c + c_gate
+    denominator = shared * (one_minus_a + a * _ratio(dq_dv, shared))
+    if _ratio(denominator, shared) <= 0:
+        gone = -_infinite(v_target)
+        return SustainedBoot(peak=gone, valley=gone)
+    deficit = a * q_at_target / denominator
+    valley = v_target - deficit - (q_at_target - dq_dv * deficit) / shared
+    return SustainedBoot(peak=v_target - deficit, valley=valley)
+
+
+def min_off_time_linear(
+    v_target: Volts,
+    v_boot_min: Volts,
+    q_at_target: Coulombs,
+    dq_dv: Farads,
+    c: Farads,
+    r_charge: Ohms,
+    c_gate: Farads = 0.0,
+) -> Seconds:
+    """Shortest off-time whose steady valley (:func:`sustained_boot_voltage_linear`) stays
+    at ``v_boot_min``; 0 with no charge-path resistance, infinite when even a full recharge
+    each cycle falls short. Found by bisection (the valley rises with the off-time).
+
+    Arguments as for :func:`sustained_boot_voltage_linear`; v_boot_min [V].
+    """
+    tau = float(r_charge * c / _unit_of(r_charge * c))
+    full = v_target - (q_at_target) / (c + c_gate)
+    if full < v_boot_min:
+        return _infinite(r_charge * c)
+    if tau <= 0:
+        return _zero_like(r_charge * c)
+    unit = _unit_of(r_charge * c)
+
+    def valley(t: float) -> float:
+        return float(
+            _magnitude_of(
+                sustained_boot_voltage_linear(
+                    v_target, q_at_target, dq_dv, c, r_charge, t * unit, c_gate
+                ).valley
+                - v_boot_min
+            )
+        )
+
+    lo, hi = 0.0, tau
+    while valley(hi) < 0:
+        hi *= 2.0
+    for _ in range(80):
+        mid = (lo + hi) / 2
+        if valley(mid) < 0:
+            lo = mid
+        else:
+            hi = mid
+    return hi * unit
+
+
+def max_charge_resistance(
+    v_target: Volts,
+    v_boot_min: Volts,
+    q_at_target: Coulombs,
+    dq_dv: Farads,
+    c: Farads,
+    t_off: Seconds,
+    c_gate: Farads = 0.0,
+) -> Ohms:
+    """Largest charge-path resistance that still sustains ``v_boot_min`` at ``t_off``: the
+    valley falls as R grows, so it is found by bisection; infinite when no resistance is
+    too large (the charge per cycle is nothing), 0 when even 0 Ω falls short."""
+    volt = _unit_of(v_target)
+    ohm = _unit_of(t_off) / _unit_of(c)
+
+    def margin(r: float) -> float:
+        return _magnitude_of(
+            (
+                sustained_boot_voltage_linear(
+                    v_target, q_at_target, dq_dv, c, r * ohm, t_off, c_gate
+                ).valley
+                - v_boot_min
+            )
+            / volt
+        )
+
+    if margin(0.0) < 0:
+        return 0.0 * ohm
+    hi = 1.0
+    while margin(hi) >= 0:
+        hi *= 2.0
+        if hi > 1e15:
+            return math.inf * ohm
+    lo = 0.0
+    for _ in range(80):
+        mid = (lo + hi) / 2
+        if margin(mid) >= 0:
+            lo = mid
+        else:
+            hi = mid
+    return lo * ohm
+
+
+def _magnitude_of(value: float) -> float:
+    """A plain float from a float or a (dimensionless or voltage) pint quantity."""
+    if hasattr(value, "magnitude"):
+        return float(value.magnitude)
+    return float(value)
+
+
+def hold_time_linear(
+    c: Farads,
+    v_start: Volts,
+    v_min: Volts,
+    qg: Coulombs,
+    i_at_start: Amps,
+    di_dv: float = 0.0,
+) -> Seconds:
+    """How long the supply holds the switch on when its drain falls with the voltage.
+
+    At turn-on the gate takes Q_g: V_1 = V_0 − Q_g/C. Then C·dV/dt = −I(V) with a drain
+    that is linear in the boot voltage, I(V) = I_0 + g·(V − V_0) (resistors to the source
+    draw V/R, a level shifter's base path (V_bus + V − V_EB − V_sat)/R): I decays as
+    exp(−g·t/C), so the boot voltage reaches V_min after t = (C/g)·ln(I(V_1)/I(V_min)).
+    With g = 0 this is (C·(V_0 − V_min) − Q_g)/I_0, i.e. :func:`hold_time`.
+
+    c: hold capacitance (with the gate's, which shares it) [F]; v_start: V_0 [V];
+    v_min: lowest acceptable voltage [V]; qg: gate charge [C]; i_at_start: drain at V_0
+    [A]; di_dv: its slope with the boot voltage [A/V].
+    """
+    spare = c * (v_start - v_min) - qg
+    if spare <= 0:
+        return _zero_like(spare) / _unit_of(i_at_start)
+    if di_dv == 0 or _ratio(di_dv * (v_start - v_min), i_at_start) < 1e-9:
+        return hold_time(c, v_start - v_min, qg, i_at_start)
+    v_1 = v_start - qg / c
+    i_1 = i_at_start + di_dv * (v_1 - v_start)
+    i_min = i_at_start + di_dv * (v_min - v_start)
+    if _ratio(i_min, i_at_start) <= 0:
+        return _infinite(c * v_start, i_at_start)
+    return (c / di_dv) * math.log(_ratio(i_1, i_min))

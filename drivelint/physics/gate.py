@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 from drivelint.physics._units import Amps, Coulombs, Farads, Ohms, Ratio, Volts, _ratio
 
 
@@ -109,3 +111,127 @@ def level_shift_margin(i_sink: Amps, i_pullup: Amps) -> Ratio:
     i_sink: current the level shifter can sink [A]; i_pullup: pull-up current [A].
     """
     return _ratio(i_sink, i_pullup)
+
+
+def gate_charge_at_drive(
+    qg_rated: Coulombs,
+    vgs_rated: Volts,
+    v_drive: Volts,
+    qgd: Coulombs | None = None,
+) -> Coulombs:
+    """The gate charge at ``v_drive`` from a datasheet's total Q_g at ``vgs_rated`` and Q_gd.
+
+    The gate-charge curve of a power MOSFET rises with slope C_gs below the Miller plateau,
+    stays on the plateau while Q_gd is delivered, then rises with slope C_iss at low V_DS.
+    Taking the two slopes as equal (C) makes the curve above the plateau
+    Q(V) = Q_gd + C·V with C = (Q_g − Q_gd)/V_GS,rated, which passes through the rated point
+    and needs no more than the two charges a datasheet always gives. Without Q_gd the
+    charge is scaled in proportion to the drive, Q(V) = Q_g·V/V_GS,rated. Valid for drives
+    beyond the plateau (a switch driven below it does not fully turn on).
+
+    qg_rated: total gate charge [C] at vgs_rated [V]; v_drive: drive level [V];
+    qgd: gate–drain (Miller) charge [C], None when unknown.
+    """
+    if qgd is None:
+        return qg_rated * _ratio(v_drive, vgs_rated)
+    return qgd + (qg_rated - qgd) * _ratio(v_drive, vgs_rated)
+
+
+def gate_capacitance_above_plateau(
+    qg_rated: Coulombs, vgs_rated: Volts, qgd: Coulombs | None = None
+) -> Farads:
+    """Slope dQ/dV of the gate-charge curve beyond the plateau: (Q_g − Q_gd)/V_GS,rated.
+
+    The same equal-slopes curve as :func:`gate_charge_at_drive`; without Q_gd, Q_g/V_GS.
+    qg_rated: total gate charge [C] at vgs_rated [V]; qgd: Miller charge [C] or None.
+    """
+    return (qg_rated - (qgd if qgd is not None else 0.0 * qg_rated)) / vgs_rated
+
+
+def vdmos_gate_drain_capacitance(v_gd: Volts, cgd_min: Farads, cgd_max: Farads, a: float) -> Farads:
+    """Gate–drain capacitance of the ngspice VDMOS model at V_GD = ``v_gd``.
+
+    With s = (C_max − C_min)/(1 + π/2) and y = C_max − s: C = s·tanh(a·V) + y for V > 0 and
+    C = s·atan(a·V) + y for V ≤ 0, so C tends to C_max with the gate well above the drain
+    and to C_min with the drain far above the gate (ngspice VDMOS model, the capacitance
+    function of its device support code; parameters CGDMIN, CGDMAX, A).
+
+    v_gd: gate–drain voltage [V]; cgd_min, cgd_max: [F]; a: shape parameter [1/V].
+    """
+    s = (cgd_max - cgd_min) / (1.0 + math.pi / 2.0)
+    y = cgd_max - s
+    x = a * v_gd
+    if _magnitude(x) > 0:
+        return s * math.tanh(_magnitude(x)) + y
+    return s * math.atan(_magnitude(x)) + y
+
+
+def vdmos_gate_drain_charge(v_gd: Volts, cgd_min: Farads, cgd_max: Farads, a: float) -> Coulombs:
+    """Charge on the VDMOS gate–drain capacitance at V_GD = ``v_gd`` (zero at 0 V).
+
+    The integral of :func:`vdmos_gate_drain_capacitance`: y·V + s·ln(cosh(a·V))/a for V > 0,
+    y·V + s·(V·atan(a·V) − ln(1 + (a·V)²)/(2a)) for V ≤ 0.
+    v_gd: gate–drain voltage [V]; cgd_min, cgd_max: [F]; a: shape parameter [1/V].
+    """
+    s = (cgd_max - cgd_min) / (1.0 + math.pi / 2.0)
+    y = cgd_max - s
+    x = _magnitude(a * v_gd)
+    if x > 0:
+        # ln(cosh(x)) = x − ln 2 + ln(1 + exp(−2x)), which does not overflow
+        return y * v_gd + s * v_gd * (x - math.log(2.0) + math.log1p(math.exp(-2.0 * x))) / x
+    if x == 0:
+        return y * v_gd
+    return y * v_gd + s * v_gd * (math.atan(x) - math.log1p(x * x) / (2.0 * x))
+
+
+def vdmos_gate_charge(
+    cgs: Farads,
+    cgd_min: Farads,
+    cgd_max: Farads,
+    a: float,
+    v_drive: Volts,
+    v_switched: Volts,
+) -> Coulombs:
+    """Charge the gate of a VDMOS model takes to turn on while its drain–source voltage falls
+    from ``v_switched`` to zero: C_gs·V_drive + Q_gd(V_drive) − Q_gd(−V_switched).
+
+    V_GD moves from −V_switched (off, blocking) to +V_drive (on, V_DS ≈ 0); the gate–drain
+    charge is the difference of :func:`vdmos_gate_drain_charge` at the two ends.
+    cgs, cgd_min, cgd_max: model capacitances [F]; a: [1/V]; v_drive: final V_GS [V];
+    v_switched: V_DS before turn-on [V].
+    """
+    q_gd = vdmos_gate_drain_charge(v_drive, cgd_min, cgd_max, a) - vdmos_gate_drain_charge(
+        -v_switched, cgd_min, cgd_max, a
+    )
+    return cgs * v_drive + q_gd
+
+
+def shared_droop(
+    v_start: Volts,
+    c_hold: Farads,
+    q_gate: Coulombs,
+    c_gate: Farads,
+    q_other: Coulombs = 0.0,
+) -> Volts:
+    """Droop of a hold capacitor that charges a gate (and feeds other loads) in one on-time.
+
+    The capacitor at V_0 gives the gate its charge Q_g(V) while the gate rises to where the
+    two meet; near the end of the charge curve Q_g(V) = Q_g(V_0) − C_g·(V_0 − V), so
+    C·(V_0 − V) = Q_g(V_0) − C_g·(V_0 − V) + Q_other gives ΔV = (Q_g(V_0) + Q_other)/(C + C_g):
+    charge sharing between the hold capacitor and the gate, which the plain Q/C of the
+    sizing formula leaves out. The droop never exceeds V_0 (the gate cannot take more than
+    the capacitor holds).
+
+    v_start: hold voltage before turn-on [V]; c_hold: hold capacitance [F]; q_gate: gate
+    charge at V_0 [C]; c_gate: slope of the gate-charge curve near V_0 [F]; q_other: charge
+    drawn by everything else during the on-time [C].
+    """
+    droop = (q_gate + q_other) / (c_hold + c_gate)
+    return min(droop, v_start)
+
+
+def _magnitude(value: float) -> float:
+    """A plain float from a float or a dimensionless pint quantity."""
+    if hasattr(value, "units") and hasattr(value, "to"):
+        return float(value.to("dimensionless").magnitude)
+    return float(value)

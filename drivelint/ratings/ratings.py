@@ -18,8 +18,6 @@ from drivelint.ratings.values import Value
 DEFAULTS: Mapping[str, tuple[float, str]] = {
     # Power MOSFETs are typically rated V_GS(max) = ±20 V (common practice).
     "vgs_max": (20.0, "default: typical power MOSFET rating (common practice)"),
-    # R_DS(on) is usually specified at V_GS = 10 V (common practice).
-    "vgs_on": (10.0, "default: V_GS at which R_DS(on) is usually rated (common practice)"),
     # A silicon junction conducts about 0.7 V (textbook).
     "vf": (0.7, "default: silicon junction forward drop (common practice)"),
 }

@@ -15,7 +15,13 @@ def _waveform_text(stage: DriveStage) -> str:
     control = stage.control
     if control is None:
         return "none recognised"
-    head = control.source or "no source found"
+    head = control.source or (
+        "tied to a fixed level" if control.kind == "tied" else "no source found"
+    )
+    if control.kind == "modulator":
+        head = f"modulator {control.source}" + (
+            f" ({', '.join(control.inputs)})" if control.inputs else ""
+        )
     if control.waveform is None:
         return head + (" (inverting)" if control.inverting else "")
     wave = control.waveform
@@ -41,7 +47,10 @@ def stage_text(stage: DriveStage) -> str:
     lines = [f"{head}: floating, {stage.mode}", f"    why:      {stage.floating_reason}"]
     bus = stage.bus
     if bus is not None:
-        lines.append(f"    bus:      {bus.net} = {format_si(bus.volts or 0, 'V')}")
+        level = format_si(bus.volts or 0, "V")
+        if bus.low is not None:
+            level = f"{format_si(bus.low, 'V')} to {level} ({bus.source})"
+        lines.append(f"    bus:      {bus.net} = {level}")
     parts = [supply.kind]
     if supply.boot_net:
         parts.append(f"boot net {supply.boot_net}")
@@ -81,6 +90,7 @@ def stage_text(stage: DriveStage) -> str:
     if not stage.refresh:
         lines.append("    refresh:  none recognised")
     lines.append(f"    control:  {_waveform_text(stage)}")
+    lines.extend(f"    note:     {note}" for note in stage.notes)
     return "\n".join(lines)
 
 

@@ -21,7 +21,7 @@ PIN_NAMES: Mapping[str, frozenset[str]] = {
         {"ho", "gh", "hg", "dh", "ugate", "hdrv", "tg", "hout", "gate_h", "outh"}
     ),
     "low_out": frozenset({"lo", "gl", "lg", "dl", "lgate", "ldrv", "bg", "lout", "gate_l", "outl"}),
-    "high_in": frozenset({"hin", "inh", "hi", "in_h", "pwmh", "ina", "in"}),
+    "high_in": frozenset({"hin", "inh", "hi", "in_h", "pwmh", "ina", "in", "pwm"}),
     "low_in": frozenset({"lin", "inl", "li", "in_l", "pwml", "inb"}),
     "supply": frozenset({"vcc", "vdd", "vin", "vcc1", "pvcc", "vdrv"}),
     "ground": frozenset({"com", "gnd", "vss", "pgnd", "agnd", "sgnd"}),

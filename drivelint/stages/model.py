@@ -17,12 +17,30 @@ SUPPLY_KINDS = ("bootstrap", "isolated", "charge-pump", "none")
 
 @dataclass(frozen=True, slots=True)
 class Rail:
+    """A net held at a known voltage to ground.
+
+    ``volts`` is the highest voltage it reaches (what stress checks use); ``low`` the lowest
+    once it is up (what headroom checks use). They differ for a supply given as PULSE or
+    PWL (a surge, a dip, a soft start); ``low`` is None when it equals ``volts``.
+    ``source`` names the independent source that sets a varying supply.
+    """
+
     __reduce__ = positional_reduce
     net: str
     volts: float | None
+    low: float | None = None
+    source: str | None = None
+
+    @property
+    def lowest(self) -> float | None:
+        return self.volts if self.low is None else self.low
 
     def to_json(self) -> dict[str, Any]:
-        return {"net": self.net, "volts": self.volts}
+        out: dict[str, Any] = {"net": self.net, "volts": self.volts}
+        if self.low is not None:
+            out["low"] = self.low
+            out["source"] = self.source
+        return out
 
 
 @dataclass(frozen=True, slots=True)
@@ -40,6 +58,11 @@ class Supply:
     series_resistance: float | None = None
     aux: Rail | None = None
     source: str | None = None  # isolated: the source or winding; charge-pump: the pump capacitor
+    # charge-pump: the feed diode and the net it draws from, the clock net and its source
+    # (with the clock's amplitude), and whether the hold (reservoir) rides on the source
+    feed_diode: str | None = None
+    clock: Rail | None = None
+    riding: bool = False
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -52,6 +75,15 @@ class Supply:
             "series_resistors": list(self.series_resistors),
             "aux": self.aux.to_json() if self.aux else None,
             "source": self.source,
+            **(
+                {
+                    "feed_diode": self.feed_diode,
+                    "clock": self.clock.to_json() if self.clock else None,
+                    "riding": self.riding,
+                }
+                if self.kind == "charge-pump"
+                else {}
+            ),
         }
 
 
@@ -86,20 +118,27 @@ class Clamp:
 
 
 @dataclass(frozen=True, slots=True)
-class Refresh:
-    __reduce__ = positional_reduce
-    kind: str  # "low-side switch", "freewheel diode", "load", "inductor-load"
-    devices: tuple[str, ...]
-    resistance: float | None = None
-
-
-@dataclass(frozen=True, slots=True)
 class Control:
+    """Where the switch's command comes from.
+
+    ``kind`` says how it was found: "source" (an independent source, its waveform the
+    command), "tied" (the input is tied to a fixed level), or "modulator" (a behavioural
+    comparator or controlled source combines several signals, e.g. a ramp against an error
+    amplifier: the duty is the loop's, not in the netlist; ``waveform`` is then the
+    periodic input that sets the frequency, if any, and ``inputs`` the sources seen).
+    """
+
     __reduce__ = positional_reduce
     source: str | None
     inverting: bool
     waveform: Waveform | None
     path: tuple[str, ...] = ()
+    kind: str = "source"
+    inputs: tuple[str, ...] = ()
+
+    @property
+    def modulated(self) -> bool:
+        return self.kind == "modulator"
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -107,7 +146,19 @@ class Control:
             "inverting": self.inverting,
             "waveform": self.waveform.to_json() if self.waveform else None,
             "path": list(self.path),
+            "kind": self.kind,
+            "inputs": list(self.inputs),
         }
+
+
+@dataclass(frozen=True, slots=True)
+class Refresh:
+    __reduce__ = positional_reduce
+    kind: str  # "low-side switch", "freewheel diode", "load", "inductor-load"
+    devices: tuple[str, ...]
+    resistance: float | None = None
+    reference: str | None = None  # the net it pulls the switch node to (ground, a rail)
+    command: Control | None = None  # a low-side switch's own command, where it is traced
 
 
 @dataclass(frozen=True, slots=True)
@@ -148,6 +199,7 @@ class DriveStage:
     control: Control | None = None
     driver: DriverInfo | None = None
     related: tuple[str, ...] = ()  # every device recognised as part of the stage
+    notes: tuple[str, ...] = ()  # what recognition assumed, in words (wires, linear use, …)
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -167,11 +219,18 @@ class DriveStage:
             ],
             "clamps": [c.to_json() for c in self.clamps],
             "refresh": [
-                {"kind": r.kind, "devices": list(r.devices), "resistance": _finite(r.resistance)}
+                {
+                    "kind": r.kind,
+                    "devices": list(r.devices),
+                    "resistance": _finite(r.resistance),
+                    "reference": r.reference,
+                    "command": r.command.to_json() if r.command else None,
+                }
                 for r in self.refresh
             ],
             "control": self.control.to_json() if self.control else None,
             "driver": self.driver.to_json() if self.driver else None,
+            "notes": list(self.notes),
             "path": self.span.path,
             "line": self.span.line,
         }

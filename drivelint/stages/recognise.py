@@ -9,14 +9,15 @@ cannot see, and ``drivelint stages`` shows the user what was and was not recogni
 
 from __future__ import annotations
 
-import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
 from drivelint._gc import paused_gc
 from drivelint.circuit.model import GROUND, Circuit, Device
+from drivelint.netlist.waveforms import Dc, Pulse, Pwl, Waveform
 from drivelint.ratings.parts import PartsLibrary
+from drivelint.stages import behaviour
 from drivelint.stages.drivers import find_drivers
 from drivelint.stages.model import (
     Clamp,
@@ -28,10 +29,12 @@ from drivelint.stages.model import (
     Refresh,
     Supply,
 )
+from drivelint.stages.wires import Collapsed, collapse_wires
 
 MAX_PATH_DEVICES = 4  # devices in one pull-up or pull-down path
 MAX_CONTROL_HOPS = 8  # devices between a level shifter's input and its source
 MAX_SERIES_TO_RAIL = 2  # series R/L between a drain or diode and its rail
+MAX_COMBINE_DEPTH = 3  # behavioural sources that combine signals, nested
 # A diode between gate and source with a breakdown this low is a Zener/TVS clamp; rectifier
 # and fast diodes are rated for the bus, far above any gate rating (common practice).
 ZENER_MAX_BV = 60.0
@@ -46,7 +49,32 @@ _CONDUCTION: Mapping[str, tuple[str, str]] = {
     "d": ("a", "k"),
 }
 _CONTROL_PIN = {"npn": "b", "pnp": "b", "nmos": "g", "pmos": "g"}
-_V_REFERENCE = re.compile(r"\bv\(\s*([^,\s)]+)\s*(?:,\s*([^\s)]+)\s*)?\)", re.IGNORECASE)
+# A command held at a DC level counts as "on" above this (logic inputs read below about
+# 0.8 V as low: common practice); a DC waveform has no edges to take a threshold from.
+DC_LOGIC_THRESHOLD = 1.0
+
+
+def supply_range(wave: Waveform) -> tuple[float, float]:
+    """(lowest once up, highest) of a supply given as a waveform.
+
+    The highest value is what stress checks use. The lowest is taken after the start-up:
+    an initial rise (a soft start from 0 V, a ramp up to the operating level) is skipped,
+    so a PWL that ramps up and then surges or dips gives the dip, not the 0 V it started
+    from. A periodic waveform's low level counts as it is.
+    """
+    if isinstance(wave, Pwl):
+        values = [v for _, v in wave.points]
+    elif isinstance(wave, Pulse):
+        if wave.period() is not None:
+            return wave.low(), wave.high()
+        peak = wave.high() if wave.v2 >= wave.v1 else wave.low()
+        values = [wave.v1, peak] + ([wave.v1] if wave.pw != float("inf") else [])
+    else:
+        return wave.low(), wave.high()
+    end = 0
+    while end + 1 < len(values) and values[end + 1] >= values[end]:
+        end += 1
+    return min(values[end:]), max(values)
 
 
 @dataclass(frozen=True, slots=True)
@@ -88,6 +116,33 @@ class _View:
         )
         self.positive_rails = frozenset(n for n, v in self.rails.items() if v > 0)
         self.negative_rails = frozenset(n for n, v in self.rails.items() if v < 0)
+        self.varying = self._varying_supplies()
+
+    def _varying_supplies(self) -> dict[str, Rail]:
+        """Nets set by an independent source that is not DC (PULSE, PWL, …) against ground
+        or a DC rail: candidates for a bus or an auxiliary rail given as a surge or a soft
+        start. Used only where the structure says "supply" (a drain, a diode's anode)."""
+        out: dict[str, Rail] = {}
+        for device in self.devices.values():
+            wave = device.waveform
+            if device.kind != "vsource" or wave is None or wave.kind == "dc":
+                continue
+            plus, minus = device.net("p"), device.net("n")
+            if plus is None or minus is None or plus in self.rails:
+                continue
+            offset = self.rails.get(minus)
+            if offset is None:
+                continue
+            low, high = supply_range(wave)
+            out[plus] = Rail(plus, high + offset, low + offset, device.name)
+        return out
+
+    def supply_rail(self, net: str) -> Rail | None:
+        """The supply on ``net``: a DC rail, or a varying supply source; None otherwise."""
+        volts = self.rails.get(net)
+        if volts is not None:
+            return Rail(net, volts)
+        return self.varying.get(net)
 
     def at(self, net: str) -> list[tuple[str, str]]:
         """(device or driver name, pin) for each terminal on ``net``."""
@@ -144,8 +199,9 @@ def _other_net(device: Device, net: str) -> str | None:
 
 
 class _StageBuilder:
-    def __init__(self, view: _View, switch: Device) -> None:
+    def __init__(self, view: _View, switch: Device, collapsed: Collapsed) -> None:
         self.view = view
+        self.collapsed = collapsed
         self.switch = switch
         self.gate = switch.net("g") or ""
         self.source = switch.net("s") or ""
@@ -161,9 +217,9 @@ class _StageBuilder:
         seen = {self.drain}
         while frontier:
             net, steps = frontier.pop(0)
-            volts = view.rails.get(net)
-            if volts is not None and net != GROUND:
-                return Rail(net, volts) if volts > 0 else None
+            rail = view.supply_rail(net)
+            if rail is not None and net != GROUND:
+                return rail if rail.volts is not None and rail.volts > 0 else None
             if steps >= MAX_SERIES_TO_RAIL:
                 continue
             for name, _ in view.at(net):
@@ -191,6 +247,12 @@ class _StageBuilder:
             return False, "source at ground (low-side switch)", None
         if self.source in rails:
             return False, f"source held at DC rail '{self.source}' ({rails[self.source]:g} V)", None
+        if self.source in self.view.varying:
+            return (
+                False,
+                f"source held by the supply source {self.view.varying[self.source].source}",
+                None,
+            )
         bus = self.bus()
         if bus is None:
             return (
@@ -204,11 +266,14 @@ class _StageBuilder:
             )
         loads = self.source_loads()
         what = ", ".join(loads) if loads else "nothing else recognised on it"
+        level = f"{bus.volts:g} V"
+        if bus.low is not None:
+            level = f"{bus.low:g} to {bus.volts:g} V from {bus.source}"
         return (
             True,
             (
                 f"source '{self.source}' is neither ground nor a DC rail; the drain at "
-                f"'{bus.net}' ({bus.volts:g} V) pulls it up when {name} conducts ({what})"
+                f"'{bus.net}' ({level}) pulls it up when {name} conducts ({what})"
             ),
             bus,
         )
@@ -292,14 +357,18 @@ class _StageBuilder:
             supply = self.classify_boot(boot, device)
             if supply.kind != "none":
                 return supply
-        return Supply("none")
+        behavioural = self.behavioural_driver()
+        if behavioural is not None:
+            return behavioural
+        return self.pump_at_gate() or Supply("none")
 
     def classify_boot(self, boot: str, hold: str | None) -> Supply:
         view = self.view
         hold_device = view.device(hold) if hold else None
         if hold_device is not None and hold_device.kind == "vsource":
-            volts = hold_device.waveform.dc_level() if hold_device.waveform else None
-            return Supply("isolated", boot, None, source=hold, aux=Rail(boot, volts))
+            return Supply(
+                "isolated", boot, None, source=hold, aux=self.floating_level(hold_device, boot)
+            )
         capacitor = hold if hold_device is not None and hold_device.kind == "capacitor" else None
         # A source between boot net and switch node, not found as the hold element.
         for name, _ in view.at(boot):
@@ -309,16 +378,17 @@ class _StageBuilder:
                 and device.kind == "vsource"
                 and {device.net("p"), device.net("n")} == {boot, self.source}
             ):
-                volts = device.waveform.dc_level() if device.waveform else None
-                return Supply("isolated", boot, capacitor, source=name, aux=Rail(boot, volts))
+                return Supply(
+                    "isolated", boot, capacitor, source=name, aux=self.floating_level(device, boot)
+                )
         winding = self.winding(boot)
         if winding is not None:
             return Supply("isolated", boot, capacitor, source=winding)
         found = self.boot_diode(boot)
         if found is not None:
             diode, orientation, resistors, far = found
-            aux_volts = view.rails.get(far)
-            if aux_volts is not None:
+            aux = view.supply_rail(far)
+            if aux is not None:
                 ohms = sum((view.devices[r].value or 0.0) for r in resistors) if resistors else None
                 return Supply(
                     "bootstrap",
@@ -328,25 +398,29 @@ class _StageBuilder:
                     orientation,
                     tuple(resistors),
                     ohms,
-                    Rail(far, aux_volts),
+                    aux,
                 )
-            pump = self.pump_capacitor(far, diode)
+            pump = self.pump(far, diode)
             if pump is not None and orientation == "forward":
-                return Supply(
-                    "charge-pump",
-                    boot,
-                    capacitor,
-                    diode,
-                    orientation,
-                    tuple(resistors),
-                    None,
-                    None,
-                    source=pump,
-                )
+                return self.pump_supply(boot, capacitor, diode, resistors, pump, riding=True)
         if capacitor is not None and self.pull_paths({boot}, up=True):
             # A hold capacitor with no way to charge it: still a bootstrap, with no diode.
             return Supply("bootstrap", boot, capacitor)
         return Supply("none")
+
+    def floating_level(self, device: Device, boot: str) -> Rail:
+        """The level of a source between the boot net and the switch node: its DC value, a
+        supply waveform's range, or — for a periodic command riding on the switch node (an
+        ideal floating driver) — its high level."""
+        wave = device.waveform
+        if wave is None:
+            return Rail(boot, None)
+        if wave.period() is not None:
+            return Rail(boot, wave.high())
+        if wave.kind == "dc":
+            return Rail(boot, wave.dc_level())
+        low, high = supply_range(wave)
+        return Rail(boot, high, low if low != high else None, device.name)
 
     def boot_diode(self, boot: str) -> tuple[str, str, list[str], str] | None:
         """(diode, orientation, series resistors, far net) of the boot net's charging path."""
@@ -373,7 +447,7 @@ class _StageBuilder:
 
     def to_rail(self, net: str, exclude: set[str]) -> tuple[str, list[str]]:
         """The rail reached from ``net`` through at most one series resistor (else ``net``)."""
-        if self.view.is_rail(net):
+        if self.view.supply_rail(net) is not None:
             return net, []
         for name, _ in self.view.at(net):
             device = self.view.device(name)
@@ -382,24 +456,190 @@ class _StageBuilder:
                 if (
                     far is not None
                     and far not in exclude
-                    and self.view.is_rail(far)
+                    and self.view.supply_rail(far) is not None
                     and far != GROUND
                 ):
                     return far, [name]
         return net, []
 
-    def pump_capacitor(self, net: str, diode: str) -> str | None:
-        """A capacitor from the diode's anode node to a clock node, fed by another diode."""
+    def pump(self, net: str, diode: str) -> tuple[str, str, str, str] | None:
+        """(pump capacitor, feed diode, feed net, clock net) of a diode-capacitor pump whose
+        middle node is ``net``: a capacitor from ``net`` to a clock node, and another diode
+        feeding ``net`` from a rail, a supply or the switch's source."""
         view = self.view
-        fed = any(view.kind(n) == "diode" and n != diode and pin == "k" for n, pin in view.at(net))
-        if not fed:
+        feed = next(
+            (
+                (n, view.devices[n])
+                for n, pin in view.at(net)
+                if view.kind(n) == "diode" and n != diode and pin == "k"
+            ),
+            None,
+        )
+        if feed is None:
+            return None
+        feed_net = feed[1].net("a")
+        if feed_net is None:
             return None
         for name, _ in view.at(net):
             device = view.device(name)
             if device is not None and device.kind == "capacitor":
                 far = _other_net(device, net)
                 if far is not None and far not in (self.source, GROUND) and not view.is_rail(far):
-                    return name
+                    return name, feed[0], feed_net, far
+        return None
+
+    def pump_supply(
+        self,
+        boot: str,
+        capacitor: str | None,
+        diode: str,
+        resistors: list[str],
+        pump: tuple[str, str, str, str],
+        riding: bool,
+    ) -> Supply:
+        """A charge-pump supply: the feed rail (or the source) and the clock's amplitude."""
+        pump_cap, feed_diode, feed_net, clock_net = pump
+        view = self.view
+        feed = view.supply_rail(feed_net)
+        if feed is None and feed_net == self.source:
+            feed = Rail(feed_net, None)
+        clock = None
+        traced = self.trace_source(clock_net, inverting=False, path=[pump_cap])
+        wave = traced.waveform
+        if wave is not None and traced.source is not None and wave.period() is not None:
+            clock = Rail(clock_net, wave.high() - wave.low(), None, traced.source)
+        return Supply(
+            "charge-pump",
+            boot,
+            capacitor,
+            diode,
+            "forward",
+            tuple(resistors),
+            None,
+            feed,
+            source=pump_cap,
+            feed_diode=feed_diode,
+            clock=clock,
+            riding=riding,
+        )
+
+    def behavioural_driver(self) -> Supply | None:
+        """A behavioural voltage source that drives the gate (directly or through series
+        resistors) and follows the switch node: an ideal floating driver.
+
+        Either written against the switch node (``B1 hd sw V = …``) or against ground with
+        the switch node's voltage added (``B1 hd 0 V = V(sw) + …``, checked by evaluating
+        it with the node 1 V apart: the output must move with it). Its drive level is the
+        swing of its value as its other inputs go between their commands' low and high
+        levels; None when the expression cannot be evaluated.
+        """
+        view = self.view
+        circuit = view.circuit
+        starts = [self.gate]
+        for name, _ in view.at(self.gate):
+            device = view.device(name)
+            if device is not None and device.kind == "resistor":
+                far = _other_net(device, self.gate)
+                if far and far not in (self.source, GROUND) and not view.is_rail(far):
+                    starts.append(far)
+        for net in starts:
+            for name, pin in view.at(net):
+                device = view.device(name)
+                if device is None or pin != "p" or device.kind != "behavioral":
+                    continue
+                if not behaviour.is_voltage_source(circuit, device):
+                    continue
+                reference = device.net("n")
+                inputs = [n for n in behaviour.referenced_nets(circuit, device) if n != self.source]
+                if reference != self.source:
+                    if self.source not in behaviour.referenced_nets(circuit, device):
+                        continue
+                    if reference != GROUND and not view.is_rail(reference or ""):
+                        continue
+                levels = self.input_levels(inputs)
+                swing = self.behavioural_swing(device, inputs, levels)
+                if reference != self.source and swing is not None and not swing[1]:
+                    continue  # written against ground but does not move with the node
+                amplitude = swing[0] if swing is not None else None
+                return Supply("isolated", net, None, source=name, aux=Rail(net, amplitude))
+        return None
+
+    def input_levels(self, nets: list[str]) -> dict[str, tuple[float, float]]:
+        """(low, high) of each net's command, where a source for it is found."""
+        out: dict[str, tuple[float, float]] = {}
+        for net in nets:
+            if net in self.view.rails:
+                out[net] = (self.view.rails[net], self.view.rails[net])
+                continue
+            traced = self.trace_source(net, inverting=False, path=[])
+            if traced.waveform is not None:
+                out[net] = (traced.waveform.low(), traced.waveform.high())
+        return out
+
+    def behavioural_swing(
+        self, device: Device, inputs: list[str], levels: dict[str, tuple[float, float]]
+    ) -> tuple[float, bool] | None:
+        """(drive swing, follows the node) of a behavioural driver; None if not computable."""
+        if any(n not in levels for n in inputs):
+            return None
+        circuit = self.view.circuit
+        reference = device.net("n")
+        node = {} if reference == self.source else {self.source: 0.0}
+        low = {**node, **{n: levels[n][0] for n in inputs}}
+        high = {**node, **{n: levels[n][1] for n in inputs}}
+        v_low, v_high = (
+            behaviour.value(circuit, device, low),
+            behaviour.value(circuit, device, high),
+        )
+        if v_low is None or v_high is None:
+            return None
+        follows = True
+        if reference != self.source:
+            moved = behaviour.value(circuit, device, {**high, self.source: 1.0})
+            follows = moved is not None and abs(moved - v_high - 1.0) < 1e-6
+        return abs(v_high - v_low), follows
+
+    def pump_at_gate(self) -> Supply | None:
+        """A charge pump whose output the gate is pulled up from, with its reservoir (if any)
+        to ground or a rail rather than riding on the source."""
+        view = self.view
+        nets = {self.gate}
+        frontier = [self.gate]
+        for _ in range(MAX_PATH_DEVICES):
+            following = []
+            for net in frontier:
+                for name, _ in view.at(net):
+                    device = view.device(name)
+                    if device is None or device is self.switch:
+                        continue
+                    if device.kind in ("resistor", "bjt", "mosfet", "switch"):
+                        for far in device.nets:
+                            if far not in nets and far not in (self.source, GROUND):
+                                if not view.is_rail(far):
+                                    nets.add(far)
+                                    following.append(far)
+            frontier = following
+        for net in sorted(nets - {self.gate}):
+            for name, pin in view.at(net):
+                device = view.device(name)
+                if device is None or device.kind != "diode" or pin != "k":
+                    continue
+                anode = device.net("a")
+                if anode is None:
+                    continue
+                pump = self.pump(anode, name)
+                if pump is None or not self.pull_paths({net}, up=True):
+                    continue
+                reservoir = next(
+                    (
+                        n
+                        for n, _ in view.at(net)
+                        if view.kind(n) == "capacitor"
+                        and (_other_net(view.devices[n], net) or "") in (GROUND, *view.rails)
+                    ),
+                    None,
+                )
+                return self.pump_supply(net, reservoir, name, [], pump, riding=False)
         return None
 
     def winding(self, boot: str) -> str | None:
@@ -556,21 +796,22 @@ class _StageBuilder:
             if device.kind == "mosfet" and pin == "d":
                 low = device.net("s")
                 if low == GROUND or (low in view.rails and view.rails[low] <= 0):
-                    out.append(Refresh("low-side switch", (name,)))
+                    command = self.low_side_command(device)
+                    out.append(Refresh("low-side switch", (name,), reference=low, command=command))
             elif device.kind == "diode" and pin == "k":
                 anode = device.net("a")
                 if anode == GROUND or (anode in view.rails and view.rails[anode] <= 0):
-                    out.append(Refresh("freewheel diode", (name,)))
+                    out.append(Refresh("freewheel diode", (name,), reference=anode))
             elif device.kind == "resistor":
                 far = _other_net(device, self.source)
                 if far == GROUND:
-                    out.append(Refresh("load", (name,), device.value))
+                    out.append(Refresh("load", (name,), device.value, reference=GROUND))
             elif device.kind == "inductor":
                 far = _other_net(device, self.source)
                 if far is None:
                     continue
                 if far == GROUND or view.is_rail(far):
-                    out.append(Refresh("inductor-load", (name,)))
+                    out.append(Refresh("inductor-load", (name,), reference=far))
                     continue
                 for other, _ in view.at(far):
                     load = view.device(other)
@@ -578,8 +819,25 @@ class _StageBuilder:
                         continue
                     if load.kind in ("resistor", "capacitor") and _other_net(load, far) == GROUND:
                         ohms = load.value if load.kind == "resistor" else None
-                        out.append(Refresh("inductor-load", (name, other), ohms))
+                        out.append(Refresh("inductor-load", (name, other), ohms, reference=GROUND))
         return out
+
+    def low_side_command(self, device: Device) -> Control | None:
+        """The command of a low-side switch: through a driver's low channel, or traced from
+        its gate; None when no waveform is found."""
+        gate = device.net("g")
+        if gate is None:
+            return None
+        for info in self.view.drivers.values():
+            out = info.pins.get("low_out")
+            if out is not None and (out == gate or self.through_series(gate, out)):
+                net = info.pins.get("low_in")
+                if net is None:
+                    return None
+                traced = self.trace_source(net, inverting=False, path=[info.device])
+                return traced if traced.waveform is not None else None
+        traced = self.trace_source(gate, inverting=False, path=[])
+        return traced if traced.waveform is not None else None
 
     # -- control -------------------------------------------------------------------------------
 
@@ -588,6 +846,8 @@ class _StageBuilder:
         pullups: Sequence[GatePath],
         pulldowns: Sequence[GatePath],
         driver: tuple[DriverInfo, str] | None,
+        behavioural: Device | None = None,
+        floating_command: Device | None = None,
     ) -> Control | None:
         if driver is not None:
             info, out_role = driver
@@ -595,6 +855,23 @@ class _StageBuilder:
             if net is None:
                 return Control(None, False, None, (info.device,))
             return self.trace_source(net, inverting=False, path=[info.device])
+        if floating_command is not None:
+            wave = floating_command.waveform
+            return Control(floating_command.name, False, wave, (floating_command.name,))
+        if behavioural is not None:
+            circuit = self.view.circuit
+            inputs = [
+                n for n in behaviour.referenced_nets(circuit, behavioural) if n != self.source
+            ]
+            if len(inputs) == 1:
+                return self.trace_source(inputs[0], inverting=False, path=[behavioural.name])
+            if inputs:
+                combined = self.combine(
+                    behavioural, [(n, False) for n in inputs], [behavioural.name], 0
+                )
+                if combined is not None:
+                    return combined
+            return Control(None, False, None, (behavioural.name,))
         # The transistor or switch on a gate path that is commanded from outside. A
         # common-emitter (common-source) stage, with its collector (drain) toward the gate,
         # inverts its input; an emitter follower or a switch does not.
@@ -636,13 +913,24 @@ class _StageBuilder:
                 return held if held.source else Control(None, False, None, path.devices)
         return None
 
-    def trace_source(self, net: str, inverting: bool, path: list[str]) -> Control:
+    def trace_source(self, net: str, inverting: bool, path: list[str], depth: int = 0) -> Control:
         """Follow an input net back through resistors, inverters and logic buffers to its source.
 
         A resistor to a DC rail is a pull-up, not the signal: it is followed only when
-        nothing else leads to a source.
+        nothing else leads to a source. An input tied straight to a rail (ground included)
+        is a DC command at that level. A behavioural or controlled source that combines
+        several signals (a comparator of a ramp against an error amplifier) is a modulator:
+        the duty is not in the netlist, and the control says so.
         """
         view = self.view
+        if net in view.rails:
+            for name, pin in view.at(net):
+                device = view.device(name)
+                if device is not None and device.kind == "vsource" and pin == "p":
+                    reference = device.net("n")
+                    if reference == GROUND or view.is_rail(reference or ""):
+                        return Control(name, inverting, device.waveform, tuple([*path, name]))
+            return Control(None, inverting, Dc(view.rails[net]), tuple(path), kind="tied")
         frontier = [(net, inverting, path)]
         fallback: list[tuple[str, bool, list[str]]] = []
         blocked = {self.source, self.gate, self.boot_net}
@@ -672,7 +960,13 @@ class _StageBuilder:
                     if far is not None and far != GROUND:
                         (later if view.is_rail(far) else nexts).append((far, invert))
                 elif device.kind in ("vcvs", "behavioral") and pin == "p":
-                    nexts.extend(self.buffer_inputs(device, invert))
+                    inputs = [(n, f) for n, f in self.buffer_inputs(device, invert) if n != GROUND]
+                    if len(inputs) >= 2:
+                        combined = self.combine(device, inputs, [*trail, name], depth)
+                        if combined is not None:
+                            return combined
+                        continue
+                    nexts.extend(inputs)
                 elif device.kind in ("bjt", "mosfet"):
                     polarity = device.model_type or ""
                     if polarity in ("npn", "nmos") and pin == _CONDUCTION[polarity][0]:
@@ -687,28 +981,55 @@ class _StageBuilder:
                 for far, flip in later:
                     if far not in seen:
                         fallback.append((far, flip, [*trail, name]))
-        if net in view.rails:
-            return Control(net, inverting, None, tuple(path))
         return Control(None, inverting, None, tuple(path))
+
+    def combine(
+        self, device: Device, inputs: list[tuple[str, bool]], trail: list[str], depth: int
+    ) -> Control | None:
+        """The command out of a source that reads several nets.
+
+        Inputs tied to a fixed level (a comparator's reference) do not count. When what is
+        left traces to one source (logic that only reshapes one command, such as a
+        dead-time generator), that is the command. When it reaches more than one signal, or
+        one that cannot be traced (an error amplifier's output), the device is a modulator.
+        """
+        if depth >= MAX_COMBINE_DEPTH or len(trail) >= MAX_CONTROL_HOPS:
+            return None
+        origins = [self.trace_source(n, flip, trail, depth + 1) for n, flip in inputs]
+        # a fixed level (a tied input, a DC reference source) is a threshold, not a signal
+        signals = [
+            o
+            for o in origins
+            if o.kind != "tied" and not (o.waveform is not None and o.waveform.kind == "dc")
+        ]
+        if not signals:
+            return None
+        names = {o.source for o in signals}
+        if len(names) == 1 and None not in names:
+            return signals[0]
+        known = [o for o in signals if o.source is not None]
+        sources = tuple(sorted({n for o in known for n in (o.inputs or (o.source,)) if n}))
+        periodic = [
+            o.waveform for o in known if o.waveform is not None and o.waveform.period() is not None
+        ]
+        carrier = max(periodic, key=lambda w: w.frequency() or 0.0) if periodic else None
+        return Control(
+            device.name,
+            signals[0].inverting,
+            carrier,
+            tuple(trail),
+            kind="modulator",
+            inputs=sources,
+        )
 
     def buffer_inputs(self, device: Device, invert: bool) -> list[tuple[str, bool]]:
         if device.kind == "vcvs" and device.net("cp"):
             gain = device.value if device.value is not None else 1.0
-            return [(device.net("cp") or "", invert != (gain < 0))]
+            plus = [(device.net("cp") or "", invert != (gain < 0))]
+            minus = device.net("cn")
+            return plus + ([(minus, invert == (gain < 0))] if minus and minus != GROUND else [])
         if device.expression:
-            ports = (
-                dict(self.view.circuit.instances[device.instance].ports) if device.instance else {}
-            )
-            nets = []
-            for match in _V_REFERENCE.finditer(device.expression):
-                name = match.group(1).lower()
-                if name in self.view.circuit.global_nets or name in ("0", "gnd"):
-                    nets.append((GROUND if name in ("0", "gnd") else name, invert))
-                elif name in ports:
-                    nets.append((ports[name], invert))
-                else:
-                    nets.append((f"{device.instance}.{name}" if device.instance else name, invert))
-            return nets
+            return [(n, invert) for n in behaviour.referenced_nets(self.view.circuit, device)]
         return []
 
     # -- the whole stage -------------------------------------------------------------------------
@@ -732,14 +1053,23 @@ class _StageBuilder:
         driver = self.driver()
         supply = self.supply(driver[0] if driver else None)
         self.boot_net = supply.boot_net or ""
+        behavioural = self.view.device(supply.source) if supply.source else None
+        if behavioural is not None and behavioural.kind != "behavioral":
+            behavioural = None
         up_ends = {supply.boot_net} if supply.boot_net else set()
         up_ends |= self.view.positive_rails
         pullups = self.pull_paths(up_ends, up=True)
         down_ends = {self.source, GROUND} | self.view.negative_rails
         if driver is not None and driver[0].pins.get("switch"):
             down_ends.add(driver[0].pins["switch"])
+        if behavioural is not None and supply.boot_net:
+            down_ends.add(supply.boot_net)  # the driver's low level is the switch node
         pulldowns = [
-            GatePath(p.devices, p.end_net, self.returns(p.end_net))
+            GatePath(
+                p.devices,
+                p.end_net,
+                "source" if p.end_net == supply.boot_net else self.returns(p.end_net),
+            )
             for p in self.pull_paths(down_ends, up=False)
         ]
         pullups = [
@@ -748,15 +1078,47 @@ class _StageBuilder:
             )
             for p in pullups
         ]
-        control = self.control(pullups, pulldowns, driver)
+        command = self.view.device(supply.source) if supply.source else None
+        if command is None or command.kind != "vsource" or command.waveform is None:
+            command = None
+        elif command.waveform.period() is None:
+            command = None
+        control = self.control(pullups, pulldowns, driver, behavioural, command)
         waveform = control.waveform if control else None
         periodic = waveform is not None and waveform.period() is not None
-        if supply.kind == "none" and not periodic:
+        analog = waveform is not None and waveform.kind in ("sin", "exp")
+        notes: list[str] = []
+        if supply.kind == "none" and (not periodic or analog):
             mode = "linear"
+            notes.append(
+                "no floating supply and no switching command: a linear stage (source "
+                "follower); its gate limits are judged for an output short"
+            )
+        elif control is not None and control.modulated:
+            mode = "switching"
+            notes.append(
+                f"the command comes from the modulator {control.source}"
+                + (f" ({', '.join(control.inputs)})" if control.inputs else "")
+                + ": its duty is the loop's, not in the netlist"
+            )
         elif waveform is None or not periodic:
             mode = "static"
         else:
             mode = "switching"
+        if behavioural is not None:
+            level = supply.aux.volts if supply.aux else None
+            notes.append(
+                f"{behavioural.name} (behavioural source) follows the switch node: taken as an "
+                "ideal floating driver"
+                + (f" of {level:g} V" if level is not None else " of unknown level")
+            )
+        if supply.kind == "charge-pump":
+            notes.append(self.pump_note(supply))
+        if driver is not None and driver[0].origin == "pin names":
+            info = driver[0]
+            notes.append(
+                f"{info.device} (subcircuit {info.subckt}) taken as a driver IC by its pin names"
+            )
         clamps = self.clamps()
         refresh = self.refresh()
         related = {
@@ -768,6 +1130,9 @@ class _StageBuilder:
             *supply.series_resistors,
         }
         related.discard(self.switch.name)
+        nets = {self.source, self.gate, self.drain, supply.boot_net, bus.net if bus else None}
+        nets |= {supply.aux.net if supply.aux else None} | {r.reference for r in refresh}
+        notes = [w.describe() for w in self.collapsed.wires_at(n for n in nets if n)] + notes
         return DriveStage(
             switch=self.switch.name,
             channel=channel,
@@ -787,7 +1152,28 @@ class _StageBuilder:
             control=control,
             driver=driver[0] if driver else None,
             related=tuple(sorted(related)),
+            notes=tuple(notes),
         )
+
+    def pump_note(self, supply: Supply) -> str:
+        feed = supply.aux
+        clock = supply.clock
+        fed = (
+            "the switch's source"
+            if feed is not None and feed.net == self.source
+            else (f"{feed.net}" if feed is not None else "an unknown net")
+        )
+        swing = (
+            f"a {clock.volts:g} V clock from {clock.source}"
+            if clock is not None and clock.volts is not None
+            else "a clock of unknown amplitude"
+        )
+        hold = (
+            f", reservoir {supply.capacitor} riding on the source"
+            if supply.riding and supply.capacitor
+            else (f", reservoir {supply.capacitor} to a fixed net" if supply.capacitor else "")
+        )
+        return f"charge pump {supply.source} fed from {fed} by {swing}{hold}"
 
     def returns(self, net: str) -> str:
         if net == self.source:
@@ -799,15 +1185,21 @@ class _StageBuilder:
 
 def recognise(circuit: Circuit, parts: PartsLibrary | None = None) -> tuple[DriveStage, ...]:
     """One stage per MOSFET switch; level shifters and totem-pole parts of a floating stage
-    are reported inside that stage, not as switches of their own."""
+    are reported inside that stage, not as switches of their own.
+
+    Recognition works on the circuit with its wires merged (:mod:`drivelint.stages.wires`):
+    net names in the stages are the merged ones, and each stage's notes list the wires it
+    read through.
+    """
+    collapsed = collapse_wires(circuit)
     with paused_gc():
-        view = _View(circuit, parts or PartsLibrary())
+        view = _View(collapsed.circuit, parts or PartsLibrary())
         switches = [
             d
             for d in view.devices.values()
             if d.kind == "mosfet" and d.model_type in ("nmos", "pmos")
         ]
-        stages = [_StageBuilder(view, s).build() for s in switches]
+        stages = [_StageBuilder(view, s, collapsed).build() for s in switches]
     helpers = {
         name
         for stage in stages

@@ -1,21 +1,31 @@
-"""drivelint's bootstrap numbers against ngspice transient simulations of the examples.
+"""drivelint's numbers against ngspice transients, for every floating stage of the examples
+and of the test decks of our own (tests/checks/outside).
 
-ngspice (Debian package, SPICE3 lineage) is the independent simulator. Each run copies an
-example netlist (edited for a control experiment where a test says so), inserts a
-`.control` block with `run` + `wrdata` before `.end`, runs `ngspice -b` and reads the
-vectors back. drivelint's side of every comparison is what the rules see: the
-`StageFacts` of the example's floating stage and the `drivelint.physics.bootstrap`
-formulas fed with them.
+ngspice (Debian package, SPICE3 lineage) is the independent simulator. Each deck is run
+once as it is (its own ``.tran``, ``method=gear`` where the deck asks for it), with a
+``.control`` block that writes the stage's vectors; ``tests/checks/crosscheck.py`` reads
+the steady-state cycles at the end of the run. drivelint's side of every comparison is what
+the rules compute: the shared ``StageFacts`` and the functions the rules call.
 
-Compared here:
-- V_boot,0 (`StageFacts.v_boot0`) against V(boot) − V(sw) at the end of an off-time, i.e.
-  the last instant the switch node is still held low by the refresh path;
-- droop per cycle, Q_per_cycle/C with Q = Q_g + Q_ls + (I_q + I_leak + I_R)·t_on, against
-  V(boot,sw) from that instant to the end of the on-time;
-- the hold time of the DC-enabled load switch, (C·ΔV_allowed − Q_g)/I_drain, against the
-  time V(boot) − V(out) takes to fall from the enable edge to V_boot,min.
-Where drivelint once disagreed, the test that found it stays, with the fix in place, and a
-passing test next to it shows in the simulation where the difference goes.
+Compared, within ±20 % (REL) unless a test says why not:
+- V_boot,0 against V(boot,source) at the end of the recharge (before the gate starts to
+  rise);
+- the droop per on-time against V(boot,source) from there to the end of the on-time;
+- the sustained boot voltage (the refresh rule's steady valley) against V(boot,source) at
+  the end of the on-time; where the run has not settled (the mower's leg A keeps falling),
+  the same cycle map is run from the first measured peak and compared cycle for cycle;
+- the highest V_GS, against the simulated highest over the run;
+- the bootstrap diode's reverse voltage, against the highest V(k) − V(a) over the run;
+- the recovery charge per cycle, against the charge flowing back through the diode as the
+  node rises (less its depletion charge, which the next fall returns);
+- static charge pumps whose reservoir rides on the source: the highest V_GS with the clamp
+  and with it removed (then a bound, and an estimate once the reservoir has charged);
+- linear stages whose gate is pulled up from a rail: V_GS with the output shorted, the
+  fault their warning describes (a bound the run approaches from below);
+- the lowest V_GS is a bound (the worst switching state the rule allows for): it must not be
+  above the lowest level the simulated gate holds for 200 ns (edges couple shorter spikes
+  through C_gd, which the gate rules do not model).
+Where drivelint once disagreed, the test that found it stays, with the fix in place.
 """
 
 from __future__ import annotations
@@ -27,6 +37,17 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
+from crosscheck import (
+    Measured,
+    StageNets,
+    computed_values,
+    facts_of,
+    junction_of,
+    measure_switching,
+    predicted_valleys,
+    simulate,
+    stage_nets,
+)
 from simulator import NGSPICE, Waves, run_transient
 
 from drivelint.checks.facts import StageFacts
@@ -34,90 +55,375 @@ from drivelint.physics import bootstrap as boot_physics
 from drivelint.pipeline import load_stages, parts_for
 from drivelint.ratings.directives import parse_directives
 from drivelint.ratings.ratings import Ratings
+from drivelint.stages.model import DriveStage
 
-EXAMPLES = Path(__file__).resolve().parents[2] / "examples"
-
-# Tolerances, and why they are what they are.
-#
-# V_boot,0: drivelint subtracts the diode's rated forward drop (parts.toml V_F, stated at
-# about 1 A) or the model card's drop at 0.1 A. At the end of a recharge the simulated
-# diode carries only what the boot rail still draws (microamps to ~100 mA), and by the
-# Shockley relation V_F = n·V_T·ln(1 + I/I_S) its drop shrinks with the current; the
-# refresh switch carrying reverse current also holds the switch node a little below
-# ground. Both push the simulated value up, by at most the rated drop (0.7–1.5 V here,
-# 7–11 % of V_boot,0) plus a few tenths of a volt, hence 12 % below. drivelint above the
-# simulation would be unsafe (it would hide droop), so only 2 % (integration and sampling
-# noise) is allowed on that side.
-VBOOT_BELOW = 0.12
-VBOOT_ABOVE = 0.02
-# Droop: the parts library's Q_g is stated at V_GS = 10 V while the simulated gate rises to
-# V_boot (11.5–14.7 V), which adds (V_boot − 10 V)·C_iss; a zero-voltage turn-on (the
-# induction stage) takes the Miller charge from the switch node instead of the boot
-# capacitor; with the slow resistor pull-up (lev48) the gate climbs to its threshold while
-# the diode still conducts, so the aux rail supplies that part; diode recovery and
-# junction capacitances are not in the budget. Each is a few nC of a 40–60 nC budget
-# (drivelint is +6 % on lev48, −7 % on induction325), hence ±20 %.
-DROOP_REL = 0.20
-# Hold time: a difference of two similar charges (C·ΔV − Q) divided by a drain that, in
-# the load switch, follows the absolute voltage of the boot rail; ±25 %.
-HOLD_REL = 0.25
-# Silicon base–emitter drop plus a saturated small-signal transistor's V_CE (common
-# practice): what the level shifter's base path subtracts from the boot rail.
-V_EB_PLUS_VCESAT = 0.8
+ROOT = Path(__file__).resolve().parents[2]
+EXAMPLES = ROOT / "examples"
+OUTSIDE = Path(__file__).resolve().parent / "outside"
+REL = 0.20
+# A V_GS within this of the simulated one counts as equal whatever the ratio (a value near
+# 0 V has no meaningful ratio): 5 % of a 20 V rating.
+VGS_FLOOR = 1.0
+# A recovery charge under this share of the cycle's charge is compared on that scale: a
+# fast diode's fraction of a nanocoulomb changes no finding.
+QRR_FLOOR = 0.10
+# The slow rectifier of the buck example: its stored charge depends on how fast the node
+# steps down at the start of the 30 ns dead time, which the model takes as instantaneous
+# (the diffusion capacitance then takes the whole step); drivelint is 21 % high here.
+QRR_SLOW_REL = 0.25
+# Under a modulator the dead times come out of behavioural logic drivelint does not time,
+# so the charge a dead time drives through a fast boot diode (and gives back at the rising
+# edge) is not counted: the droop reads up to a quarter low there (the closed-loop buck
+# example: 23 % low, 22.9 nC of recovery in ngspice).
+DROOP_MODULATED_REL = 0.25
+# Peaks of the last cycles within this of each other: the run has settled.
+STEADY = 0.01
 
 
-# ---------------------------------------------------------------- running ngspice
+def _cases() -> list[tuple[Path, str]]:
+    out = []
+    for deck in sorted(EXAMPLES.glob("*.cir")) + sorted(OUTSIDE.glob("*.cir")):
+        _, stages = load_stages(deck)
+        for stage in stages:
+            if stage.floating and stage.mode == "switching" and stage.supply.kind != "none":
+                out.append((deck, stage.switch))
+    return out
 
 
-def _simulate(deck: Path, vectors: Sequence[str]) -> Waves:
-    saves = [v for v in vectors if v.startswith("@")]
-    text = deck.read_text(encoding="utf-8")
-    return run_transient(text, vectors, deck.parent / f"{deck.stem}.run", saves)
+CASES = _cases()
 
 
 @dataclass(frozen=True)
-class Case:
-    """One example (possibly edited) as both drivelint and ngspice see it."""
-
+class Run:
+    stage: DriveStage
     facts: StageFacts
+    nets: StageNets
     waves: Waves
+    measured: Measured
+    computed: dict[str, float]
+
+    @property
+    def steady(self) -> bool:
+        peaks = self.measured.peaks
+        return bool(peaks) and (max(peaks) - min(peaks)) <= STEADY * max(peaks)
 
 
-class Lab:
-    """Prepares each (netlist, edits) once: drivelint's facts and one ngspice run."""
-
+class Runs:
     def __init__(self, root: Path) -> None:
-        self._root = root
-        self._done: dict[tuple[object, ...], Case] = {}
+        self.root = root
+        self.done: dict[tuple[Path, str], Run] = {}
 
-    def case(
-        self, netlist: str, vectors: Sequence[str], edits: Sequence[tuple[str, str]] = ()
-    ) -> Case:
-        key = (netlist, tuple(vectors), tuple(edits))
-        if key not in self._done:
-            folder = self._root / f"case{len(self._done)}"
-            folder.mkdir()
-            text = (EXAMPLES / netlist).read_text(encoding="utf-8")
-            for old, new in edits:
-                # an experiment that edits nothing would prove nothing
-                assert text.count(old) == 1, f"{netlist}: {old!r} is not there exactly once"
-                text = text.replace(old, new)
-            deck = folder / netlist
-            deck.write_text(text, encoding="utf-8")
-            # the parts library beside the netlist, as drivelint finds it for a real file
-            shutil.copy(EXAMPLES / "parts.toml", folder / "parts.toml")
-            self._done[key] = Case(_facts(deck), _simulate(deck, vectors))
-        return self._done[key]
+    def get(self, deck: Path, switch: str) -> Run:
+        key = (deck, switch)
+        if key not in self.done:
+            stage, facts = facts_of(deck, switch)
+            nets = stage_nets(stage, facts)
+            extra = [f"v({stage.supply.boot_net})"] if stage.supply.kind == "charge-pump" else []
+            waves = simulate(deck, nets, self.root / f"{deck.stem}-{switch}", extra)
+            lines = waves.log.splitlines()
+            trouble = [line for line in lines if "aborted" in line or "too small" in line]
+            assert not trouble, trouble
+            measured = measure_switching(waves, nets, junction=junction_of(facts))
+            self.done[key] = Run(stage, facts, nets, waves, measured, computed_values(stage, facts))
+        return self.done[key]
+
+
+@pytest.fixture(scope="module")
+def runs(tmp_path_factory: pytest.TempPathFactory) -> Runs:
+    if NGSPICE is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot cross-check")
+    return Runs(tmp_path_factory.mktemp("crosscheck"))
+
+
+def _ids(case: tuple[Path, str]) -> str:
+    return f"{case[0].stem}:{case[1]}"
+
+
+def _kind(case: tuple[Path, str]) -> str:
+    _, stages = load_stages(case[0])
+    return next(s.supply.kind for s in stages if s.switch == case[1])
+
+
+BOOT_CASES = [c for c in CASES if _kind(c) == "bootstrap"]
+PUMP_CASES = [c for c in CASES if _kind(c) == "charge-pump"]
+
+
+def test_every_floating_example_and_deck_is_cross_checked() -> None:
+    # every example stage that switches, and every test deck of our own that has one
+    decks = {deck.name for deck, _ in CASES}
+    assert {"lev48_phase_leg_npn_shifter.cir", "mower48v_hbridge_wrapped_fets.cir"} <= decks
+    assert sum(1 for d in decks if d.startswith("o")) >= 10
+
+
+@pytest.mark.parametrize("case", BOOT_CASES, ids=_ids)
+def test_boot_voltage_after_recharge(runs: Runs, case: tuple[Path, str]) -> None:
+    run = runs.get(*case)
+    simulated = run.measured.v_boot_recharged if run.steady else run.measured.earliest_peak
+    assert simulated is not None
+    assert run.computed["v_boot0"] == pytest.approx(simulated, rel=REL)
+
+
+@pytest.mark.parametrize("case", BOOT_CASES, ids=_ids)
+def test_droop_per_on_time(runs: Runs, case: tuple[Path, str]) -> None:
+    run = runs.get(*case)
+    assert run.measured.droop is not None
+    if run.steady:
+        predicted = run.computed["droop"]
+    else:
+        # Not settled: the droop of the cycle map at the simulated peak (the charge per
+        # cycle follows the boot voltage).
+        peak = run.measured.peaks[-1]
+        valleys = predicted_valleys(run.stage, run.facts, peak, 1)
+        assert valleys is not None
+        predicted = peak - valleys[0]
+    rel = DROOP_MODULATED_REL if run.facts.modulated else REL
+    assert predicted == pytest.approx(run.measured.droop, rel=rel)
+
+
+@pytest.mark.parametrize("case", BOOT_CASES, ids=_ids)
+def test_sustained_boot_voltage(runs: Runs, case: tuple[Path, str]) -> None:
+    run = runs.get(*case)
+    measured = run.measured
+    if "sustained" not in run.computed:
+        # A modulator's duty is the loop's: no off-time to settle on without conditions.
+        assert run.facts.modulated
+        return
+    assert measured.first_peak is not None and measured.v_boot_end is not None
+    if run.steady:
+        assert run.computed["sustained"] == pytest.approx(measured.v_boot_end, rel=REL)
+    valleys = predicted_valleys(run.stage, run.facts, measured.first_peak, measured.cycles)
+    assert valleys is not None
+    for predicted, simulated in zip(valleys, measured.valleys, strict=True):
+        assert predicted == pytest.approx(simulated, rel=REL)
+
+
+@pytest.mark.parametrize("case", [c for c in CASES if c not in PUMP_CASES], ids=_ids)
+def test_highest_gate_source_voltage(runs: Runs, case: tuple[Path, str]) -> None:
+    run = runs.get(*case)
+    simulated = max(run.waves[f"v({run.nets.gate},{run.nets.source})"])
+    computed = run.computed["vgs_max"]
+    assert abs(computed - simulated) <= max(REL * simulated, VGS_FLOOR)
+
+
+@pytest.mark.parametrize("case", CASES, ids=_ids)
+def test_lowest_gate_source_voltage_is_a_bound(runs: Runs, case: tuple[Path, str]) -> None:
+    run = runs.get(*case)
+    simulated = run.measured.vgs_min
+    assert run.computed["vgs_min"] <= simulated + VGS_FLOOR
+
+
+@pytest.mark.parametrize("case", BOOT_CASES, ids=_ids)
+def test_diode_reverse_voltage(runs: Runs, case: tuple[Path, str]) -> None:
+    run = runs.get(*case)
+    assert run.measured.diode_reverse is not None
+    assert run.computed["v_reverse"] == pytest.approx(run.measured.diode_reverse, rel=REL)
+
+
+def _modulated(case: tuple[Path, str]) -> bool:
+    _, stages = load_stages(case[0])
+    stage = next(s for s in stages if s.switch == case[1])
+    return stage.control is not None and stage.control.modulated
+
+
+@pytest.mark.parametrize("case", [c for c in BOOT_CASES if not _modulated(c)], ids=_ids)
+def test_recovery_charge(runs: Runs, case: tuple[Path, str]) -> None:
+    # Stages under a modulator are left out: their dead times come out of behavioural
+    # logic drivelint does not time, and the refill current a dead time drives through a
+    # fast boot diode (stored as TT·I_F) is then not counted. In the class-D and closed-loop
+    # examples ngspice shows 15-23 nC of it, 25-40 % of the cycle's charge.
+    run = runs.get(*case)
+    q_cycle = run.facts.q_per_cycle
+    assert run.measured.recovery_charge is not None and q_cycle is not None
+    computed = run.computed.get("q_rr", 0.0)
+    simulated = run.measured.recovery_charge
+    slow = run.facts.dead_time is not None and run.facts._tt > run.facts.dead_time.value
+    rel = QRR_SLOW_REL if slow else REL
+    assert abs(computed - simulated) <= max(rel * simulated, QRR_FLOOR * q_cycle.value)
+    if slow:
+        # a slow diode's recovery dominates the budget: never under-counted
+        assert computed >= simulated
+
+
+@pytest.mark.parametrize("case", PUMP_CASES, ids=_ids)
+def test_charge_pump_output(runs: Runs, case: tuple[Path, str]) -> None:
+    run = runs.get(*case)
+    assert "pump_output" in run.computed
+    boot = run.waves[f"v({run.stage.supply.boot_net})"]
+    simulated = max(boot[len(boot) // 2 :])
+    assert run.computed["pump_output"] == pytest.approx(simulated, rel=REL)
+
+
+def test_droop_follows_the_capacitor(runs: Runs, tmp_path: Path) -> None:
+    # Control experiment: 470 nF → 100 nF in the lev48 leg multiplies the droop by about
+    # 4.7 (ΔV = Q/C) in both; each stays within the tolerance of the other.
+    deck = EXAMPLES / "lev48_phase_leg_npn_shifter.cir"
+    text = deck.read_text(encoding="utf-8")
+    assert text.count("C1    BOOT SW 470n") == 1
+    edited = tmp_path / deck.name
+    edited.write_text(text.replace("C1    BOOT SW 470n", "C1    BOOT SW 100n"), encoding="utf-8")
+    shutil.copy(EXAMPLES / "parts.toml", tmp_path / "parts.toml")
+    small = runs.get(edited, "m1")
+    big = runs.get(deck, "m1")
+    assert small.computed["droop"] == pytest.approx(small.measured.droop, rel=REL)
+    assert small.measured.droop / big.measured.droop == pytest.approx(4.7, rel=0.15)
+
+
+# ---------------------------------------------------------------- static charge pumps
+
+
+def _static_pumps() -> list[tuple[Path, str]]:
+    out = []
+    for deck in sorted(EXAMPLES.glob("*.cir")) + sorted(OUTSIDE.glob("*.cir")):
+        _, stages = load_stages(deck)
+        for stage in stages:
+            if stage.floating and stage.mode == "static" and stage.supply.kind == "charge-pump":
+                out.append((deck, stage.switch))
+    return out
+
+
+STATIC_PUMPS = _static_pumps()
+# A reservoir within this of the pump's full output when the switch is released has
+# settled: drivelint's V_GS (full output, charge shared with the gate) is then an estimate
+# to compare; before that it is a bound the simulation must stay under.
+RESERVOIR_SETTLED = 0.90
+
+
+def _clamp_line(deck: Path, clamp: str) -> str:
+    (line,) = [
+        line
+        for line in deck.read_text(encoding="utf-8").splitlines()
+        if line.split() and line.split()[0].lower() == clamp
+    ]
+    return line
+
+
+@pytest.mark.parametrize("case", STATIC_PUMPS, ids=_ids)
+def test_static_pump_gate_voltage_with_and_without_its_clamp(
+    case: tuple[Path, str], tmp_path: Path
+) -> None:
+    # A pump whose reservoir rides on the source: it charges to the pump's whole output
+    # while the source is low and brings it to the gate at turn-on. With the Zener, V_GS
+    # is the Zener's; without it, the reservoir's.
+    if NGSPICE is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot cross-check")
+    deck, switch = case
+    assert {"valve24v_pump_loadswitch.cir", "o04_pump_loadswitch.cir"} <= {
+        d.name for d, _ in STATIC_PUMPS
+    }
+    stage, facts = facts_of(deck, switch)
+    nets = stage_nets(stage, facts)
+    reservoir = f"v({stage.supply.boot_net},{nets.source})"
+    waves = simulate(deck, nets, tmp_path / "clamped", (reservoir,))
+    vgs = f"v({nets.gate},{nets.source})"
+    computed = computed_values(stage, facts)["vgs_max"]
+    simulated = max(waves[vgs])
+    assert abs(computed - simulated) <= max(REL * simulated, VGS_FLOOR)
+
+    (clamp,) = [c.device for c in stage.clamps]
+    bare_deck = tmp_path / deck.name
+    text = deck.read_text(encoding="utf-8")
+    bare_deck.write_text(text.replace(_clamp_line(deck, clamp), "* clamp removed"), "utf-8")
+    if (deck.parent / "parts.toml").exists():
+        shutil.copy(deck.parent / "parts.toml", tmp_path / "parts.toml")
+    stage, facts = facts_of(bare_deck, switch)
+    assert not stage.clamps and facts.pump_output is not None
+    waves = simulate(bare_deck, nets, tmp_path / "bare", (reservoir, f"v({nets.source})"))
+    computed = computed_values(stage, facts)["vgs_max"]
+    simulated = max(waves[vgs])
+    # the reservoir's charge as the source starts to rise
+    source = waves[f"v({nets.source})"]
+    bus = facts.v_bus.value if facts.v_bus else 0.0
+    rise = next(i for i, v in enumerate(source) if v > bus / 2 and waves.time[i] > 1e-6)
+    charged = waves[reservoir][rise]
+    assert computed >= simulated  # never under: the unsafe error
+    if charged >= RESERVOIR_SETTLED * facts.pump_output.value:
+        assert computed == pytest.approx(simulated, rel=REL)
+
+
+# ---------------------------------------------------------------- linear stages, output shorted
+
+
+def _output_short_cases() -> list[tuple[Path, str, float, str]]:
+    """Every linear stage that draws an output-short finding: deck, switch, the V_GS the
+    finding computes, and the source net."""
+    from drivelint.pipeline import check_path
+
+    out: dict[tuple[Path, str], tuple[Path, str, float, str]] = {}
+    for deck in sorted(EXAMPLES.glob("*.cir")) + sorted(OUTSIDE.glob("*.cir")):
+        result = check_path(deck)
+        for finding in result.findings:
+            value = finding.values.get("vgs_output_short")
+            if value is None:
+                continue
+            (stage,) = [s for s in result.stages if s.switch == finding.switch]
+            out[(deck, stage.switch)] = (deck, stage.switch, value.value, stage.source)
+    return list(out.values())
+
+
+OUTPUT_SHORTS = _output_short_cases()
+
+
+@pytest.mark.parametrize("case", OUTPUT_SHORTS, ids=lambda c: f"{c[0].stem}:{c[1]}")
+def test_output_short_gate_voltage(case: tuple[Path, str, float, str], tmp_path: Path) -> None:
+    # The fault the linear-stage warning describes: the output shorted by 1 mΩ, the gate
+    # still pulled up from its rail. The run ends before the gate has fully charged, so the
+    # simulated V_GS approaches drivelint's from below.
+    if NGSPICE is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot cross-check")
+    deck, switch, computed, source = case
+    assert {"linreg48v_pass_follower.cir", "o08_linreg_high_gate_rail.cir"} <= {
+        c[0].name for c in OUTPUT_SHORTS
+    }
+    stage, facts = facts_of(deck, switch)
+    text = deck.read_text(encoding="utf-8")
+    end = text.lower().rindex(".end")
+    shorted = text[:end] + f"R_SHORT_XCHECK {source} 0 1m\n" + text[end:]
+    nets = stage_nets(stage, facts)
+    waves = run_transient(shorted, (f"v({nets.gate},{nets.source})",), tmp_path)
+    simulated = max(waves[f"v({nets.gate},{nets.source})"])
+    assert computed >= simulated
+    assert computed == pytest.approx(simulated, rel=REL)
+
+
+# ---------------------------------------------------------------- running edited examples
 
 
 def _facts(path: Path) -> StageFacts:
     """The facts of the one floating stage of ``path``, built as the runner builds them."""
     circuit, stages = load_stages(path)
-    errors = [d for d in circuit.diagnostics if d.severity.label == "error"]
-    assert not errors, errors
     directives = parse_directives(circuit.directives)
     (stage,) = [s for s in stages if s.floating]
-    return StageFacts(stage, circuit, Ratings(parts_for(path), directives), directives)
+    from drivelint.stages.wires import collapse_wires
+
+    merged = collapse_wires(circuit).circuit
+    return StageFacts(stage, merged, Ratings(parts_for(path), directives), directives)
+
+
+@dataclass(frozen=True)
+class Case:
+    facts: StageFacts
+    waves: Waves
+
+
+class Lab:
+    """Prepares each example once: drivelint's facts and one ngspice run."""
+
+    def __init__(self, root: Path) -> None:
+        self._root = root
+        self._done: dict[tuple[object, ...], Case] = {}
+
+    def case(self, netlist: str, vectors: Sequence[str]) -> Case:
+        key = (netlist, tuple(vectors))
+        if key not in self._done:
+            folder = self._root / f"case{len(self._done)}"
+            folder.mkdir()
+            deck = folder / netlist
+            shutil.copy(EXAMPLES / netlist, deck)
+            shutil.copy(EXAMPLES / "parts.toml", folder / "parts.toml")
+            saves = [v for v in vectors if v.startswith("@")]
+            waves = run_transient(deck.read_text(encoding="utf-8"), vectors, folder, saves)
+            self._done[key] = Case(_facts(deck), waves)
+        return self._done[key]
 
 
 @pytest.fixture(scope="module")
@@ -127,143 +433,12 @@ def lab(tmp_path_factory: pytest.TempPathFactory) -> Lab:
     return Lab(tmp_path_factory.mktemp("against_ngspice"))
 
 
-# ---------------------------------------------------------------- switching legs
-
-
-@dataclass(frozen=True, slots=True)
-class Leg:
-    """How to read one switching example's waveforms (from the netlist's own header)."""
-
-    netlist: str
-    boot: str  # V(boot) − V(switch node)
-    node: str  # switch node to ground
-    control: str  # the high side's command
-    on_when_low: bool  # True: the high side conducts while the command is low
-    v_bus: float  # nominal bus, to tell the switch node's low and high states apart
-
-    @property
-    def vectors(self) -> tuple[str, ...]:
-        return (self.boot, self.node, self.control)
-
-
-LEGS = {
-    # Q1 on = high side off: the 0 V part of VHIN is the on-time (header of the netlist)
-    "lev48": Leg("lev48_phase_leg_npn_shifter.cir", "v(boot,sw)", "v(sw)", "v(hin)", True, 48.0),
-    "induction325": Leg(
-        "induction325_half_bridge_driver.cir", "v(vb,sw)", "v(sw)", "v(hin)", False, 325.0
-    ),
-}
-# Logic level between the commands' 0 V and 5 V states.
 LOGIC_MID = 2.5
-# The low-side switch is released this long before the high-side command at most (dead
-# times of 0.5 µs in both legs); the recharge is looked for from here on.
-LOOKBACK = 1e-6
-# Cycles at the end of the run that are taken as the steady state.
-STEADY_CYCLES = 4
-
-
-@dataclass(frozen=True, slots=True)
-class Cycle:
-    v_boot: float  # V(boot,sw) when the switch node leaves ground: the recharge is over
-    v_end: float  # V(boot,sw) at the end of the on-time
-
-
-def _on_windows(w: Waves, leg: Leg) -> list[tuple[float, float]]:
-    """Complete on-times of the high-side command (a window still open at the end is dropped)."""
-    found: list[tuple[float, float]] = []
-    start: float | None = None
-    for t, v in zip(w.time, w[leg.control], strict=True):
-        on = v < LOGIC_MID if leg.on_when_low else v > LOGIC_MID
-        if on and start is None:
-            start = t
-        elif not on and start is not None:
-            found.append((start, t))
-            start = None
-    return found
-
-
-def _cycles(w: Waves, leg: Leg) -> list[Cycle]:
-    """The steady-state cycles of a leg's simulation."""
-    cycles: list[Cycle] = []
-    low, high = 0.1 * leg.v_bus, 0.5 * leg.v_bus
-    sw = w[leg.node]
-    for start, end in _on_windows(w, leg)[-STEADY_CYCLES:]:
-        first = w.index(start - LOOKBACK)
-        assert sw[first] < low, "switch node not held low before the on-time"
-        rise = next(i for i in range(first, w.index(end)) if sw[i] > high)
-        # last sample still near ground before the edge: the diode's last moment
-        last_low = max(i for i in range(first, rise) if sw[i] < low)
-        cycles.append(Cycle(w[leg.boot][last_low], w.at(leg.boot, end)))
-    assert len(cycles) == STEADY_CYCLES
-    return cycles
-
-
-def _mean(values: Sequence[float]) -> float:
-    return sum(values) / len(values)
-
-
-@pytest.mark.parametrize("name", sorted(LEGS))
-def test_boot_voltage_after_recharge(lab: Lab, name: str) -> None:
-    leg = LEGS[name]
-    case = lab.case(leg.netlist, leg.vectors)
-    assert case.facts.v_boot0 is not None
-    predicted = case.facts.v_boot0.value
-    simulated = _mean([c.v_boot for c in _cycles(case.waves, leg)])
-    # lev48: 12 V − 0.95 V = 11.05 V against ~11.6 V; induction325: 15 V − 1.5 V = 13.5 V
-    # against ~14.9 V (the recharge ends at microamps, so the diode drop nearly vanishes).
-    assert simulated * (1 - VBOOT_BELOW) <= predicted <= simulated * (1 + VBOOT_ABOVE)
-
-
-# Control experiments: a smaller hold capacitor must raise both droops alike (ΔV = Q/C).
-DROOP_CASES = [
-    ("lev48", ()),
-    ("lev48", (("C1    BOOT SW 470n", "C1    BOOT SW 100n"),)),
-    ("induction325", ()),
-    ("induction325", (("C_BOOT VB SW 470n", "C_BOOT VB SW 220n"),)),
-]
-
-
-@pytest.mark.parametrize(
-    ("name", "edits"),
-    DROOP_CASES,
-    ids=["lev48", "lev48-C1-100n", "induction325", "induction325-C-220n"],
-)
-def test_droop_per_cycle(lab: Lab, name: str, edits: tuple[tuple[str, str], ...]) -> None:
-    leg = LEGS[name]
-    case = lab.case(leg.netlist, leg.vectors, edits)
-    f = case.facts
-    assert f.qg is not None and f.c_hold is not None and f.on_time is not None
-    # Charge budget per on-time, as in the bootstrap-capacitor sizing of half-bridge
-    # driver application notes (from memory): Q = Q_g + Q_ls + (I_q + I_leak + I_R)·t_on,
-    # ΔV = Q/C.
-    q = boot_physics.charge_budget(
-        f.qg.value,
-        f.q_ls.value,
-        f.i_quiescent.value,
-        f.i_leak.value,
-        f.i_resistive.value,
-        f.on_time.value,
-    )
-    predicted = boot_physics.droop_per_cycle(q, f.c_hold.value)
-    cycles = _cycles(case.waves, leg)
-    simulated = _mean([c.v_boot - c.v_end for c in cycles])
-    # the steady state really is steady: cycle-to-cycle spread well inside the tolerance
-    assert max(c.v_boot - c.v_end for c in cycles) - min(c.v_boot - c.v_end for c in cycles) < (
-        0.05 * simulated
-    )
-    assert predicted == pytest.approx(simulated, rel=DROOP_REL)
-
-
-def test_droop_follows_the_capacitor_in_both(lab: Lab) -> None:
-    # ΔV = Q/C: 470 nF → 100 nF multiplies the droop by 4.7 in drivelint by construction;
-    # ngspice must show nearly the same ratio (the gate charge barely changes with C).
-    leg = LEGS["lev48"]
-    big = lab.case(leg.netlist, leg.vectors)
-    small = lab.case(leg.netlist, leg.vectors, DROOP_CASES[1][1])
-    ratio = _mean([c.v_boot - c.v_end for c in _cycles(small.waves, leg)]) / _mean(
-        [c.v_boot - c.v_end for c in _cycles(big.waves, leg)]
-    )
-    assert ratio == pytest.approx(470 / 100, rel=0.10)
+# V_boot,0 may sit a little below the simulated value (leakage the board adds and the
+# netlist does not show) but never above it by more than integration noise.
+VBOOT_BELOW = 0.05
+VBOOT_ABOVE = 0.02
+V_EB_PLUS_VCESAT = 0.8
 
 
 # ---------------------------------------------------------------- DC-enabled load switch
@@ -326,7 +501,8 @@ def loadswitch(lab: Lab) -> Case:
 
 def test_dc_enable_boot_voltage_before_turn_on(loadswitch: Case) -> None:
     # Before the enable nothing loads the boot rail, so the simulated capacitor reaches
-    # the 12 V rail; drivelint takes the model card's drop at 1 µA (about 0.27 V).
+    # the 12 V rail; drivelint takes the model card's drop at the nanoamperes of leakage
+    # the netlist shows drawing from it (a few tens of millivolts).
     assert loadswitch.facts.v_boot0 is not None
     predicted = loadswitch.facts.v_boot0.value
     simulated = _hold(loadswitch).v_boot_before
@@ -335,19 +511,22 @@ def test_dc_enable_boot_voltage_before_turn_on(loadswitch: Case) -> None:
 
 def test_dc_enable_hold_time(loadswitch: Case) -> None:
     f = loadswitch.facts
-    assert f.c_hold and f.delta_v_allowed and f.qg
-    # t_hold = (C·ΔV_allowed − Q_g)/I_drain: charge balance on the hold capacitor, the
-    # same bootstrap sizing (driver application notes, from memory) with a DC on-time.
-    predicted = boot_physics.hold_time(
-        f.c_hold.value, f.delta_v_allowed.value, f.qg.value, f.i_drain.value
+    assert f.c_hold and f.v_boot0 and f.qg
+    # Charge balance on the hold capacitor (and the gate's capacitance beside it) with a
+    # drain that follows the boot voltage: C·dV/dt = −I(V), I linear in V, as dc-hold
+    # computes it (the published form (C·ΔV − Q_g)/I is its constant-current limit).
+    predicted = boot_physics.hold_time_linear(
+        f.c_hold.value + f.c_gate.value,
+        f.v_boot0.value,
+        f.v_boot_min.value,
+        f.qg.value,
+        f.i_drain.value,
+        f.drain_slope.value,
     )
     simulated = _hold(loadswitch).hold_time
-    # The hold time is the difference of two near-equal charges, C·ΔV and Q_g, so it is
-    # sensitive to V_boot,0. After a long rest the simulator's ideal diode drops next to
-    # nothing at next to no current (V_boot,0 = V_aux), while drivelint takes the drop at
-    # 1 µA of leakage (about 0.27 V here): it must never predict a longer hold than the
-    # simulation (that would be the unsafe error), and stays within a factor of two below.
-    assert 0.5 * simulated <= predicted <= (1 + HOLD_REL) * simulated
+    assert predicted == pytest.approx(simulated, rel=REL)
+    # Never longer than the simulation: that would be the unsafe error.
+    assert predicted < simulated
 
 
 def test_dc_enable_drain_current(loadswitch: Case) -> None:
@@ -399,5 +578,5 @@ def test_dc_enable_missing_terms_account_for_the_difference(loadswitch: Case) ->
         f.qg_switch.value + q_slew,
         f.i_drain.value,
     )
-    assert predicted == pytest.approx(hold.hold_time, rel=HOLD_REL)
+    assert predicted == pytest.approx(hold.hold_time, rel=REL)
     assert math.isfinite(predicted) and predicted < hold.hold_time

@@ -57,10 +57,13 @@ def test_enough_rating_is_quiet_and_the_parts_library_wins_over_the_model() -> N
 
 
 def test_example_boot_diode_under_rated_for_the_bus() -> None:
-    # examples/README.md: DSCH_50 (50 V) blocks about 54 V + ringing in both legs.
+    # examples/README.md: DSCH_50 (50 V) blocks about 54 V + ringing in leg A. Leg B's high
+    # side is held off in this scenario (HIB DC 0, its low side on): its diode never blocks
+    # the bus, and a while-on stress is not reported for a switch never commanded on. Both
+    # legs are the same subcircuit, so the finding on line 47 covers leg B's part too.
     result = check_path("examples/mower48v_hbridge_wrapped_fets.cir")
     found = [f for f in result.findings if f.rule == "bootstrap-diode-voltage"]
-    assert sorted(f.device for f in found) == ["xlega.d_bt", "xlegb.d_bt"]
+    assert sorted(f.device for f in found) == ["xlega.d_bt"]
     for finding in found:
         assert finding.span.line == 47
         assert finding.values["diode_rating"].value == 50

@@ -387,7 +387,8 @@ def test_configurations_and_parts_files_load_or_fail_cleanly(
                 "v_bus = '1 mV'",
                 "v_bus = '100 kV'",
                 "on_time_max = '1 fs'",
-                "ambient = '-270 degC'",
+                "ambient = '-100 degC'",  # the coldest and hottest ambient a configuration takes
+                "ambient = '300 degC'",
                 "load_current = 0",
             ]
         ),

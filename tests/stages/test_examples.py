@@ -162,7 +162,120 @@ EXPECTED = {
             "static",
         ),
     },
+    "classd45v_split_rail_amp.cir": {
+        # the driver on the negative rail; the command out of the PWM comparator
+        "m_h": (
+            "bootstrap",
+            "c_bs",
+            "d_bs",
+            "vcc",
+            {"source"},
+            set(),
+            {"low-side switch", "inductor-load"},
+            "b_cmp",
+            False,
+            384e3,
+            None,
+            "switching",
+        ),
+    },
+    "valve24v_pump_loadswitch.cir": {
+        "m1": (
+            "charge-pump",
+            "c_res",
+            "d_p2",
+            "vbus",
+            {"ground"},
+            {("d_zg", "normal")},
+            {"inductor-load", "freewheel diode"},
+            "voff",
+            True,
+            None,
+            None,
+            "static",
+        ),
+    },
+    "buck48v_closed_loop_ammeters.cir": {
+        "m_hs": (
+            "bootstrap",
+            "c_bst",
+            "d_bst",
+            "v12",
+            {"source"},
+            set(),
+            {"low-side switch", "inductor-load"},
+            "b_pwm",
+            False,
+            250e3,
+            None,
+            "switching",
+        ),
+    },
+    "winch36v_shunt_load_dump.cir": {
+        "m_h": (
+            "bootstrap",
+            "c_bs",
+            "d_bs",
+            "v12",
+            {"source"},
+            set(),
+            {"low-side switch", "inductor-load"},
+            "vhi",
+            False,
+            20e3,
+            0.60,
+            "switching",
+        ),
+    },
+    "actuator24v_hbridge_held_leg.cir": {
+        "m_ha": (
+            "bootstrap",
+            "c_ba",
+            "d_ba",
+            "v12",
+            {"source"},
+            set(),
+            {"low-side switch"},
+            "vhia",
+            False,
+            20e3,
+            0.80,
+            "switching",
+        ),
+        "m_hb": (
+            "bootstrap",
+            "c_bb",
+            "d_bb",
+            "v12",
+            {"source"},
+            set(),
+            {"low-side switch"},
+            "vhib",
+            False,
+            None,
+            None,
+            "static",
+        ),
+    },
 }
+
+
+def test_new_examples_read_through_their_shunts_and_ammeters() -> None:
+    # the 2 mΩ DC-link shunt and the 0 V ammeters are wires; the load dump is the bus
+    winch = stages("winch36v_shunt_load_dump.cir")["m_h"]
+    assert winch.bus is not None and (winch.bus.low, winch.bus.volts) == (36, 56)
+    assert any("r_shunt" in n for n in winch.notes)
+    buck = stages("buck48v_closed_loop_ammeters.cir")["m_hs"]
+    assert buck.control is not None and buck.control.kind == "modulator"
+    assert {"v_isw", "v_ils", "r_esr"} <= {n.split()[0] for n in buck.notes}
+    amp = stages("classd45v_split_rail_amp.cir")["m_h"]
+    low = next(r for r in amp.refresh if r.kind == "low-side switch")
+    assert low.reference == "vn"
+    valve = stages("valve24v_pump_loadswitch.cir")["m1"]
+    assert valve.supply.riding and valve.supply.clock is not None
+    assert valve.supply.clock.volts == 12
+    (follower,) = stages("linreg48v_pass_follower.cir").values()
+    assert follower.mode == "linear" and follower.supply.kind == "none"
 
 
 @pytest.mark.parametrize(
@@ -192,6 +305,8 @@ def test_example_stage(example: str, switch: str) -> None:
     if diode:
         assert stage.supply.diode_orientation == "forward"
     assert stage.supply.aux is not None and stage.supply.aux.net == aux
+    if stage.supply.kind == "charge-pump":
+        assert stage.supply.aux.net == aux  # the pump's feed
     assert {p.returns_to for p in stage.pulldowns} == returns
     assert {(c.device, c.orientation) for c in stage.clamps} == clamps
     assert {r.kind for r in stage.refresh} == refresh
@@ -199,6 +314,11 @@ def test_example_stage(example: str, switch: str) -> None:
     assert stage.control.inverting is inverting
     waveform = stage.control.waveform
     assert waveform is not None
+    if stage.control.modulated:
+        # the carrier's frequency; the duty is the loop's
+        assert waveform.frequency() == pytest.approx(frequency, rel=1e-6)
+        assert stage.mode == mode
+        return
     if frequency is None:
         assert waveform.period() is None
     else:

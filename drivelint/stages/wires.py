@@ -1,0 +1,256 @@
+"""Parts that simulation decks put in series for measurement or realism: wires to recognition.
+
+Decks written for a simulator carry things a schematic reviewer reads straight through:
+zero-volt sources in series that only measure a current (``V_sense sw dl 0``), lead and
+loop inductances of a few nanohenries, current-sense shunts and ESRs of milliohms. Left in,
+each one hides a connection: a low-side switch behind an ammeter is not "on the switch
+node", a clamp behind one is not "across gate and source", a shunt in the low side's return
+makes its source float. This module decides, in one place, which parts are wires, and
+rebuilds the circuit with each group of nets they join merged into one net; recognition and
+the rules then both work on that circuit.
+
+What counts as a wire (common practice in simulation decks; the bounds are ours):
+
+- an independent voltage source of 0 V DC (an ammeter);
+- an inductor of at most ``WIRE_MAX_INDUCTANCE`` that is not coupled to another winding and
+  does not form a filter (no capacitor of ``FILTER_MIN_CAPACITANCE`` or more from either of
+  its nets to ground or a rail, except on a net that is a rail itself);
+- a resistor of at most ``WIRE_MAX_RESISTANCE`` (a shunt, an ESR, a 0 Ω link).
+
+Two nets held at different DC voltages are never merged, whatever joins them.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, replace
+
+from drivelint.circuit.model import GROUND, Circuit, Device, Instance
+
+WIRE_MAX_RESISTANCE = 0.1  # Ω: current-sense shunts, ESRs, 0 Ω links
+WIRE_MAX_INDUCTANCE = 1e-6  # H: package leads, PCB loops and cables run from nH to ~µH
+# A capacitor this large on an inductor's net makes the pair an LC filter, not a stray:
+# switch-node and snubber capacitances are pF to nF, output and DC-link filters 100 nF up.
+FILTER_MIN_CAPACITANCE = 100e-9
+
+
+@dataclass(frozen=True, slots=True)
+class Wire:
+    """One part taken as a wire, and why."""
+
+    device: str
+    kind: str  # "ammeter", "stray inductance" or "low resistance"
+    nets: tuple[str, str]
+    value: float
+
+    def describe(self) -> str:
+        from drivelint.netlist.values import format_si
+
+        what = {
+            "ammeter": "0 V source (an ammeter)",
+            "stray inductance": f"{format_si(self.value, 'H')} inductance",
+            "low resistance": f"{format_si(self.value, 'Ω')} resistor",
+        }[self.kind]
+        return f"{self.device} ({what}) taken as a wire between {self.nets[0]} and {self.nets[1]}"
+
+
+@dataclass(frozen=True, slots=True)
+class Collapsed:
+    """The circuit with every wire group merged, and what was merged."""
+
+    circuit: Circuit
+    wires: tuple[Wire, ...]
+    net_of: Mapping[str, str]  # original net -> merged net (only nets that changed)
+
+    def net(self, name: str) -> str:
+        return self.net_of.get(name, name)
+
+    def wires_at(self, nets: Iterable[str]) -> tuple[Wire, ...]:
+        """The wires whose merged net is one of ``nets`` (merged names)."""
+        wanted = set(nets)
+        return tuple(w for w in self.wires if self.net(w.nets[0]) in wanted)
+
+
+def _two_nets(device: Device) -> tuple[str, str] | None:
+    if len(device.pins) != 2:
+        return None
+    (_, a), (_, b) = device.pins
+    return (a, b) if a != b else None
+
+
+def _filter_nets(circuit: Circuit, rails: Mapping[str, float]) -> frozenset[str]:
+    """Nets (not rails themselves) with a filter-sized capacitor to ground or a rail (also
+    through its ESR, a milliohm resistor)."""
+    rails = dict(rails)
+    for device in circuit.devices.values():
+        nets = _two_nets(device)
+        if device.kind != "resistor" or device.value is None or nets is None:
+            continue
+        if abs(device.value) / device.multiplier > WIRE_MAX_RESISTANCE:
+            continue
+        a, b = nets
+        if a in rails and b not in rails:
+            rails[b] = rails[a]
+        elif b in rails and a not in rails:
+            rails[a] = rails[b]
+    out: set[str] = set()
+    for device in circuit.devices.values():
+        if device.kind != "capacitor" or device.value is None:
+            continue
+        if device.value * device.multiplier < FILTER_MIN_CAPACITANCE:
+            continue
+        nets = _two_nets(device)
+        if nets is None:
+            continue
+        a, b = nets
+        if a in rails and b not in rails:
+            out.add(b)
+        elif b in rails and a not in rails:
+            out.add(a)
+    return frozenset(out)
+
+
+def _terminal_counts(circuit: Circuit) -> dict[str, int]:
+    counts: dict[str, int] = {}
+    for device in circuit.devices.values():
+        for net in device.nets:
+            counts[net] = counts.get(net, 0) + 1
+    return counts
+
+
+def find_wires(circuit: Circuit) -> tuple[Wire, ...]:
+    """Every part of ``circuit`` that recognition reads as a wire.
+
+    A 0 V source measures a current only where one flows: both its nets must carry some
+    other device. One that only sets an input to 0 V (a command held low) is a source.
+    """
+    rails = {**circuit.rails, GROUND: 0.0}
+    counts: dict[str, int] | None = None
+    coupled = {
+        name for d in circuit.devices.values() if d.kind == "coupling" for name in d.controls
+    }
+    filters: frozenset[str] | None = None
+    out: list[Wire] = []
+    for device in circuit.devices.values():
+        nets = _two_nets(device)
+        if nets is None:
+            continue
+        if device.kind == "vsource":
+            wave = device.waveform
+            if wave is not None and wave.kind == "dc" and wave.dc_level() == 0.0:
+                if counts is None:
+                    counts = _terminal_counts(circuit)
+                if all(counts.get(n, 0) > 1 for n in nets):
+                    out.append(Wire(device.name, "ammeter", nets, 0.0))
+        elif device.kind == "resistor" and device.value is not None:
+            ohms = abs(device.value) / device.multiplier
+            if ohms <= WIRE_MAX_RESISTANCE:
+                out.append(Wire(device.name, "low resistance", nets, ohms))
+        elif device.kind == "inductor" and device.value is not None:
+            henries = abs(device.value) / device.multiplier
+            if henries > WIRE_MAX_INDUCTANCE or device.name in coupled:
+                continue
+            if filters is None:
+                filters = _filter_nets(circuit, rails)
+            if any(n in filters for n in nets):
+                continue
+            out.append(Wire(device.name, "stray inductance", nets, henries))
+    return tuple(sorted(out, key=lambda w: w.device))
+
+
+class _Groups:
+    """Union-find over nets, refusing to join two different DC levels."""
+
+    def __init__(self, rails: Mapping[str, float]) -> None:
+        self.parent: dict[str, str] = {}
+        self.level: dict[str, float] = dict(rails)
+
+    def find(self, net: str) -> str:
+        root = net
+        while self.parent.get(root, root) != root:
+            root = self.parent[root]
+        while net != root:
+            net, self.parent[net] = self.parent[net], root
+        return root
+
+    def join(self, a: str, b: str) -> bool:
+        ra, rb = self.find(a), self.find(b)
+        if ra == rb:
+            return True
+        la, lb = self.level.get(ra), self.level.get(rb)
+        if la is not None and lb is not None and abs(la - lb) > 1e-9:
+            return False
+        self.parent[rb] = ra
+        if la is None and lb is not None:
+            self.level[ra] = lb
+        return True
+
+
+def _representative(members: list[str], circuit: Circuit, terminals: Mapping[str, int]) -> str:
+    """The name a merged group is known by: ground, else a rail, else its busiest net."""
+    if GROUND in members:
+        return GROUND
+    on_rail = sorted(m for m in members if m in circuit.rails)
+    if on_rail:
+        return on_rail[0]
+    return min(members, key=lambda m: (-terminals.get(m, 0), len(m), m))
+
+
+def _collapse(circuit: Circuit) -> Collapsed:
+    wires = find_wires(circuit)
+    if not wires:
+        return Collapsed(circuit, (), {})
+    groups = _Groups({**circuit.rails, GROUND: 0.0})
+    kept: list[Wire] = []
+    for wire in wires:
+        if groups.join(*wire.nets):
+            kept.append(wire)
+    names = {w.device for w in kept}
+    terminals: dict[str, int] = {}
+    for device in circuit.devices.values():
+        if device.name in names:
+            continue
+        for net in device.nets:
+            terminals[net] = terminals.get(net, 0) + 1
+    members: dict[str, list[str]] = {}
+    for net in dict.fromkeys(n for w in kept for n in w.nets):
+        members.setdefault(groups.find(net), []).append(net)
+    net_of: dict[str, str] = {}
+    for group in members.values():
+        name = _representative(group, circuit, terminals)
+        for net in group:
+            if net != name:
+                net_of[net] = name
+
+    def rename(device: Device) -> Device:
+        if not any(net in net_of for net in device.nets):
+            return device
+        return replace(
+            device, pins=tuple((role, net_of.get(net, net)) for role, net in device.pins)
+        )
+
+    devices = {n: rename(d) for n, d in circuit.devices.items() if n not in names}
+    instances = {
+        n: Instance(
+            i.name, i.subckt, tuple((p, net_of.get(net, net)) for p, net in i.ports), i.span
+        )
+        for n, i in circuit.instances.items()
+    }
+    rails = {net_of.get(n, n): v for n, v in circuit.rails.items()}
+    nets = tuple(dict.fromkeys(net_of.get(n, n) for n in circuit.nets))
+    merged = replace(circuit, devices=devices, instances=instances, rails=rails, nets=nets)
+    return Collapsed(merged, tuple(kept), net_of)
+
+
+# Recognition and the rules both ask for the same circuit, one after the other; keeping the
+# last answer (by identity: a circuit is immutable once elaborated) makes that one pass.
+_LAST: list[tuple[Circuit, Collapsed]] = []
+
+
+def collapse_wires(circuit: Circuit) -> Collapsed:
+    """``circuit`` with every wire group merged into one net (computed once per circuit)."""
+    if _LAST and _LAST[0][0] is circuit:
+        return _LAST[0][1]
+    result = _collapse(circuit)
+    _LAST[:] = [(circuit, result)]
+    return result
