@@ -67,7 +67,8 @@ def _keys() -> dict[str, KeySpec]:
         "vrrm": KeySpec("V", diode, help="repetitive reverse voltage rating"),
         "vf": KeySpec("V", diode | switch | driver, help="forward voltage"),
         "vz": KeySpec("V", diode, help="Zener voltage"),
-        "trr": KeySpec("s", diode | switch, help="reverse recovery time"),
+        # 0 for a Schottky, which stores no minority carriers
+        "trr": KeySpec("s", diode | switch, closed=True, help="reverse recovery time"),
         "qrr": KeySpec("C", diode | switch, closed=True, help="reverse recovery charge"),
         "ir_leak": KeySpec("A", diode | driver, closed=True, help="reverse leakage current"),
         # driver ICs
