@@ -37,6 +37,10 @@ from drivelint.checks.runner import RuleSetting
 from drivelint.diagnostics import Severity
 from drivelint.limits import Limits
 
+# Operating conditions are read and ranged in one place for directives and configuration.
+from drivelint.ratings.conditions import CONDITION_RANGES as CONDITION_RANGES
+from drivelint.ratings.conditions import out_of_range as _in_range
+
 CONFIG_FILES = ("drivelint.toml", "pyproject.toml")
 TOP_KEYS = frozenset(
     {
@@ -202,19 +206,6 @@ LIMIT_CEILINGS: Mapping[str, int] = {
     "max_poly_dimensions": 64,
 }
 
-# Ranges of the operating conditions (SI units): a negative, zero, NaN or infinite
-# frequency or bus voltage would make findings vanish rather than fail.
-CONDITION_RANGES: Mapping[str, tuple[float, float, bool]] = {
-    # key: (low, high, low is allowed)
-    "fsw": (0.0, 1e9, False),
-    "duty_max": (0.0, 1.0, True),
-    "on_time_max": (0.0, 1e6, False),
-    "v_bus": (0.0, 1e6, False),
-    "v_aux": (0.0, 1e4, False),
-    # kelvin: -100 °C to 300 °C, wider than any rated part; the diode laws lose meaning beyond
-    "ambient": (173.0, 574.0, True),
-    "load_current": (0.0, 1e6, True),
-}
 # Ranges of rule options by name; any other option must be finite and not negative.
 OPTION_RANGES: Mapping[str, tuple[float, float, bool]] = {
     "margin": (1.0, 1e3, True),  # below 1 accepts a capacitor smaller than its charge needs
@@ -223,20 +214,6 @@ OPTION_RANGES: Mapping[str, tuple[float, float, bool]] = {
     "zener_tolerance": (0.0, 0.5, True),
 }
 _ANY_OPTION = (0.0, float("inf"), True)
-
-
-def _in_range(value: float, bounds: tuple[float, float, bool]) -> str | None:
-    """None if ``value`` is inside ``bounds``, else what the range is."""
-    import math
-
-    low, high, closed = bounds
-    if not math.isfinite(value):
-        return "must be a finite number"
-    if value < low or (value == low and not closed) or value > high:
-        opening = "[" if closed else "("
-        top = "" if math.isinf(high) else f"{high:g}"
-        return f"{value:g} is out of range: expected a value in {opening}{low:g}, {top or '∞'}]"
-    return None
 
 
 def load_config(path: Path | None, known_rules: Mapping[str, Any] | None = None) -> Config:
@@ -262,8 +239,8 @@ def _parse(
     known_rules: Mapping[str, Any] | None,
     lines: Any,
 ) -> Config:
-    from drivelint.ratings.directives import CONDITION_KEYS
-    from drivelint.ratings.units import UnitError, parse_quantity
+    from drivelint.ratings.conditions import CONDITION_KEYS, read_condition
+    from drivelint.ratings.units import UnitError
 
     dotted = ".".join(prefix) + "." if prefix else ""
 
@@ -350,12 +327,9 @@ def _parse(
             if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
                 raise fail((*where, key), f"expected a quantity string, not {_kind(raw)}")
             try:
-                value = parse_quantity(raw, CONDITION_KEYS[key])
+                value = read_condition(key, raw)
             except UnitError as exc:
                 raise fail((*where, key), str(exc)) from None
-            problem = _in_range(value, CONDITION_RANGES.get(key, _ANY_OPTION))
-            if problem:
-                raise fail((*where, key), problem)
             out[key] = (value, f"{path}: {dotted}{shown}.{key}")
         return out
 
