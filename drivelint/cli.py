@@ -222,6 +222,8 @@ def _expand(paths: tuple[str, ...], suffixes: tuple[str, ...]) -> tuple[list[Pat
             if not matches:
                 raise click.UsageError(f"no file matches '{raw}'")
             out.extend(_scan(tuple(Path(m) for m in matches), suffixes))
+        elif not Path(raw).exists() and not Path(raw).is_symlink():
+            _fail(f"'{raw}' does not exist (no such file or folder)")
         else:
             out.extend(_scan((Path(raw),), suffixes))
     return out, stdin
@@ -312,6 +314,32 @@ def _write_output(text: str, output: Path | None, checked: list[Path]) -> None:
     "--stdin-name", default="stdin.cir", show_default=True, help="Name for '-' (standard input)."
 )
 @click.option("--no-color", is_flag=True, help="Plain text even on a terminal.")
+@click.option(
+    "--select",
+    "select",
+    multiple=True,
+    metavar="RULE,…",
+    help="Report only these rules (ids, or their first words such as 'bootstrap'); repeatable.",
+)
+@click.option(
+    "--ignore",
+    "ignore",
+    multiple=True,
+    metavar="RULE,…",
+    help="Do not report these rules (ids or their first words); repeatable.",
+)
+@click.option(
+    "--show-accepted",
+    is_flag=True,
+    help="Text: also list the findings an acceptance directive accepted, with the reason.",
+)
+@click.option(
+    "--testbench",
+    "testbench_dir",
+    type=click.Path(path_type=Path, file_okay=False),
+    default=None,
+    help="HTML: link each finding to its decks in this `drivelint testbench` folder.",
+)
 @_outside_option
 @_hidden_option
 def check_command(
@@ -329,6 +357,10 @@ def check_command(
     shard: str | None,
     stdin_name: str,
     no_color: bool,
+    select: tuple[str, ...],
+    ignore: tuple[str, ...],
+    show_accepted: bool,
+    testbench_dir: Path | None,
     allow_outside_root: bool,
     allow_hidden_includes: bool,
 ) -> None:
@@ -352,6 +384,9 @@ def check_command(
         suffixes = load_config(config_file).suffixes if config_file else DEFAULT_SUFFIXES
     except ConfigError as exc:
         _fail(str(exc))
+    keep = _rule_filter(select, ignore)
+    if testbench_dir is not None and fmt != "html":
+        raise click.UsageError("--testbench links decks into the HTML report: use --format html")
     files, use_stdin = _expand(paths, suffixes)
     if shard is not None:
         try:
@@ -398,7 +433,23 @@ def check_command(
         and "NO_COLOR" not in os.environ
         and sys.stdout.isatty()
     )
-    report = formatter(fmt)(results, ReportOptions(explain=explain, color=color))
+    if keep is not None:
+        from drivelint.checks.runner import select_rules
+
+        results = [select_rules(r, keep) for r in results]
+    width = None
+    if fmt == "text" and output is None and sys.stdout.isatty():
+        import shutil
+
+        width = shutil.get_terminal_size().columns
+    report_options = ReportOptions(
+        explain=explain,
+        color=color,
+        show_accepted=show_accepted,
+        width=width,
+        testbench=str(testbench_dir) if testbench_dir is not None else None,
+    )
+    report = formatter(fmt)(results, report_options)
     _write_output(report, output, files)
     if fmt != "text" or output is not None:
         from drivelint.report.findings import summary_text
@@ -418,6 +469,27 @@ def check_command(
     if stats.failed or partial or any(f.severity >= threshold for r in results for f in r.findings):
         sys.exit(EXIT_FINDINGS)
     sys.exit(EXIT_OK)
+
+
+def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> Any:
+    """A predicate on rule ids from --select/--ignore (None: every rule), or exit 2."""
+    if not select and not ignore:
+        return None
+    from drivelint.checks.registry import registry
+    from drivelint.checks.runner import expand_rule_patterns
+
+    known = list(registry())
+    try:
+        chosen = (
+            expand_rule_patterns([p for s in select for p in s.split(",")], known)
+            if select
+            else frozenset(known)
+        )
+        dropped = expand_rule_patterns([p for s in ignore for p in s.split(",")], known)
+    except ValueError as exc:
+        raise click.UsageError(str(exc)) from None
+    kept = chosen - dropped
+    return lambda rule_id: rule_id in kept
 
 
 @main.command("rules")

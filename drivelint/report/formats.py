@@ -18,6 +18,9 @@ from drivelint.checks.runner import CheckResult
 class ReportOptions:
     explain: bool = False
     color: bool = False
+    show_accepted: bool = False  # text: list accepted findings (other formats always do)
+    width: int | None = None  # text: wrap lines at this many columns (a terminal), else not
+    testbench: str | None = None  # html: the folder of `drivelint testbench` output
 
 
 Formatter = Callable[[Sequence[CheckResult], ReportOptions], str]
