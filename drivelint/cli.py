@@ -448,6 +448,7 @@ def check_command(
         show_accepted=show_accepted,
         width=width,
         testbench=str(testbench_dir) if testbench_dir is not None else None,
+        output=str(output) if output is not None else None,
     )
     report = formatter(fmt)(results, report_options)
     _write_output(report, output, files)

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from drivelint.circuit.model import Circuit
 from drivelint.netlist.values import format_si
@@ -31,6 +31,9 @@ class _Canvas:
     stage: DriveStage
     highlight: frozenset[str]
     commanded: str | None  # the stage device the control signal enters
+    # Boxes drawn so far: a device on two paths (a gate resistor shared by the pull-up and
+    # the pull-down) is drawn once, and named where the second path passes through it.
+    drawn: set[str] = field(default_factory=set)
 
 
 def _short(text: str, limit: int = NAME_CHARS) -> str:
@@ -55,6 +58,13 @@ def _caption(canvas: _Canvas, name: str) -> str:
 def _box(
     canvas: _Canvas, cx: float, cy: float, name: str, caption: str = "", height: float = BOX_H
 ) -> str:
+    if name in canvas.drawn:
+        return (
+            f'<g class="ref" data-ref="{_e(name)}"><title>{_e(name)}, drawn once</title>'
+            + _label(cx, cy + 4, f"via {_short(name, 12)}", "middle", "ref")
+            + "</g>"
+        )
+    canvas.drawn.add(name)
     hit = name in canvas.highlight
     classes = "dev hit" if hit else "dev"
     caption = caption or _caption(canvas, name)
@@ -247,7 +257,9 @@ def stage_svg(stage: DriveStage, circuit: Circuit, highlight: Iterable[str] = ()
         for name in box_names:
             hit_canvas = canvas
             if len(names) > 1 and any(n in canvas.highlight for n in names):
-                hit_canvas = _Canvas(circuit, stage, canvas.highlight | {label}, commanded)
+                hit_canvas = _Canvas(
+                    circuit, stage, canvas.highlight | {label}, commanded, canvas.drawn
+                )
             boxes.append(_box(hit_canvas, x, cx, name, caption))
 
     # Gate node and the switch.
@@ -285,7 +297,7 @@ def stage_svg(stage: DriveStage, circuit: Circuit, highlight: Iterable[str] = ()
         single = refresh.devices[0] if len(refresh.devices) == 1 else name
         hit_canvas = canvas
         if len(refresh.devices) > 1 and any(d in canvas.highlight for d in refresh.devices):
-            hit_canvas = _Canvas(circuit, stage, canvas.highlight | {name}, commanded)
+            hit_canvas = _Canvas(circuit, stage, canvas.highlight | {name}, commanded, canvas.drawn)
         boxes.append(_box(hit_canvas, x, y_node + 44, single, refresh.kind))
     if refresh_x:
         marks.append(_label(x_sw - BOX_W / 2 - 6, y_node + 48, "refresh", "end", "cap"))

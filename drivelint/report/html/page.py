@@ -1,4 +1,4 @@
-"""The page: summary, designs table, each design with its stages and findings.
+"""The page: summary, filters, designs table, each design with its stages and findings.
 
 Everything is inline (CSS, a few lines of JS, SVG) and a Content-Security-Policy forbids
 any fetch, so the file can be mailed, archived or opened offline and shows the same thing
@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from pathlib import Path
 from typing import TYPE_CHECKING
 
 from drivelint import __version__
@@ -17,9 +18,13 @@ from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
 from drivelint.circuit.model import Circuit
 from drivelint.diagnostics import Diagnostic, Severity, excerpt
+from drivelint.netlist.values import format_si
+from drivelint.ratings.values import Value
+from drivelint.report.html.assets import CSP, SCRIPT, STYLE
 from drivelint.report.html.diagram import _volts, drawn_devices, stage_svg
 from drivelint.report.html.markup import esc as _e
-from drivelint.report.html.plots import PLOT_RULES, boot_plot_svg
+from drivelint.report.html.plots import PLOT_RULES, boot_plot_svg, simulated_svg
+from drivelint.report.html.testbench import BenchRecord, Testbench, load_testbench
 from drivelint.report.status import file_status
 from drivelint.stages.model import DriveStage
 
@@ -37,32 +42,129 @@ def _input_errors(result: CheckResult) -> list[Diagnostic]:
     return [d for d in result.diagnostics if d.severity is Severity.ERROR]
 
 
+# The numbers a reader needs first in each finding: what it claims, against its limit. A
+# rule not listed shows its values in name order; a new rule adds its pairs here.
+KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
+    "bootstrap-capacitor-small": (
+        ("droop_per_cycle", "delta_v_allowed"),
+        ("capacitance", "required_capacitance"),
+    ),
+    "dc-hold": (("hold_time", "on_time"),),
+    "bootstrap-diode-voltage": (("diode_reverse_voltage", "derated_limit"),),
+    "bootstrap-diode-slow": (("trr", "trr_max"),),
+    "bootstrap-no-refresh": (("sustained_boot_voltage", "v_boot_min"), ("duty_max", "max_duty")),
+    "gate-overvoltage": (
+        ("vgs_max_positive", "vgs_limit_positive"),
+        ("vgs_max_negative", "vgs_limit_negative"),
+    ),
+    "gate-headroom": (("vgs_on_worst", "vgs_needed"),),
+}
+
+
+def key_pairs(finding: Finding) -> list[tuple[str, Value, str, Value]]:
+    """(claim, its value, limit, its value) for each pair the finding carries."""
+    values = finding.values
+    return [
+        (claim, values[claim], limit, values[limit])
+        for claim, limit in KEY_VALUES.get(finding.rule, ())
+        if claim in values and limit in values
+    ]
+
+
 def _severity_badge(severity: Severity) -> str:
     return f'<span class="sev {severity.label}">{severity.label}</span>'
 
 
+def _values_table(finding: Finding) -> str:
+    first = [k for pair in key_pairs(finding) for k in (pair[0], pair[2])]
+    order = list(dict.fromkeys(first)) + sorted(k for k in finding.values if k not in first)
+    rows = "".join(
+        f"<tr{' class=key' if name in first else ''}><td><code>{_e(name)}</code></td>"
+        f'<td class="num">{_e(finding.values[name].text())}</td>'
+        f'<td class="origin">{_e(finding.values[name].origin)}</td></tr>'
+        for name in order
+    )
+    if not rows:
+        return ""
+    return (
+        '<table class="values"><thead><tr><th>quantity</th><th>value</th><th>origin</th>'
+        f"</tr></thead><tbody>{rows}</tbody></table>"
+    )
+
+
+def _key_numbers(finding: Finding) -> str:
+    pairs = key_pairs(finding)
+    if not pairs:
+        return ""
+    items = "; ".join(
+        f'<span class="claim"><code>{_e(claim)}</code> = {_e(value.text())}</span> '
+        f'<span class="limit">against <code>{_e(limit)}</code> = {_e(bound.text())}</span>'
+        for claim, value, limit, bound in pairs
+    )
+    return f'<p class="key-numbers">{items}</p>'
+
+
+def _bench_html(record: BenchRecord | None, finding: Finding) -> str:
+    """The finding's testbench: links to its decks, its claims against what was measured."""
+    if record is None:
+        return ""
+    links = []
+    if record.deck:
+        links.append(f'<a class="deck" href="{_e(record.deck)}">deck</a>')
+    if record.fixed_deck:
+        links.append(f'<a class="fixed-deck" href="{_e(record.fixed_deck)}">fixed deck</a>')
+    parts = [
+        '<div class="bench"><span class="fix-label">Testbench</span> '
+        + (" · ".join(links) if links else "no deck written")
+    ]
+    rows = []
+    for key, claimed in sorted(record.claims.items()):
+        unit = finding.values[key].unit if key in finding.values else ""
+        measured = record.measured.get(key)
+        shown = format_si(measured.value, unit) if measured is not None else "not run"
+        ratio = ""
+        if measured is not None and claimed:
+            ratio = f"{measured.value / claimed:.2f}×"
+        status = measured.status if measured is not None and measured.status else ""
+        rows.append(
+            f'<tr><td><code>{_e(key)}</code></td><td class="num">'
+            f'{_e(format_si(claimed, unit))}</td><td class="num">{_e(shown)}</td>'
+            f'<td class="num">{_e(ratio)}</td><td>{_e(status)}</td></tr>'
+        )
+    if rows:
+        parts.append(
+            '<table class="bench-claims"><thead><tr><th>claim</th><th>claimed</th>'
+            "<th>simulated</th><th>ratio</th><th></th></tr></thead>"
+            f"<tbody>{''.join(rows)}</tbody></table>"
+        )
+    parts.extend(f'<p class="bench-note">{_e(note)}</p>' for note in record.notes)
+    parts.append("</div>")
+    return "".join(parts)
+
+
 def _finding_html(
-    finding: Finding, circuit: Circuit, anchor: str, explain: bool, accepted: bool = False
+    finding: Finding,
+    circuit: Circuit,
+    anchor: str,
+    explain: bool,
+    bench: Testbench | None = None,
 ) -> str:
     line = excerpt(circuit.line_text(finding.span))
+    waiver = finding.accepted
     head = (
         f'<div class="fhead">{_severity_badge(finding.severity)} '
-        f'<code class="rule">{_e(finding.rule)}</code> '
+        + ('<span class="sev accepted">accepted</span> ' if waiver else "")
+        + f'<code class="rule">{_e(finding.rule)}</code> '
         f'<span class="loc">{_e(finding.span)}</span> '
         f'<span class="on">device <code>{_e(finding.device)}</code>'
         f" on switch <code>{_e(finding.switch)}</code></span></div>"
     )
-    rows = "".join(
-        f'<tr><td><code>{_e(name)}</code></td><td class="num">{_e(value.text())}</td>'
-        f'<td class="origin">{_e(value.origin)}</td></tr>'
-        for name, value in sorted(finding.values.items())
-    )
-    values = (
-        '<table class="values"><thead><tr><th>quantity</th><th>value</th><th>origin</th>'
-        f"</tr></thead><tbody>{rows}</tbody></table>"
-        if rows
-        else ""
-    )
+    accepted = ""
+    if waiver is not None:
+        accepted = (
+            f'<p class="waiver">Accepted: {_e(waiver.reason)} '
+            f'<span class="loc">({_e(waiver.span.path)}:{waiver.span.line})</span></p>'
+        )
     source = f'<pre class="src">{finding.span.line:>5} | {_e(line)}</pre>' if line else ""
     derivation = ""
     if finding.derivation:
@@ -71,18 +173,28 @@ def _finding_html(
             f'<details class="derivation"{" open" if explain else ""}>'
             f"<summary>derivation</summary><pre>{steps}</pre></details>"
         )
-    plot = boot_plot_svg(finding) if finding.rule in PLOT_RULES else None
-    classes = f"finding {finding.severity.label}" + (" accepted" if accepted else "")
+    record = bench.record_for(finding.rule, finding.device, circuit.path) if bench else None
+    figures = [boot_plot_svg(finding) if finding.rule in PLOT_RULES else None]
+    if record is not None and record.waveform is not None:
+        figures.append(simulated_svg(record.waveform, finding))
+    shown = "".join(f for f in figures if f)
+    classes = f"finding {finding.severity.label}" + (" accepted" if waiver else "")
     return (
-        f'<div class="{classes}" id="{anchor}">'
+        f'<div class="{classes}" id="{anchor}" data-rule="{_e(finding.rule)}" '
+        f'data-severity="{finding.severity.label}" data-accepted="{1 if waiver else 0}">'
         + head
+        + '<div class="finding-body"><div class="finding-text">'
         + f'<p class="finding-message">{_e(finding.message)}</p>'
+        + accepted
+        + _key_numbers(finding)
         + source
-        + values
         + f'<p class="fix"><span class="fix-label">Fix</span> {_e(finding.fix)}</p>'
+        + _bench_html(record, finding)
+        + _values_table(finding)
         + derivation
-        + (plot or "")
         + "</div>"
+        + (f'<div class="finding-figures">{shown}</div>' if shown else "")
+        + "</div></div>"
     )
 
 
@@ -101,7 +213,7 @@ def _stage_heading(stage: DriveStage) -> str:
 
 
 def _diagram_figure(stage: DriveStage, circuit: Circuit, findings: Sequence[Finding]) -> str:
-    hits = sorted({f.device for f in findings})
+    hits = sorted({f.device for f in findings if f.accepted is None})
     drawn = drawn_devices(stage)
     missing = [name for name in hits if name not in drawn]
     note = ""
@@ -111,10 +223,11 @@ def _diagram_figure(stage: DriveStage, circuit: Circuit, findings: Sequence[Find
         '<figure class="diagram">'
         + stage_svg(stage, circuit, hits)
         + "<figcaption>Stage as recognised. Red: device with a finding ("
-        + _e(", ".join(hits))
+        + _e(", ".join(hits) or "none open")
         + ")."
         + _e(note)
-        + " Dots are connections; a line crossing without a dot is not connected.</figcaption>"
+        + " Dots are connections; a line crossing without a dot is not connected; a device "
+        "on two paths is drawn once and named where the other passes through it.</figcaption>"
         "</figure>"
     )
 
@@ -127,18 +240,45 @@ class _Numbered:
     anchor: str
 
 
+def _not_checked(result: CheckResult, stage: DriveStage, status: str) -> str | None:
+    """Why a stage without findings was not judged, or None when it was."""
+    for diagnostic in result.diagnostics:
+        if diagnostic.code == "not-checked" and diagnostic.message.startswith(
+            f"stage of {stage.switch} not checked"
+        ):
+            return diagnostic.message
+    if status == "error":
+        return "not checked: this file has input errors (listed above), so its findings are "
+        "not complete"
+    return None
+
+
 def _design_article(
-    result: CheckResult, anchor: str, numbered: Sequence[_Numbered], explain: bool
+    result: CheckResult,
+    anchor: str,
+    numbered: Sequence[_Numbered],
+    explain: bool,
+    bench: Testbench | None,
 ) -> str:
     circuit = result.circuit
     status = _status(result)
+    rules = sorted({n.finding.rule for n in numbered})
+    severities = sorted({n.finding.severity.label for n in numbered})
+    counts = f"{len(result.findings)} finding{'s' * (len(result.findings) != 1)}"
+    if result.accepted:
+        counts += f", {len(result.accepted)} accepted"
+    floating = [s for s in result.stages if s.floating]
+    counts += f", {len(floating)} floating stage{'s' * (len(floating) != 1)}"
     parts = [
-        f'<article class="design" id="{anchor}">',
-        f'<h3><code>{_e(circuit.path)}</code> <span class="status {status}">{status}</span></h3>',
+        f'<article class="design" id="{anchor}" data-path="{_e(circuit.path)}" '
+        f'data-status="{status}" data-rules="{_e(" ".join(rules))}" '
+        f'data-severities="{_e(" ".join(severities))}">',
+        '<details class="design-details"><summary>'
+        f'<h3><code>{_e(circuit.path)}</code> <span class="status {status}">{status}</span></h3>'
+        f'<span class="design-counts">{_e(counts)}</span></summary>',
     ]
     if circuit.title:
         parts.append(f'<p class="design-title">{_e(circuit.title)}</p>')
-    floating = [s for s in result.stages if s.floating]
     others = [s for s in result.stages if not s.floating]
     summary = (
         f"{len(result.stages)} switch{'es' * (len(result.stages) != 1)} recognised, "
@@ -169,26 +309,20 @@ def _design_article(
         parts.append('<section class="stage">' + _stage_heading(stage))
         if mine:
             parts.append(_diagram_figure(stage, circuit, [n.finding for n in mine]))
-            parts.extend(_finding_html(n.finding, circuit, n.anchor, explain) for n in mine)
+            parts.extend(_finding_html(n.finding, circuit, n.anchor, explain, bench) for n in mine)
         else:
-            parts.append('<p class="clean-stage">No findings for this stage.</p>')
+            why = _not_checked(result, stage, status)
+            if why is not None:
+                parts.append(f'<p class="not-checked">{_e(why[0].upper() + why[1:])}.</p>')
+            else:
+                parts.append('<p class="clean-stage">No findings for this stage.</p>')
         parts.append("</section>")
     rest = [n for n in numbered if id(n) not in placed]
     if rest:
         parts.append('<section class="stage"><h4>Other findings</h4>')
-        parts.extend(_finding_html(n.finding, circuit, n.anchor, explain) for n in rest)
+        parts.extend(_finding_html(n.finding, circuit, n.anchor, explain, bench) for n in rest)
         parts.append("</section>")
-    if result.accepted:
-        parts.append(
-            f'<details class="accepted-list"><summary>{len(result.accepted)} accepted by a '
-            "directive</summary>"
-        )
-        parts.extend(
-            _finding_html(f, circuit, f"{anchor}-a{i}", explain, accepted=True)
-            for i, f in enumerate(result.accepted, 1)
-        )
-        parts.append("</details>")
-    parts.append("</article>")
+    parts.append("</details></article>")
     return "".join(parts)
 
 
@@ -223,7 +357,8 @@ def _summary(results: Sequence[CheckResult], numbered: Mapping[str, Sequence[_Nu
     first_anchor: dict[str, str] = {}
     for path in sorted(numbered):
         for item in numbered[path]:
-            first_anchor.setdefault(item.finding.rule, item.anchor)
+            if item.finding.accepted is None:
+                first_anchor.setdefault(item.finding.rule, item.anchor)
     if findings:
         rows = []
         for rule_id in sorted({f.rule for f in findings}):
@@ -259,6 +394,30 @@ def _summary(results: Sequence[CheckResult], numbered: Mapping[str, Sequence[_Nu
         parts.append('<p id="input-errors" class="none">None: every file was read.</p>')
     parts.append("</section>")
     return "".join(parts)
+
+
+def _filters(results: Sequence[CheckResult]) -> str:
+    """The filter bar: status, rule, severity; the script applies them (and keeps them in
+    the address). Without a script every design and finding simply stays shown."""
+    statuses = ("clean", "findings", "partial", "error")
+    rules = sorted({f.rule for r in results for f in (*r.findings, *r.accepted)})
+
+    def select(key: str, label: str, options: Sequence[str]) -> str:
+        choices = "".join(f'<option value="{_e(o)}">{_e(o)}</option>' for o in options)
+        return (
+            f'<label for="filter-{key}">{label}</label> <select id="filter-{key}">'
+            f'<option value="">any</option>{choices}</select>'
+        )
+
+    return (
+        '<div id="filters">'
+        + select("status", "status", statuses)
+        + select("rule", "rule", rules)
+        + select("severity", "severity", (*(s.label for s in SEVERITIES), "accepted"))
+        + '<button type="button" id="open-all">open all</button>'
+        '<button type="button" id="close-all">close all</button>'
+        f'<span id="filter-count">{len(results)} of {len(results)} designs shown</span></div>'
+    )
 
 
 DESIGN_COLUMNS = (
@@ -299,7 +458,7 @@ def _designs_table(results: Sequence[CheckResult], anchors: Mapping[str, str]) -
         ]
         cells = "".join(f'<td class="num" data-sort="{n}">{n}</td>' for n in numbers)
         rows.append(
-            f'<tr data-order="{order}" data-path="{_e(circuit.path)}">'
+            f'<tr data-order="{order}" data-path="{_e(circuit.path)}" data-status="{status}">'
             f'<td data-sort="{_e(circuit.path)}"><a href="#{anchors[circuit.path]}">'
             f'<code>{_e(circuit.path)}</code></a><div class="title-cell">{_e(circuit.title)}</div>'
             f"</td>{cells}"
@@ -307,181 +466,27 @@ def _designs_table(results: Sequence[CheckResult], anchors: Mapping[str, str]) -
         )
     return (
         '<section id="designs-section"><h2>Designs</h2>'
-        '<p class="hint">Click a column header to sort; click again to reverse.</p>'
-        f'<table id="designs" class="sortable"><thead><tr>{heads}</tr></thead>'
+        '<p class="hint">Click a column header to sort; click again to reverse. A design '
+        "opens below when its name is clicked.</p>"
+        + _filters(results)
+        + f'<table id="designs" class="sortable"><thead><tr>{heads}</tr></thead>'
         f"<tbody>{''.join(rows)}</tbody></table></section>"
     )
 
 
-STYLE = """
-:root{--ink:#1d2433;--mute:#5d6778;--line:#d5dae1;--soft:#f4f6f9;--err:#b3261e;
---warn:#a85a00;--note:#1f5fae;--ok:#1d7a46;--hit:#fdeceb}
-*{box-sizing:border-box}
-body{margin:0;color:var(--ink);background:#fff;font:14px/1.45 system-ui,sans-serif}
-header{padding:18px 32px 14px;border-bottom:3px solid var(--ink);background:var(--soft)}
-header h1{margin:0;font-size:21px;letter-spacing:.2px}
-header .meta{margin:4px 0 0;color:var(--mute);font-size:13px}
-main{padding:4px 32px 32px;max-width:1280px}
-h2{font-size:17px;border-bottom:1px solid var(--line);padding-bottom:4px;margin:26px 0 10px}
-h3{font-size:15px;margin:18px 0 8px}
-h4{font-size:14px;margin:14px 0 6px}
-code,pre,.loc{font-family:ui-monospace,monospace;font-size:12.5px}
-pre{margin:0;white-space:pre-wrap}
-a{color:var(--note);text-decoration:none}
-a:hover{text-decoration:underline}
-table{border-collapse:collapse;margin:6px 0 10px}
-th,td{padding:4px 10px;border-bottom:1px solid var(--line);text-align:left;vertical-align:top}
-th{background:var(--soft);font-weight:600;font-size:12.5px;white-space:nowrap}
-td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
-#designs td.num[data-sort="0"]{color:#a3aab5}
-tfoot td{font-weight:600;border-top:2px solid var(--line)}
-#designs th{cursor:pointer;user-select:none}
-#designs th:hover{background:#e7ebf1}
-#designs th[aria-sort=ascending]::after{content:" \\25B2";font-size:10px}
-#designs th[aria-sort=descending]::after{content:" \\25BC";font-size:10px}
-#designs{width:100%}
-#designs .title-cell{color:var(--mute);font-size:12.5px;max-width:640px}
-.hint{color:var(--mute);font-size:12.5px;margin:0}
-.tiles{display:flex;flex-wrap:wrap;gap:10px;margin:8px 0 14px}
-.tile{border:1px solid var(--line);border-radius:4px;padding:8px 14px;min-width:110px;
-background:#fff}
-.tile-n{font-size:22px;font-weight:650;font-variant-numeric:tabular-nums}
-.tile-l{font-size:12px;color:var(--mute)}
-.tile.bad{border-left:4px solid var(--err)}
-.tile.good{border-left:4px solid var(--ok)}
-.tile.error .tile-n{color:var(--err)}
-.tile.warning .tile-n{color:var(--warn)}
-.tile.note .tile-n{color:var(--note)}
-.sev,.status{display:inline-block;padding:0 6px;border-radius:3px;font-size:11px;
-font-weight:650;text-transform:uppercase;letter-spacing:.4px;color:#fff;vertical-align:1px}
-.sev.error,.status.error{background:var(--err)}
-.sev.warning{background:var(--warn)}
-.sev.note{background:var(--note)}
-.status.findings{background:var(--warn)}
-.status.partial{background:var(--warn);font-style:italic}
-.status.clean{background:var(--ok)}
-article.design{border-top:2px solid var(--ink);margin-top:22px;padding-top:2px}
-.design-title{margin:0 0 4px;font-style:italic}
-.design-summary{margin:0 0 6px;color:var(--mute);font-size:13px}
-section.stage{margin:8px 0 16px 12px}
-.stage-meta{font-weight:400;color:var(--mute);font-size:13px}
-.clean-stage{color:var(--ok);margin:2px 0}
-.finding{border:1px solid var(--line);border-left:5px solid var(--note);border-radius:3px;
-padding:8px 12px;margin:10px 0;background:#fff}
-.finding.error{border-left-color:var(--err)}
-.finding.warning{border-left-color:var(--warn)}
-.finding.accepted{opacity:.75}
-.fhead{display:flex;flex-wrap:wrap;gap:8px;align-items:baseline}
-.fhead .on{color:var(--mute);font-size:13px}
-.finding-message{margin:6px 0;font-weight:600}
-pre.src{background:var(--soft);padding:3px 8px;border-radius:3px;color:#333;margin:4px 0}
-table.values td.origin{color:var(--mute);font-size:12.5px}
-.fix{margin:6px 0}
-.fix-label{display:inline-block;background:var(--ok);color:#fff;font-size:11px;font-weight:650;
-text-transform:uppercase;padding:0 6px;border-radius:3px;margin-right:4px}
-details summary{cursor:pointer;color:var(--mute);font-size:12.5px}
-details pre{background:var(--soft);padding:6px 8px;margin:4px 0}
-figure{margin:8px 0;overflow-x:auto}
-figcaption{font-size:12px;color:var(--mute);max-width:900px}
-svg{max-width:100%;height:auto;font-family:system-ui,sans-serif}
-svg .wire{stroke:#3a4252;stroke-width:1.5}
-svg .dot{fill:#3a4252}
-svg .term{fill:#fff;stroke:#3a4252;stroke-width:1.5}
-svg .gnd{stroke:#3a4252;stroke-width:1.5;fill:none}
-svg .dev rect{fill:#fff;stroke:#3a4252;stroke-width:1.2}
-svg .dev.hit rect{fill:var(--hit);stroke:var(--err);stroke-width:2.6}
-svg .dev text{text-anchor:middle}
-svg .dev .name{font:600 11.5px ui-monospace,monospace;fill:var(--ink)}
-svg .dev.hit .name{fill:var(--err)}
-svg .dev .cap{font-size:9.5px;fill:var(--mute)}
-svg .cmd{fill:var(--note)}
-svg text.cap{font-size:9.5px;fill:var(--mute)}
-svg .net{font:10.5px ui-monospace,monospace;fill:var(--note)}
-svg .pin{font-size:9px;fill:var(--mute)}
-svg.plot .grid{stroke:#e3e7ed;stroke-width:1}
-svg.plot .frame{fill:none;stroke:#8a93a3}
-svg.plot .bad{fill:#fbe3e1}
-svg.plot .limit{stroke:var(--err);stroke-width:1.6;stroke-dasharray:6 4}
-svg.plot .cross{stroke:var(--err);stroke-width:1;stroke-dasharray:2 3}
-svg.plot .ontime{stroke:#5d6778;stroke-width:1;stroke-dasharray:4 3}
-svg.plot .cross-dot{fill:var(--err)}
-svg.plot .curve{fill:none;stroke:var(--note);stroke-width:2.2}
-svg.plot .tick{font-size:10.5px;fill:var(--mute)}
-svg.plot .axis{font-size:11.5px;fill:var(--ink)}
-svg.plot .limit-label,svg.plot .cross-label{font-size:11px;fill:var(--err)}
-svg.plot .curve-label{font-size:11px;fill:var(--note)}
-svg.plot .suggested{fill:none;stroke:var(--ok);stroke-width:1.8;stroke-dasharray:7 4}
-svg.plot .suggested-label{font-size:11px;fill:var(--ok)}
-table.plot-values td{padding:1px 10px}
-footer{padding:10px 32px 24px;color:var(--mute);font-size:12px;border-top:1px solid var(--line)}
-@media print{header{background:none}#designs th::after{content:none}
-.finding{break-inside:avoid}figure{break-inside:avoid}}
-"""
-
-# Sorting of the designs table. The sort state lives in the address (#sort=key:dir) so a
-# sorted view can be bookmarked or shared, and a page opened that way arrives sorted.
-SCRIPT = """
-(function () {
-  "use strict";
-  var table = document.getElementById("designs");
-  if (!table) { return; }
-  var heads = Array.prototype.slice.call(table.tHead.rows[0].cells);
-  function keyOf(cell) {
-    var v = cell.getAttribute("data-sort");
-    return v === null ? cell.textContent.trim() : v;
-  }
-  function sortBy(index, dir) {
-    var body = table.tBodies[0];
-    var rows = Array.prototype.slice.call(body.rows);
-    var numeric = rows.every(function (r) {
-      var k = keyOf(r.cells[index]);
-      return k !== "" && !isNaN(Number(k));
-    });
-    rows.sort(function (a, b) {
-      var x = keyOf(a.cells[index]), y = keyOf(b.cells[index]);
-      var c = numeric ? Number(x) - Number(y) : (x < y ? -1 : (x > y ? 1 : 0));
-      if (dir === "desc") { c = -c; }
-      if (c === 0) {
-        c = Number(a.getAttribute("data-order")) - Number(b.getAttribute("data-order"));
-      }
-      return c;
-    });
-    rows.forEach(function (r) { body.appendChild(r); });
-    heads.forEach(function (th, i) {
-      th.setAttribute("aria-sort",
-        i === index ? (dir === "asc" ? "ascending" : "descending") : "none");
-    });
-  }
-  function fromAddress() {
-    var m = /^#sort=([a-z]+):(asc|desc)$/.exec(window.location.hash);
-    if (!m) { return; }
-    heads.forEach(function (th, i) {
-      if (th.getAttribute("data-key") === m[1]) { sortBy(i, m[2]); }
-    });
-  }
-  heads.forEach(function (th, i) {
-    function activate() {
-      var dir = th.getAttribute("aria-sort") === "ascending" ? "desc" : "asc";
-      sortBy(i, dir);
-      try {
-        history.replaceState(null, "", "#sort=" + th.getAttribute("data-key") + ":" + dir);
-      } catch (e) { /* some browsers refuse on file: pages; sorting still works */ }
-    }
-    th.addEventListener("click", activate);
-    th.addEventListener("keydown", function (ev) {
-      if (ev.key === "Enter" || ev.key === " ") { ev.preventDefault(); activate(); }
-    });
-  });
-  fromAddress();
-  window.addEventListener("hashchange", fromAddress);
-})();
-"""
-
-# Nothing may be fetched: the page is complete in itself.
-CSP = (
-    "default-src 'none'; style-src 'unsafe-inline'; script-src 'unsafe-inline'; "
-    "img-src data:; base-uri 'none'; form-action 'none'"
-)
+def _bench_section(bench: Testbench) -> str:
+    linked = len(bench.records)
+    parts = [
+        '<section id="testbench"><h2>Testbench</h2>'
+        f"<p>{linked} record{'s' * (linked != 1)} read from <code>{_e(bench.folder)}</code>: "
+        "each finding with a record links its deck (and fixed deck) and, where a simulated "
+        "waveform was written, draws it beside the computed one.</p>"
+    ]
+    if bench.notes:
+        items = "".join(f"<li>{_e(note)}</li>" for note in bench.notes)
+        parts.append(f'<ul class="bench-notes">{items}</ul>')
+    parts.append("</section>")
+    return "".join(parts)
 
 
 def format_html(results: Sequence[CheckResult], options: ReportOptions) -> str:
@@ -490,12 +495,20 @@ def format_html(results: Sequence[CheckResult], options: ReportOptions) -> str:
     anchors = {r.circuit.path: f"d{i}" for i, r in enumerate(ordered, 1)}
     numbered: dict[str, list[_Numbered]] = {}
     count = 0
+    card = 0
     for result in ordered:
-        items = []
-        for finding in sorted(result.findings, key=Finding.sort_key):
-            count += 1
-            items.append(_Numbered(finding, f"f{count}"))
+        items: list[_Numbered] = []
+        # Accepted findings keep their place among the others, marked and with their reason.
+        for finding in sorted((*result.findings, *result.accepted), key=Finding.sort_key):
+            count += finding.accepted is None
+            card += 1
+            items.append(_Numbered(finding, f"f{card}"))
         numbered[result.circuit.path] = items
+    bench = None
+    if options.testbench is not None:
+        folder = Path(options.testbench)
+        report_folder = Path(options.output).absolute().parent if options.output else Path.cwd()
+        bench = load_testbench(folder, report_folder, options.testbench)
     files = len(ordered)
     meta = (
         f"drivelint {__version__} · {files} netlist{'s' * (files != 1)} · "
@@ -516,10 +529,14 @@ def format_html(results: Sequence[CheckResult], options: ReportOptions) -> str:
         body.append('<p class="all-clean">No netlists were checked.</p>')
     else:
         body.append(_summary(ordered, numbered))
+        if bench is not None:
+            body.append(_bench_section(bench))
         body.append(_designs_table(ordered, anchors))
         body.append('<section id="details"><h2>Designs in detail</h2>')
         body.extend(
-            _design_article(r, anchors[r.circuit.path], numbered[r.circuit.path], options.explain)
+            _design_article(
+                r, anchors[r.circuit.path], numbered[r.circuit.path], options.explain, bench
+            )
             for r in ordered
         )
         body.append("</section>")

@@ -8,11 +8,12 @@ from dataclasses import dataclass, replace
 
 from drivelint.checks.base import Finding
 from drivelint.netlist.values import format_si
-from drivelint.physics.bootstrap import boot_voltage_after, hold_time
+from drivelint.physics.bootstrap import boot_voltage_after, hold_time_linear
 from drivelint.report.html.markup import esc as _e
 from drivelint.report.html.markup import label as _label
 from drivelint.report.html.markup import polyline as _polyline
 from drivelint.report.html.markup import wire as _wire
+from drivelint.report.html.testbench import SimWaveform
 
 # Rules whose findings are about the hold capacitor running down during an on-time.
 PLOT_RULES = frozenset({"dc-hold", "bootstrap-capacitor-small"})
@@ -27,6 +28,9 @@ SUGGESTED_NAMES = ("suggested_capacitance",)
 DRAIN_NAMES = ("i_drain",)
 ON_TIME_NAMES = ("on_time", "t_on")
 HOLD_TIME_NAMES = ("hold_time",)
+GATE_CAPACITANCE_NAMES = ("gate_capacitance", "c_gate")
+# 1/g: the resistance the drains behave like as the boot voltage sags (dc-hold gives it)
+DRAIN_RESISTANCE_NAMES = ("r_drain_equivalent",)
 
 
 @dataclass(frozen=True, slots=True)
@@ -42,23 +46,50 @@ class BootDroop:
     on_time: float | None
     hold: float | None
     suggested: float | None = None  # the hold capacitance the finding's fix proposes
+    gate_capacitance: float = 0.0  # shares the hold capacitor's charge
+    slope: float = 0.0  # g = dI/dV of the drain [A/V]: resistive drains fall with the voltage
+    # The charge taken at the turn-on edge when the finding's per-cycle droop fixes it (the
+    # gate's charge less what the bootstrap path refills before the node rises, with the
+    # diode's recovery charge): droop·(C + C_g) − I_drain·t_on. None: Q_g + Q_ls.
+    edge_charge: float | None = None
 
     @property
     def step_charge(self) -> float:
+        if self.edge_charge is not None:
+            return self.edge_charge
         return self.gate_charge + self.shifter_charge
 
+    @property
+    def c_total(self) -> float:
+        return self.capacitance + self.gate_capacitance
+
     def at(self, t: float) -> float:
-        return boot_voltage_after(
-            t, self.v_start, self.capacitance, self.step_charge, self.drain or 0.0
-        )
+        """The boot voltage ``t`` after turn-on, by the same law as the hold time: a drain
+        I(V) = I_drain + g·(V − V_boot,0) is a resistance 1/g with a constant current
+        I_drain − g·V_boot,0 beside it (:func:`boot_voltage_after`)."""
+        drain = self.drain or 0.0
+        if self.slope > 0:
+            return boot_voltage_after(
+                t,
+                self.v_start,
+                self.c_total,
+                self.step_charge,
+                drain - self.slope * self.v_start,
+                1.0 / self.slope,
+            )
+        return boot_voltage_after(t, self.v_start, self.c_total, self.step_charge, drain)
 
     def crossing(self) -> float | None:
-        """Time after turn-on when the boot voltage reaches the minimum, None if never."""
+        """Time after turn-on when the boot voltage reaches the minimum, None if never: the
+        hold time :func:`hold_time_linear` gives, the one dc-hold reports."""
         if self.at(0.0) < self.v_min:
             return 0.0
         if not self.drain:
             return None
-        return hold_time(self.capacitance, self.v_start - self.v_min, self.step_charge, self.drain)
+        found = hold_time_linear(
+            self.c_total, self.v_start, self.v_min, self.step_charge, self.drain, self.slope
+        )
+        return found if math.isfinite(found) else None
 
     def span(self) -> float | None:
         """How much time to plot: the on-time, shortened when the fall happens early."""
@@ -110,6 +141,8 @@ def boot_droop(finding: Finding) -> BootDroop | None:
     if drain is not None and not (math.isfinite(drain) and drain >= 0):
         drain = None
     shifter = _number(values, SHIFTER_CHARGE_NAMES, "C")
+    c_gate = _positive(_number(values, GATE_CAPACITANCE_NAMES, "F")) or 0.0
+    r_equivalent = _positive(_number(values, DRAIN_RESISTANCE_NAMES, "Ohm"))
     droop = BootDroop(
         v_start,
         v_min,
@@ -120,7 +153,16 @@ def boot_droop(finding: Finding) -> BootDroop | None:
         _number(values, ON_TIME_NAMES, "s"),
         _number(values, HOLD_TIME_NAMES, "s"),
         _positive(_number(values, SUGGESTED_NAMES, "F")),
+        c_gate,
+        1.0 / r_equivalent if r_equivalent is not None and drain else 0.0,
     )
+    per_cycle = _number(values, ("droop_per_cycle",), "V")
+    on = droop.on_time
+    if per_cycle is not None and on is not None and 0 < on < math.inf and droop.slope == 0:
+        # The plot ends where the finding says one on-time leaves the supply.
+        edge = per_cycle * droop.c_total - (drain or 0.0) * on
+        if edge >= 0 and math.isfinite(edge):
+            droop = replace(droop, edge_charge=edge)
     return droop if droop.span() is not None else None
 
 
@@ -281,13 +323,35 @@ def boot_plot_svg(finding: Finding) -> str | None:
         f'<tr><td class="num">{_e(t)}</td><td class="num">{_e(format_si(v, "V"))}</td></tr>'
         for t, v in rows
     )
+    if droop.slope > 0:
+        law = (
+            "from V<sub>boot,0</sub> − (Q<sub>g</sub> + Q<sub>ls</sub>)/C at turn-on, "
+            "C·dV/dt = −I(V) with I(V) = I<sub>drain</sub> + g·(V − V<sub>boot,0</sub>) "
+            "(resistive drains fall with the voltage; the law dc-hold's hold time uses), "
+            f"g = {_e(format_si(droop.slope, 'A'))}/V, "
+        )
+    elif droop.edge_charge is not None:
+        law = (
+            "V(t) = V<sub>boot,0</sub> − Q<sub>edge</sub>/C − I<sub>drain</sub>·t/C, where "
+            "Q<sub>edge</sub> is the charge the finding counts at the turn-on edge "
+            f"({_e(format_si(droop.edge_charge, 'C'))}: its per-cycle droop × C less "
+            "I<sub>drain</sub>·t<sub>on</sub>; the gate's charge less what the bootstrap path "
+            "refills before the node rises, and the diode's recovery charge), "
+        )
+    else:
+        law = (
+            "V(t) = V<sub>boot,0</sub> − (Q<sub>g</sub> + Q<sub>ls</sub>)/C − "
+            "I<sub>drain</sub>·t/C, "
+        )
+    c_text = format_si(droop.capacitance, "F")
+    if droop.gate_capacitance:
+        c_text += f" + C_g {format_si(droop.gate_capacitance, 'F')}"
     return (
         '<figure class="plot-figure">'
         + "".join(parts)
-        + "<figcaption>Boot supply over the on-time: V(t) = V<sub>boot,0</sub> − "
-        "(Q<sub>g</sub> + Q<sub>ls</sub>)/C − I<sub>drain</sub>·t/C, with "
+        + f"<figcaption>Boot supply over the on-time as computed: {law}with "
         f"V<sub>boot,0</sub> = {_e(format_si(droop.v_start, 'V'))}, "
-        f"C = {_e(format_si(droop.capacitance, 'F'))}, "
+        f"C = {_e(c_text)}, "
         f"Q<sub>g</sub> = {_e(format_si(droop.gate_charge, 'C'))}, "
         f"Q<sub>ls</sub> = {_e(format_si(droop.shifter_charge, 'C'))}, {_e(drain_text)}; "
         f"it must stay above {_e(format_si(droop.v_min, 'V'))}.{_e(on_text)}{_e(clamp_text)}"
@@ -296,4 +360,102 @@ def boot_plot_svg(finding: Finding) -> str | None:
         '<table class="plot-values"><thead><tr><th>t</th><th>V<sub>boot</sub></th></tr></thead>'
         f"<tbody>{table}</tbody></table></details>"
         "</figure>"
+    )
+
+
+# --------------------------------------------------------------------------- simulated
+
+SIM_POINTS = 400  # drawn at most; each bucket keeps its lowest and highest value
+
+
+def _thinned(time: Sequence[float], values: Sequence[float]) -> list[tuple[float, float]]:
+    """At most ~SIM_POINTS points, keeping each bucket's extremes (no peak is lost)."""
+    if len(time) <= SIM_POINTS:
+        return list(zip(time, values, strict=True))
+    out: list[tuple[float, float]] = []
+    step = len(time) / (SIM_POINTS / 2)
+    start = 0
+    while start < len(time):
+        stop = min(len(time), int(start + step) + 1)
+        chunk = range(start, stop)
+        low = min(chunk, key=lambda i: values[i])
+        high = max(chunk, key=lambda i: values[i])
+        out.extend((time[i], values[i]) for i in sorted({low, high}))
+        start = stop
+    return out
+
+
+def simulated_svg(waveform: SimWaveform, finding: Finding) -> str:
+    """The simulated waveform of a finding's testbench, beside the computed one.
+
+    Each series of the waveform file on one time axis; where the file names the claim it
+    shows and the finding has that value, the claimed value is marked (a level for a
+    quantity in the series' unit, a time for a duration). Only numbers reach the page.
+    """
+    time = waveform.time
+    t0, t1 = time[0], time[-1]
+    series = waveform.series
+    unit = series[0].unit
+    low = min(min(s.values) for s in series)
+    high = max(max(s.values) for s in series)
+    claim = finding.values.get(waveform.claim) if waveform.claim else None
+    level = claim.value if claim is not None and claim.unit == unit else None
+    moment = claim.value if claim is not None and claim.unit == "s" and unit != "s" else None
+    if level is not None and math.isfinite(level):
+        low, high = min(low, level), max(high, level)
+    pad = 0.08 * (high - low) or 1.0
+    y_low, y_high = low - pad, high + pad
+    inner_w = PLOT_W - MARGIN_L - MARGIN_R
+    inner_h = PLOT_H - MARGIN_T - MARGIN_B
+
+    def px(t: float) -> float:
+        return MARGIN_L + inner_w * (t - t0) / (t1 - t0)
+
+    def py(v: float) -> float:
+        return MARGIN_T + inner_h * (y_high - v) / (y_high - y_low)
+
+    parts = [
+        f'<svg class="plot sim" viewBox="0 0 {PLOT_W} {PLOT_H}" width="{PLOT_W}" '
+        f'height="{PLOT_H}" role="img" data-rule="{_e(finding.rule)}"><title>Simulated '
+        f"waveform of the testbench for {_e(finding.device)}</title>"
+    ]
+    for tick in nice_ticks(y_low, y_high):
+        y = py(tick)
+        parts.append(_wire(MARGIN_L, y, MARGIN_L + inner_w, y, "grid"))
+        parts.append(_label(MARGIN_L - 6, y + 4, f"{tick:g}", "end", "tick"))
+    for tick in nice_ticks(t0, t1):
+        x = px(tick)
+        parts.append(_wire(x, MARGIN_T, x, MARGIN_T + inner_h, "grid"))
+        parts.append(_label(x, MARGIN_T + inner_h + 16, format_si(tick, "s"), "middle", "tick"))
+    parts.append(
+        f'<rect class="frame" x="{MARGIN_L}" y="{MARGIN_T}" width="{inner_w}" height="{inner_h}"/>'
+    )
+    parts.append(_label(MARGIN_L + inner_w / 2, PLOT_H - 6, "simulated time", "middle", "axis"))
+    side: list[tuple[float, str, str]] = []
+    for index, entry in enumerate(series):
+        points = [(px(t), py(v)) for t, v in _thinned(time, entry.values)]
+        parts.append(_polyline(f"sim-curve sim-{index % 4}", points))
+        side.append((py(entry.values[-1]), f"{entry.name} [{entry.unit or '1'}]", "curve-label"))
+    if level is not None and claim is not None:
+        y = py(level)
+        parts.append(_wire(MARGIN_L, y, MARGIN_L + inner_w, y, "claim"))
+        side.append((y, f"claimed {format_si(level, unit)}", "limit-label"))
+    if moment is not None and math.isfinite(moment) and t0 <= t0 + moment <= t1:
+        x = px(t0 + moment)
+        parts.append(_wire(x, MARGIN_T, x, MARGIN_T + inner_h, "claim"))
+        parts.append(
+            _label(
+                x + 4, MARGIN_T + 14, f"claimed {format_si(moment, 's')}", "start", "limit-label"
+            )
+        )
+    parts.extend(_side_labels(MARGIN_L + inner_w + 8, side))
+    parts.append("</svg>")
+    names = ", ".join(f"{s.name} ({s.unit or '1'})" for s in series)
+    return (
+        '<figure class="plot-figure sim-figure">'
+        + "".join(parts)
+        + f"<figcaption>Simulated in the finding's testbench deck: {_e(names)}, "
+        f"{_e(format_si(t0, 's'))} to {_e(format_si(t1, 's'))}, {len(time)} points."
+        + (" Dashed: the value the finding claims." if level is not None or moment else "")
+        + "</figcaption></figure>"
     )
