@@ -452,6 +452,10 @@ def check_command(
     )
     report = formatter(fmt)(results, report_options)
     _write_output(report, output, files)
+    if any(Path(p).is_dir() for p in paths if p != "-"):
+        # A library scan: what the settings give that no netlist of it uses is said.
+        for line in _unused_settings(planned, options, results):
+            click.echo(line, err=True)
     if fmt != "text" or output is not None:
         from drivelint.report.findings import summary_text
 
@@ -470,6 +474,30 @@ def check_command(
     if stats.failed or partial or any(f.severity >= threshold for r in results for f in r.findings):
         sys.exit(EXIT_FINDINGS)
     sys.exit(EXIT_OK)
+
+
+def _unused_settings(planned: list[Job], options: BatchOptions, results: list[Any]) -> list[str]:
+    """Warnings for parts entries and configured conditions no netlist of the run uses."""
+    from drivelint.checks.runner import unused_conditions, unused_parts
+    from drivelint.ratings.parts import PartsError, load_parts
+
+    files: set[Path] = set()
+    configured: dict[str, list[str]] = {}
+    for job in planned:
+        beside = job.path.parent / "parts.toml"
+        files.update((*job.config.parts, *options.parts))
+        if beside.is_file():
+            files.add(beside)
+        for key, (_, origin) in job.config.conditions_for_file(job.path).items():
+            configured.setdefault(key, []).append(origin)
+    libraries = []
+    for path in sorted(files):
+        try:
+            libraries.append(load_parts(path))
+        except (PartsError, OSError):
+            continue  # already reported where it was used
+    lines = [d.headline() + f" [{d.code}]" for d in unused_parts(results, libraries)]
+    return lines + unused_conditions(results, configured)
 
 
 def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> Any:

@@ -40,12 +40,14 @@ class Drain:
 
 
 def _hidden(facts: StageFacts, device: Device) -> bool:
-    """Inside a driver IC whose boot current the parts library already gives."""
+    """Inside a driver IC whose boot current the parts library already gives (a driver
+    without one is charged its model's own drains, or a default when it has none)."""
     driver = facts.stage.driver
     return (
         driver is not None
         and device.name.startswith(driver.device + ".")
         and facts.i_quiescent.value > 0
+        and not facts.i_quiescent.origin.startswith("default")
     )
 
 
