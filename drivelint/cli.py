@@ -187,11 +187,18 @@ def stages_command(
         allow_hidden_includes=allow_hidden_includes,
         scan_roots=files,
     )
+    from drivelint.checks.runner import shifter_currents
+    from drivelint.pipeline import parts_for
+
     results = []
+    currents = {}
     failed = False
     for job in _plan(_scan(files), options):
         try:
             circuit, stages = stages_job(job, options)
+            if any(s.level_shifter for s in stages):
+                library = parts_for(job.path, (*job.config.parts, *options.parts))
+                currents[circuit.path] = shifter_currents(circuit, stages, library)
         except PartsError as exc:
             _fail(str(exc))
         failed |= any(d.severity is Severity.ERROR for d in circuit.diagnostics)
@@ -200,11 +207,18 @@ def stages_command(
         import json
 
         payload = stages_json([s for _, stages in results for s in stages])
+        for entry in payload["stages"]:
+            # What the level shifter draws, from the rules' own account of the drains.
+            found = currents.get(entry["path"], {}).get(entry["switch"])
+            if "level_shifter" in entry and found is not None:
+                entry["level_shifter"]["drain_on"] = found.value
         # What could not be read is said, not only left out of the stages.
         payload["diagnostics"] = [d.to_json() for c, _ in results for d in c.diagnostics]
         click.echo(json.dumps(payload, indent=2))
     else:
-        click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))
+        click.echo(
+            "\n\n".join(stages_text(c, s, show_all, currents.get(c.path)) for c, s in results)
+        )
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
 
 

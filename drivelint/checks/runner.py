@@ -381,3 +381,37 @@ def unused_conditions(
         if key not in used
         for where in sorted(set(places))
     ]
+
+
+def shifter_currents(
+    circuit: Circuit,
+    stages: Sequence[DriveStage],
+    parts: PartsLibrary,
+    conditions: dict[str, Value] | None = None,
+) -> dict[str, Value]:
+    """For ``drivelint stages``: the current each stage's level shifter draws from the boot
+    supply while the switch is on (switch -> value), from the same account of drains the
+    rules use."""
+    from drivelint.stages.wires import collapse_wires
+
+    directives = parse_directives(circuit.directives, circuit.line_text)
+    ratings = Ratings(parts, directives)
+    merged = collapse_wires(circuit).circuit
+    by_net = devices_by_net(merged)
+    out: dict[str, Value] = {}
+    for stage in stages:
+        shifter = stage.level_shifter
+        if not stage.floating or shifter is None or _needs(circuit, stage):
+            continue
+        try:
+            facts = StageFacts(stage, merged, ratings, directives, conditions, by_net)
+            drains = facts.on_drains.resistive
+        except (RatingError, ArithmeticError, ValueError, KeyError):
+            continue
+        mine = {shifter.transistor, *shifter.resistors}
+        total = sum(d.current.value for d in drains if mine & set(d.device.split("+")))
+        names = ", ".join(d.device for d in drains if mine & set(d.device.split("+")))
+        out[stage.switch] = Value(
+            total, "A", f"computed: drains through {names}" if names else "none while on"
+        )
+    return out
