@@ -354,6 +354,13 @@ def _write_output(text: str, output: Path | None, checked: list[Path]) -> None:
     default=None,
     help="HTML: link each finding to its decks in this `drivelint testbench` folder.",
 )
+@click.option(
+    "--with-includers",
+    is_flag=True,
+    help="Also check every netlist under the project root that includes a named file (a "
+    "staged model or include file); named files that are not netlists are not checked "
+    "themselves.",
+)
 @_outside_option
 @_hidden_option
 def check_command(
@@ -375,6 +382,7 @@ def check_command(
     ignore: tuple[str, ...],
     show_accepted: bool,
     testbench_dir: Path | None,
+    with_includers: bool,
     allow_outside_root: bool,
     allow_hidden_includes: bool,
 ) -> None:
@@ -402,6 +410,9 @@ def check_command(
     if testbench_dir is not None and fmt != "html":
         raise click.UsageError("--testbench links decks into the HTML report: use --format html")
     files, use_stdin = _expand(paths, suffixes)
+    if with_includers:
+        files = _with_includers(files, suffixes)
+    files = _spice_only(files)
     if shard is not None:
         try:
             index, count = (int(x) for x in shard.split("/"))
@@ -512,6 +523,110 @@ def _unused_settings(planned: list[Job], options: BatchOptions, results: list[An
             continue  # already reported where it was used
     lines = [d.headline() + f" [{d.code}]" for d in unused_parts(results, libraries)]
     return lines + unused_conditions(results, configured)
+
+
+# What a netlist suffix may hold that is not SPICE: a PCB netlist in S-expression form
+# shares ".net". Only the start of a file is looked at.
+SNIFF_BYTES = 64 << 10
+
+
+def not_spice(head: bytes) -> str | None:
+    """Why these first bytes of a file are not a SPICE netlist, or None.
+
+    An S-expression document (its first character an opening parenthesis, and nearly every
+    line opening or closing one) is a netlist of another kind. A SPICE deck's first line
+    is a free title, so one parenthesis alone proves nothing: most lines must be lists.
+    """
+    text = head.decode("utf-8", "replace").lstrip("\ufeff")
+    stripped = text.lstrip()
+    if not stripped.startswith("("):
+        return None
+    lines = [line.strip() for line in text.splitlines() if line.strip()]
+    if len(lines) > 1 and not lines[-1].startswith(("(", ")")):
+        lines = lines[:-1]  # a line cut at SNIFF_BYTES
+    lists = sum(1 for line in lines if line.startswith(("(", ")")))
+    if lists >= 0.9 * len(lines):
+        return "an S-expression file (a PCB or schematic netlist of another format), not SPICE"
+    return None
+
+
+def _spice_only(files: list[Path]) -> list[Path]:
+    """The files less those that are not SPICE netlists, each skipped with a one-line note."""
+    import os
+    import stat
+
+    kept = []
+    for path in files:
+        # Opened without blocking and read only when a regular file: a FIFO must not hang
+        # the run here either (the check itself refuses it with a diagnostic).
+        flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0)
+        try:
+            fd = os.open(path, flags)
+        except OSError:
+            kept.append(path)  # the check reports why it cannot be read
+            continue
+        try:
+            head = os.read(fd, SNIFF_BYTES) if stat.S_ISREG(os.fstat(fd).st_mode) else b""
+        except OSError:
+            head = b""
+        finally:
+            os.close(fd)
+        why = not_spice(head)
+        if why is None:
+            kept.append(path)
+        else:
+            from drivelint.diagnostics import printable
+
+            click.echo(f"{printable(str(path))}: note: skipped: {why} [not-spice]", err=True)
+    return kept
+
+
+MAX_INCLUDER_CANDIDATES = 20_000  # netlists looked at under one project root
+MAX_INCLUDER_BYTES = 32 << 20  # larger ones are not searched for an include
+
+
+def _with_includers(files: list[Path], suffixes: tuple[str, ...]) -> list[Path]:
+    """``files`` (those with a netlist suffix) and every netlist under their project roots
+    that reads one of them, directly or through other includes.
+
+    A netlist whose text does not name a file's base name cannot include it, so only those
+    that do are read (with their configuration's include paths and limits) to be sure.
+    """
+    from drivelint.config import ConfigError, find_config, load_config
+    from drivelint.paths import resolved
+    from drivelint.pipeline import collect_paths, find_project_root, load_circuit, options_from
+
+    wanted = {resolved(f): f for f in files}
+    roots = sorted({find_project_root(f) for f in files})
+    out = [f for f in files if f.suffix.lower() in suffixes]
+    seen = {resolved(f) for f in out}
+    names = {f.name.lower().encode() for f in files}
+    for root in roots:
+        try:
+            candidates = collect_paths((root,), suffixes)[:MAX_INCLUDER_CANDIDATES]
+        except OSError:
+            continue
+        for candidate in candidates:
+            real = resolved(candidate)
+            if real in seen:
+                continue
+            try:
+                if candidate.stat().st_size > MAX_INCLUDER_BYTES:
+                    continue
+                content = candidate.read_bytes().lower()
+            except OSError:
+                continue
+            if not any(name in content for name in names):
+                continue
+            try:
+                load = options_from(load_config(find_config(candidate)))
+            except ConfigError:
+                load = None
+            circuit = load_circuit(candidate, load)
+            if any(resolved(Path(f)) in wanted for f in circuit.files if f != str(candidate)):
+                out.append(candidate)
+                seen.add(real)
+    return out
 
 
 def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> Any:
