@@ -147,7 +147,15 @@ def test_local_form_as_the_readme_writes_it(tmp_path: Path, head: str) -> None:
         '  (components\n    (comp (ref "R1")\n      (value "10k")))\n  (nets))\n'
     )
     _git(repo, "add", "board.net")
-    skipped = commit(repo, env, "board netlist")
+    # pre-commit shows a passing hook's output only when asked to.
+    skipped = subprocess.run(
+        ["pre-commit", "run", "--verbose", "--files", "board.net"],
+        cwd=repo,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=900,
+    )
     output = skipped.stdout + skipped.stderr
     assert skipped.returncode == 0, output
     assert "board.net: note: skipped: an S-expression file" in output

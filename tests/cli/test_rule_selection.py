@@ -153,3 +153,22 @@ def test_missing_path_exits_2_naming_it(tmp_path: Path) -> None:
     result = CliRunner().invoke(main, ["check", "--no-cache", str(tmp_path / "exampels")])
     assert result.exit_code == 2
     assert "exampels' does not exist" in result.output and ":1:1" not in result.output
+
+
+def test_an_s_expression_netlist_is_skipped_with_a_note(tmp_path: Path) -> None:
+    # issue 14, item 7: a PCB netlist shares the .net suffix; one note, no syntax errors.
+    from drivelint.cli import not_spice
+
+    board = tmp_path / "board.net"
+    board.write_text('(export (version "E")\n  (components\n    (comp (ref "R1")))\n  (nets))\n')
+    spice = tmp_path / "amp.net"
+    spice.write_text("(rev B) output stage\nR1 a 0 1k\nV1 a 0 DC 1\n.end\n")
+    assert not_spice(board.read_bytes()) is not None
+    assert not_spice(spice.read_bytes()) is None  # a title may open with a parenthesis
+    result = CliRunner().invoke(main, ["check", "--no-cache", str(tmp_path)])
+    notes = [x for x in result.output.splitlines() if "board.net" in x]
+    assert notes == [
+        f"{board}: note: skipped: an S-expression file (a PCB or schematic netlist "
+        "of another format), not SPICE [not-spice]"
+    ]
+    assert result.exit_code == 0
