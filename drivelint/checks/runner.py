@@ -248,9 +248,8 @@ def _assumptions(stage: DriveStage, facts: StageFacts, ratings: Ratings) -> Stag
         if stage.supply.kind in ("bootstrap", "charge-pump"):
             candidates["vf"] = facts.diode_vf if facts.diode is not None else None
             candidates["i_leak"] = facts.i_leak
-        if stage.supply.boot_net:
-            candidates["i_quiescent"] = facts.i_quiescent
         if stage.driver is not None:
+            candidates["i_quiescent"] = facts.i_quiescent
             candidates["q_levelshift"] = facts.q_ls
         candidates["ambient"] = facts.temperature
     except (RatingError, ArithmeticError, ValueError):
