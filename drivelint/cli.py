@@ -104,6 +104,10 @@ def _plan(
 def _scan(paths: tuple[Path, ...], suffixes: tuple[str, ...] | None = None) -> list[Path]:
     from drivelint.pipeline import collect_paths
 
+    for path in paths:
+        if not path.exists() and not path.is_symlink():
+            _fail(f"'{path}' does not exist (no such file or folder)")
+
     try:
         return collect_paths(paths, suffixes) if suffixes else collect_paths(paths)
     except OSError as exc:

@@ -172,3 +172,9 @@ def test_an_s_expression_netlist_is_skipped_with_a_note(tmp_path: Path) -> None:
         "of another format), not SPICE [not-spice]"
     ]
     assert result.exit_code == 0
+
+
+@pytest.mark.parametrize("command", ["netlist", "stages"])
+def test_missing_path_exits_2_in_every_command(tmp_path: Path, command: str) -> None:
+    result = CliRunner().invoke(main, [command, str(tmp_path / "nosuch.cir")])
+    assert result.exit_code == 2 and "nosuch.cir' does not exist" in result.output
