@@ -98,6 +98,12 @@ def _driver_default(facts: StageFacts, key: str, amount: float | None = None) ->
     )
 
 
+def _junction_law(params: Mapping[str, float]) -> bool:
+    """A model card whose IS and N give a usable Shockley law (N = 0 or negative, which no
+    junction has, leaves the documented default drop to stand in)."""
+    return bool(params.get("is")) and params.get("n", 1.0) > 0
+
+
 def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
     """Every device touching each net; built once per circuit and shared by its stages."""
     index: dict[str, list[Device]] = {}
@@ -417,7 +423,7 @@ class StageFacts:
         if given is not None:
             return Value(given[0], "V", f"directive ({given[1].path}:{given[1].line})")
         model = device.model
-        if model is not None and model.params.get("is"):
+        if model is not None and _junction_law(model.params):
             params = model.params
             amps = max(current, DIODE_VF_MIN_CURRENT) / device.multiplier
             drop = diode_physics.diode_drop(
@@ -442,7 +448,7 @@ class StageFacts:
     def _n_vt(self) -> float | None:
         """N·V_T of the bootstrap diode's model at the junction temperature."""
         model = self.diode.model if self.diode else None
-        if model is None or not model.params.get("is"):
+        if model is None or not _junction_law(model.params):
             return None
         return model.params.get("n", 1.0) * diode_physics.thermal_voltage(self.temperature.value)
 
@@ -493,7 +499,7 @@ class StageFacts:
         for refresh in self.stage.refresh:
             device = self.device(refresh.devices[0])
             model = device.model if device else None
-            if device is None or model is None or not model.params.get("is"):
+            if device is None or model is None or not _junction_law(model.params):
                 continue
             if refresh.kind in ("low-side switch", "freewheel diode"):
                 params = model.params
