@@ -104,6 +104,10 @@ def _plan(
 def _scan(paths: tuple[Path, ...], suffixes: tuple[str, ...] | None = None) -> list[Path]:
     from drivelint.pipeline import collect_paths
 
+    for path in paths:
+        if not path.exists() and not path.is_symlink():
+            _fail(f"'{path}' does not exist (no such file or folder)")
+
     try:
         return collect_paths(paths, suffixes) if suffixes else collect_paths(paths)
     except OSError as exc:
@@ -187,11 +191,18 @@ def stages_command(
         allow_hidden_includes=allow_hidden_includes,
         scan_roots=files,
     )
+    from drivelint.checks.runner import shifter_currents
+    from drivelint.pipeline import parts_for
+
     results = []
+    currents = {}
     failed = False
     for job in _plan(_scan(files), options):
         try:
             circuit, stages = stages_job(job, options)
+            if any(s.level_shifter for s in stages):
+                library = parts_for(job.path, (*job.config.parts, *options.parts))
+                currents[circuit.path] = shifter_currents(circuit, stages, library)
         except PartsError as exc:
             _fail(str(exc))
         failed |= any(d.severity is Severity.ERROR for d in circuit.diagnostics)
@@ -200,11 +211,18 @@ def stages_command(
         import json
 
         payload = stages_json([s for _, stages in results for s in stages])
+        for entry in payload["stages"]:
+            # What the level shifter draws, from the rules' own account of the drains.
+            found = currents.get(entry["path"], {}).get(entry["switch"])
+            if "level_shifter" in entry and found is not None:
+                entry["level_shifter"]["drain_on"] = found.value
         # What could not be read is said, not only left out of the stages.
         payload["diagnostics"] = [d.to_json() for c, _ in results for d in c.diagnostics]
         click.echo(json.dumps(payload, indent=2))
     else:
-        click.echo("\n\n".join(stages_text(c, s, show_all) for c, s in results))
+        click.echo(
+            "\n\n".join(stages_text(c, s, show_all, currents.get(c.path)) for c, s in results)
+        )
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
 
 
@@ -222,6 +240,8 @@ def _expand(paths: tuple[str, ...], suffixes: tuple[str, ...]) -> tuple[list[Pat
             if not matches:
                 raise click.UsageError(f"no file matches '{raw}'")
             out.extend(_scan(tuple(Path(m) for m in matches), suffixes))
+        elif not Path(raw).exists() and not Path(raw).is_symlink():
+            _fail(f"'{raw}' does not exist (no such file or folder)")
         else:
             out.extend(_scan((Path(raw),), suffixes))
     return out, stdin
@@ -312,6 +332,39 @@ def _write_output(text: str, output: Path | None, checked: list[Path]) -> None:
     "--stdin-name", default="stdin.cir", show_default=True, help="Name for '-' (standard input)."
 )
 @click.option("--no-color", is_flag=True, help="Plain text even on a terminal.")
+@click.option(
+    "--select",
+    "select",
+    multiple=True,
+    metavar="RULE,…",
+    help="Report only these rules (ids, or their first words such as 'bootstrap'); repeatable.",
+)
+@click.option(
+    "--ignore",
+    "ignore",
+    multiple=True,
+    metavar="RULE,…",
+    help="Do not report these rules (ids or their first words); repeatable.",
+)
+@click.option(
+    "--show-accepted",
+    is_flag=True,
+    help="Text: also list the findings an acceptance directive accepted, with the reason.",
+)
+@click.option(
+    "--testbench",
+    "testbench_dir",
+    type=click.Path(path_type=Path, file_okay=False),
+    default=None,
+    help="HTML: link each finding to its decks in this `drivelint testbench` folder.",
+)
+@click.option(
+    "--with-includers",
+    is_flag=True,
+    help="Also check every netlist under the project root that includes a named file (a "
+    "staged model or include file); named files that are not netlists are not checked "
+    "themselves.",
+)
 @_outside_option
 @_hidden_option
 def check_command(
@@ -329,6 +382,11 @@ def check_command(
     shard: str | None,
     stdin_name: str,
     no_color: bool,
+    select: tuple[str, ...],
+    ignore: tuple[str, ...],
+    show_accepted: bool,
+    testbench_dir: Path | None,
+    with_includers: bool,
     allow_outside_root: bool,
     allow_hidden_includes: bool,
 ) -> None:
@@ -352,7 +410,13 @@ def check_command(
         suffixes = load_config(config_file).suffixes if config_file else DEFAULT_SUFFIXES
     except ConfigError as exc:
         _fail(str(exc))
+    keep = _rule_filter(select, ignore)
+    if testbench_dir is not None and fmt != "html":
+        raise click.UsageError("--testbench links decks into the HTML report: use --format html")
     files, use_stdin = _expand(paths, suffixes)
+    if with_includers:
+        files = _with_includers(files, suffixes)
+    files = _spice_only(files)
     if shard is not None:
         try:
             index, count = (int(x) for x in shard.split("/"))
@@ -398,8 +462,29 @@ def check_command(
         and "NO_COLOR" not in os.environ
         and sys.stdout.isatty()
     )
-    report = formatter(fmt)(results, ReportOptions(explain=explain, color=color))
+    if keep is not None:
+        from drivelint.checks.runner import select_rules
+
+        results = [select_rules(r, keep) for r in results]
+    width = None
+    if fmt == "text" and output is None and sys.stdout.isatty():
+        import shutil
+
+        width = shutil.get_terminal_size().columns
+    report_options = ReportOptions(
+        explain=explain,
+        color=color,
+        show_accepted=show_accepted,
+        width=width,
+        testbench=str(testbench_dir) if testbench_dir is not None else None,
+        output=str(output) if output is not None else None,
+    )
+    report = formatter(fmt)(results, report_options)
     _write_output(report, output, files)
+    if any(Path(p).is_dir() for p in paths if p != "-"):
+        # A library scan: what the settings give that no netlist of it uses is said.
+        for line in _unused_settings(planned, options, results):
+            click.echo(line, err=True)
     if fmt != "text" or output is not None:
         from drivelint.report.findings import summary_text
 
@@ -418,6 +503,155 @@ def check_command(
     if stats.failed or partial or any(f.severity >= threshold for r in results for f in r.findings):
         sys.exit(EXIT_FINDINGS)
     sys.exit(EXIT_OK)
+
+
+def _unused_settings(planned: list[Job], options: BatchOptions, results: list[Any]) -> list[str]:
+    """Warnings for parts entries and configured conditions no netlist of the run uses."""
+    from drivelint.checks.runner import unused_conditions, unused_parts
+    from drivelint.ratings.parts import PartsError, load_parts
+
+    files: set[Path] = set()
+    configured: dict[str, list[str]] = {}
+    for job in planned:
+        beside = job.path.parent / "parts.toml"
+        files.update((*job.config.parts, *options.parts))
+        if beside.is_file():
+            files.add(beside)
+        for key, (_, origin) in job.config.conditions_for_file(job.path).items():
+            configured.setdefault(key, []).append(origin)
+    libraries = []
+    for path in sorted(files):
+        try:
+            libraries.append(load_parts(path))
+        except (PartsError, OSError):
+            continue  # already reported where it was used
+    lines = [d.headline() + f" [{d.code}]" for d in unused_parts(results, libraries)]
+    return lines + unused_conditions(results, configured)
+
+
+# What a netlist suffix may hold that is not SPICE: a PCB netlist in S-expression form
+# shares ".net". Only the start of a file is looked at.
+SNIFF_BYTES = 64 << 10
+
+
+def not_spice(head: bytes) -> str | None:
+    """Why these first bytes of a file are not a SPICE netlist, or None.
+
+    An S-expression document (its first character an opening parenthesis, and nearly every
+    line opening or closing one) is a netlist of another kind. A SPICE deck's first line
+    is a free title, so one parenthesis alone proves nothing: most lines must be lists.
+    """
+    text = head.decode("utf-8", "replace").lstrip("\ufeff")
+    stripped = text.lstrip()
+    if not stripped.startswith("("):
+        return None
+    lines = [line.strip() for line in text.splitlines() if line.strip()]
+    if len(lines) > 1 and not lines[-1].startswith(("(", ")")):
+        lines = lines[:-1]  # a line cut at SNIFF_BYTES
+    lists = sum(1 for line in lines if line.startswith(("(", ")")))
+    if lists >= 0.9 * len(lines):
+        return "an S-expression file (a PCB or schematic netlist of another format), not SPICE"
+    return None
+
+
+def _spice_only(files: list[Path]) -> list[Path]:
+    """The files less those that are not SPICE netlists, each skipped with a one-line note."""
+    import os
+    import stat
+
+    kept = []
+    for path in files:
+        # Opened without blocking and read only when a regular file: a FIFO must not hang
+        # the run here either (the check itself refuses it with a diagnostic).
+        flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0)
+        try:
+            fd = os.open(path, flags)
+        except OSError:
+            kept.append(path)  # the check reports why it cannot be read
+            continue
+        try:
+            head = os.read(fd, SNIFF_BYTES) if stat.S_ISREG(os.fstat(fd).st_mode) else b""
+        except OSError:
+            head = b""
+        finally:
+            os.close(fd)
+        why = not_spice(head)
+        if why is None:
+            kept.append(path)
+        else:
+            from drivelint.diagnostics import printable
+
+            click.echo(f"{printable(str(path))}: note: skipped: {why} [not-spice]", err=True)
+    return kept
+
+
+MAX_INCLUDER_CANDIDATES = 20_000  # netlists looked at under one project root
+MAX_INCLUDER_BYTES = 32 << 20  # larger ones are not searched for an include
+
+
+def _with_includers(files: list[Path], suffixes: tuple[str, ...]) -> list[Path]:
+    """``files`` (those with a netlist suffix) and every netlist under their project roots
+    that reads one of them, directly or through other includes.
+
+    A netlist whose text does not name a file's base name cannot include it, so only those
+    that do are read (with their configuration's include paths and limits) to be sure.
+    """
+    from drivelint.config import ConfigError, find_config, load_config
+    from drivelint.paths import resolved
+    from drivelint.pipeline import collect_paths, find_project_root, load_circuit, options_from
+
+    wanted = {resolved(f): f for f in files}
+    roots = sorted({find_project_root(f) for f in files})
+    out = [f for f in files if f.suffix.lower() in suffixes]
+    seen = {resolved(f) for f in out}
+    names = {f.name.lower().encode() for f in files}
+    for root in roots:
+        try:
+            candidates = collect_paths((root,), suffixes)[:MAX_INCLUDER_CANDIDATES]
+        except OSError:
+            continue
+        for candidate in candidates:
+            real = resolved(candidate)
+            if real in seen:
+                continue
+            try:
+                if candidate.stat().st_size > MAX_INCLUDER_BYTES:
+                    continue
+                content = candidate.read_bytes().lower()
+            except OSError:
+                continue
+            if not any(name in content for name in names):
+                continue
+            try:
+                load = options_from(load_config(find_config(candidate)))
+            except ConfigError:
+                load = None
+            circuit = load_circuit(candidate, load)
+            if any(resolved(Path(f)) in wanted for f in circuit.files if f != str(candidate)):
+                out.append(candidate)
+                seen.add(real)
+    return out
+
+
+def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> Any:
+    """A predicate on rule ids from --select/--ignore (None: every rule), or exit 2."""
+    if not select and not ignore:
+        return None
+    from drivelint.checks.registry import registry
+    from drivelint.checks.runner import expand_rule_patterns
+
+    known = list(registry())
+    try:
+        chosen = (
+            expand_rule_patterns([p for s in select for p in s.split(",")], known)
+            if select
+            else frozenset(known)
+        )
+        dropped = expand_rule_patterns([p for s in ignore for p in s.split(",")], known)
+    except ValueError as exc:
+        raise click.UsageError(str(exc)) from None
+    kept = chosen - dropped
+    return lambda rule_id: rule_id in kept
 
 
 @main.command("rules")

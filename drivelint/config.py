@@ -37,6 +37,10 @@ from drivelint.checks.runner import RuleSetting
 from drivelint.diagnostics import Severity
 from drivelint.limits import Limits
 
+# Operating conditions are read and ranged in one place for directives and configuration.
+from drivelint.ratings.conditions import CONDITION_RANGES as CONDITION_RANGES
+from drivelint.ratings.conditions import out_of_range as _in_range
+
 CONFIG_FILES = ("drivelint.toml", "pyproject.toml")
 TOP_KEYS = frozenset(
     {
@@ -51,6 +55,9 @@ TOP_KEYS = frozenset(
         "conditions",
         "conditions_for",
         "rule",
+        "select",
+        "ignore",
+        "rules_for",
     }
 )
 DEFAULT_SUFFIXES = (".cir", ".net", ".sp", ".spi", ".spice", ".ckt")
@@ -75,6 +82,9 @@ class Config:
     conditions_for: tuple[tuple[str, Mapping[str, tuple[float, str]]], ...] = ()
     rules: Mapping[str, RuleSetting] = field(default_factory=dict)
     origins: Mapping[str, str] = field(default_factory=dict)
+    select: frozenset[str] | None = None  # None: every rule
+    ignore: frozenset[str] = frozenset()
+    rules_for: tuple[RuleScope, ...] = ()
 
     @property
     def root(self) -> Path | None:
@@ -88,9 +98,53 @@ class Config:
                 merged.update(values)
         return merged
 
+    def rules_for_file(self, path: Path) -> dict[str, RuleSetting]:
+        """The rule settings for one file: ``[rule.*]``, then every ``[[rules_for]]`` whose
+        glob matches (later ones win), with ``select``/``ignore`` switching rules off."""
+        from drivelint.checks.registry import registry
+
+        settings = dict(self.rules)
+        select, ignore = self.select, set(self.ignore)
+        relative = _relative(path, self.root)
+        for scope in self.rules_for:
+            if not fnmatch.fnmatch(relative, scope.glob):
+                continue
+            for rule_id, setting in scope.rules.items():
+                settings[rule_id] = _merged(settings.get(rule_id), setting, scope.given[rule_id])
+            if scope.select is not None:
+                select = scope.select
+            ignore |= scope.ignore
+        if select is None and not ignore:
+            return settings
+        for rule_id in registry():
+            if (select is not None and rule_id not in select) or rule_id in ignore:
+                settings[rule_id] = replace(settings.get(rule_id, RuleSetting()), enabled=False)
+        return settings
+
     def excluded(self, path: Path) -> bool:
         relative = _relative(path, self.root)
         return any(_matches(relative, pattern) for pattern in self.exclude)
+
+
+@dataclass(frozen=True, slots=True)
+class RuleScope:
+    """A ``[[rules_for]]`` entry: rule settings for the files matching a glob."""
+
+    glob: str
+    select: frozenset[str] | None = None
+    ignore: frozenset[str] = frozenset()
+    rules: Mapping[str, RuleSetting] = field(default_factory=dict)
+    given: Mapping[str, frozenset[str]] = field(default_factory=dict)  # keys set, per rule
+
+
+def _merged(base: RuleSetting | None, override: RuleSetting, given: frozenset[str]) -> RuleSetting:
+    """``override``'s given keys (enabled, severity, options) over ``base``."""
+    base = base or RuleSetting()
+    return RuleSetting(
+        override.enabled if "enabled" in given else base.enabled,
+        override.severity if "severity" in given else base.severity,
+        {**base.options, **override.options},
+    )
 
 
 def _relative(path: Path, root: Path | None) -> str:
@@ -202,19 +256,6 @@ LIMIT_CEILINGS: Mapping[str, int] = {
     "max_poly_dimensions": 64,
 }
 
-# Ranges of the operating conditions (SI units): a negative, zero, NaN or infinite
-# frequency or bus voltage would make findings vanish rather than fail.
-CONDITION_RANGES: Mapping[str, tuple[float, float, bool]] = {
-    # key: (low, high, low is allowed)
-    "fsw": (0.0, 1e9, False),
-    "duty_max": (0.0, 1.0, True),
-    "on_time_max": (0.0, 1e6, False),
-    "v_bus": (0.0, 1e6, False),
-    "v_aux": (0.0, 1e4, False),
-    # kelvin: -100 °C to 300 °C, wider than any rated part; the diode laws lose meaning beyond
-    "ambient": (173.0, 574.0, True),
-    "load_current": (0.0, 1e6, True),
-}
 # Ranges of rule options by name; any other option must be finite and not negative.
 OPTION_RANGES: Mapping[str, tuple[float, float, bool]] = {
     "margin": (1.0, 1e3, True),  # below 1 accepts a capacitor smaller than its charge needs
@@ -223,20 +264,6 @@ OPTION_RANGES: Mapping[str, tuple[float, float, bool]] = {
     "zener_tolerance": (0.0, 0.5, True),
 }
 _ANY_OPTION = (0.0, float("inf"), True)
-
-
-def _in_range(value: float, bounds: tuple[float, float, bool]) -> str | None:
-    """None if ``value`` is inside ``bounds``, else what the range is."""
-    import math
-
-    low, high, closed = bounds
-    if not math.isfinite(value):
-        return "must be a finite number"
-    if value < low or (value == low and not closed) or value > high:
-        opening = "[" if closed else "("
-        top = "" if math.isinf(high) else f"{high:g}"
-        return f"{value:g} is out of range: expected a value in {opening}{low:g}, {top or '∞'}]"
-    return None
 
 
 def load_config(path: Path | None, known_rules: Mapping[str, Any] | None = None) -> Config:
@@ -262,8 +289,8 @@ def _parse(
     known_rules: Mapping[str, Any] | None,
     lines: Any,
 ) -> Config:
-    from drivelint.ratings.directives import CONDITION_KEYS
-    from drivelint.ratings.units import UnitError, parse_quantity
+    from drivelint.ratings.conditions import CONDITION_KEYS, read_condition
+    from drivelint.ratings.units import UnitError
 
     dotted = ".".join(prefix) + "." if prefix else ""
 
@@ -350,12 +377,9 @@ def _parse(
             if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
                 raise fail((*where, key), f"expected a quantity string, not {_kind(raw)}")
             try:
-                value = parse_quantity(raw, CONDITION_KEYS[key])
+                value = read_condition(key, raw)
             except UnitError as exc:
                 raise fail((*where, key), str(exc)) from None
-            problem = _in_range(value, CONDITION_RANGES.get(key, _ANY_OPTION))
-            if problem:
-                raise fail((*where, key), problem)
             out[key] = (value, f"{path}: {dotted}{shown}.{key}")
         return out
 
@@ -375,11 +399,77 @@ def _parse(
                 raise fail(("conditions_for", index, "glob"), "each entry needs a glob")
             per_glob.append((glob, conditions(entry, ("conditions_for", index))))
         config = replace(config, conditions_for=tuple(per_glob))
+
+    def rule_list(key: tuple[str | int, ...], value: object) -> frozenset[str]:
+        from drivelint.checks.registry import registry
+        from drivelint.checks.runner import expand_rule_patterns
+
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            raise fail(key, "expected a list of rule ids (or their first words)")
+        try:
+            return expand_rule_patterns(value, list(known_rules or registry()))
+        except ValueError as exc:
+            raise fail(key, str(exc)) from None
+
+    def rule_tables(value: object, key: tuple[str | int, ...]) -> dict[str, Any]:
+        rules = table(value, key)
+        for rule_id, entry in rules.items():
+            table(entry, (*key, rule_id))
+        return rules
+
     if "rule" in data:
-        rules = table(data["rule"], "rule")
-        for rule_id, value in rules.items():
-            table(value, ("rule", rule_id))
+        rules = rule_tables(data["rule"], ("rule",))
         config = replace(config, rules=_rules(rules, fail, known_rules, origins, origin))
+    if "select" in data:
+        config = replace(config, select=rule_list(("select",), data["select"]))
+        origins["select"] = origin("select")
+    if "ignore" in data:
+        config = replace(config, ignore=rule_list(("ignore",), data["ignore"]))
+        origins["ignore"] = origin("ignore")
+    if "rules_for" in data:
+        entries = data["rules_for"]
+        if not isinstance(entries, list):
+            raise fail("rules_for", "expected an array of tables ([[rules_for]])")
+        scopes = []
+        for index, entry in enumerate(entries):
+            entry = dict(table(entry, ("rules_for", index)))
+            glob = entry.pop("glob", None)
+            if not isinstance(glob, str):
+                raise fail(("rules_for", index, "glob"), "each entry needs a glob")
+            unknown_keys = sorted(set(entry) - {"select", "ignore", "rule"})
+            if unknown_keys:
+                raise fail(
+                    ("rules_for", index, unknown_keys[0]),
+                    "unknown key; expected glob, select, ignore or rule",
+                )
+            select = (
+                rule_list(("rules_for", index, "select"), entry["select"])
+                if "select" in entry
+                else None
+            )
+            ignore = (
+                rule_list(("rules_for", index, "ignore"), entry["ignore"])
+                if "ignore" in entry
+                else frozenset()
+            )
+            tables = rule_tables(entry.get("rule", {}), ("rules_for", index, "rule"))
+
+            def scoped(
+                key: str | tuple[str | int, ...], message: str, index: int = index
+            ) -> ConfigError:
+                keys = key if isinstance(key, tuple) else tuple(key.split("."))
+                return fail(("rules_for", index, *keys), message)
+
+            settings = _rules(tables, scoped, known_rules, {}, origin)
+            given = {
+                rule_id: frozenset(
+                    k if k in ("enabled", "severity") else "option" for k in tables[rule_id]
+                )
+                for rule_id in tables
+            }
+            scopes.append(RuleScope(glob, select, ignore, settings, given))
+        config = replace(config, rules_for=tuple(scopes))
+        origins["rules_for"] = origin("rules_for")
     return replace(config, origins=origins)
 
 
@@ -413,10 +503,19 @@ def _rules(
             raw = table.pop("severity")
             if not isinstance(raw, str):
                 raise fail(("rule", rule_id, "severity"), f"expected a string, not {_kind(raw)}")
-            try:
-                severity = Severity.parse(raw)
-            except ValueError as exc:
-                raise fail(("rule", rule_id, "severity"), str(exc)) from None
+            if raw.strip().lower() == "off":
+                # "off" is not a severity a finding can have: the rule does not run.
+                if "enabled" in tables[rule_id] and enabled:
+                    raise fail(("rule", rule_id, "severity"), "'off' contradicts enabled = true")
+                enabled = False
+            else:
+                try:
+                    severity = Severity.parse(raw)
+                except ValueError:
+                    raise fail(
+                        ("rule", rule_id, "severity"),
+                        f"unknown severity {raw!r}; expected error, warning, note or off",
+                    ) from None
         options: dict[str, float] = {}
         for name, raw in table.items():
             option = rule.options.get(name)
@@ -464,6 +563,21 @@ def describe(config: Config) -> str:
     for glob, values in config.conditions_for:
         for key, (value, origin) in sorted(values.items()):
             lines.append(f"conditions_for[{glob}].{key} = {value:g}    # {origin}")
+    if config.select is not None:
+        lines.append(row("select", sorted(config.select)))
+    if config.ignore:
+        lines.append(row("ignore", sorted(config.ignore)))
+    for scope in config.rules_for:
+        where = origins.get("rules_for", "default")
+        if scope.select is not None:
+            lines.append(f"rules_for[{scope.glob}].select = {sorted(scope.select)}    # {where}")
+        if scope.ignore:
+            lines.append(f"rules_for[{scope.glob}].ignore = {sorted(scope.ignore)}    # {where}")
+        for rule_id, setting in sorted(scope.rules.items()):
+            state = "on" if setting.enabled else "off"
+            severity = f", severity {setting.severity.label}" if setting.severity else ""
+            options = "".join(f", {k} = {v:g}" for k, v in sorted(setting.options.items()))
+            lines.append(f"rules_for[{scope.glob}].rule.{rule_id}: {state}{severity}{options}")
     for rule_id, setting in sorted(config.rules.items()):
         lines.append(row(f"rule.{rule_id}.enabled", setting.enabled))
         if setting.severity:

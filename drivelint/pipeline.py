@@ -218,7 +218,7 @@ def check_path(
         key: Value(value, CONDITION_KEYS[key], origin)
         for key, (value, origin) in config.conditions_for_file(target).items()
     }
-    return check_circuit(circuit, stages, library, config.rules, conditions)
+    return check_circuit(circuit, stages, library, config.rules_for_file(target), conditions)
 
 
 def check_text(

@@ -12,6 +12,19 @@ from drivelint.stages.model import DriveStage
 
 
 @dataclass(frozen=True, slots=True)
+class Waiver:
+    """The acceptance directive that accepted a finding: its reason and where it is."""
+
+    __reduce__ = positional_reduce
+
+    reason: str
+    span: Span
+
+    def to_json(self) -> dict[str, object]:
+        return {"reason": self.reason, "path": self.span.path, "line": self.span.line}
+
+
+@dataclass(frozen=True, slots=True)
 class Finding:
     """One problem with a design, with the numbers behind it and a fix."""
 
@@ -27,6 +40,7 @@ class Finding:
     fix: str
     related: tuple[Span, ...] = ()
     derivation: tuple[str, ...] = ()
+    accepted: Waiver | None = None  # set when an acceptance directive accepts it
 
     def sort_key(self) -> tuple[str, int, int, str, str]:
         return (self.span.path, self.span.line, self.span.column, self.rule, self.device)
@@ -44,6 +58,7 @@ class Finding:
             "values": {k: v.to_json() for k, v in sorted(self.values.items())},
             "fix": self.fix,
             "related": [{"path": s.path, "line": s.line, "column": s.column} for s in self.related],
+            "accepted": self.accepted.to_json() if self.accepted else None,
         }
 
 

@@ -40,12 +40,14 @@ class Drain:
 
 
 def _hidden(facts: StageFacts, device: Device) -> bool:
-    """Inside a driver IC whose boot current the parts library already gives."""
+    """Inside a driver IC whose boot current the parts library already gives (a driver
+    without one is charged its model's own drains, or a default when it has none)."""
     driver = facts.stage.driver
     return (
         driver is not None
         and device.name.startswith(driver.device + ".")
         and facts.i_quiescent.value > 0
+        and not facts.i_quiescent.origin.startswith("default")
     )
 
 
@@ -176,13 +178,22 @@ def _other_net(device: Device, net: str) -> str | None:
 
 @dataclass(frozen=True, slots=True)
 class _Branch:
-    """A series path from a pull-up's control net down to a net of known voltage."""
+    """A series path from a pull-up's control net down to a net of known voltage.
+
+    ``joint`` is the net where resistors from the boot or gate net (``feeds``: name and
+    resistance) join the path: the layout with a resistor from the boot node to the level
+    shifter's collector and the pull-up's base resistor after it. ``before`` is the path's
+    resistance from the control net to that joint.
+    """
 
     devices: tuple[str, ...]
     resistance: float
     drop: float
     end_net: str
     end_volts: float
+    joint: str | None = None
+    feeds: tuple[tuple[str, float], ...] = ()
+    before: float = 0.0
 
 
 def _known_voltage(facts: StageFacts, net: str, v_bus: float) -> float | None:
@@ -201,7 +212,9 @@ def _follow_branch(
 
     A collector (NPN) or drain (N-channel) met on the way is taken as conducting: the
     branch feeds the control terminal of a pull-up that is on, so whatever sits in series
-    with it must conduct too.
+    with it must conduct too. At one net on the way, resistors up to the boot or gate net
+    may join (a pull-up resistor on the level shifter's collector): they are kept as the
+    branch's ``feeds``, since the transistor then sinks their current too.
     """
     resistance = _resistance(first)
     at = _other_net(first, start)
@@ -209,15 +222,28 @@ def _follow_branch(
         return None
     names = [first.name]
     drop = 0.0
+    joint: str | None = None
+    feeds: tuple[tuple[str, float], ...] = ()
+    before = 0.0
     for _ in range(MAX_BRANCH_HOPS):
         if at in high:
             return None
         volts = _known_voltage(facts, at, v_bus)
         if volts is not None:
-            return _Branch(tuple(names), resistance, drop, at, volts)
+            return _Branch(tuple(names), resistance, drop, at, volts, joint, feeds, before)
         onward = [
             d for d in facts.by_net.get(at, ()) if d.name not in names and d.kind != "capacitor"
         ]
+        if len(onward) > 1 and joint is None:
+            up = [
+                d
+                for d in onward
+                if _resistance(d) is not None and (_other_net(d, at) or "") in high
+            ]
+            if up and len(onward) - len(up) == 1:
+                joint, before = at, resistance
+                feeds = tuple((d.name, _resistance(d) or math.inf) for d in up)
+                onward = [d for d in onward if d not in up]
         if len(onward) != 1:
             return None
         (device,) = onward
@@ -243,6 +269,26 @@ def _follow_branch(
         at = following
         names.append(device.name)
     return None
+
+
+def _joint_currents(branch: _Branch, v_top: float, junction: float | None) -> tuple[float, float]:
+    """(through the pull-up's base path, through the feeds) for a branch with a joint.
+
+    With the joint at V_x, the base path draws (V_top − V_EB − V_x)/R_before and each feed
+    (V_top − V_x)/R_feed, and both return through what follows the joint (R_after, V_sat)
+    to V_end: V_x = V_end + V_sat + R_after·(I_base + I_feeds), solved for V_x (Kirchhoff's
+    current law at the joint).
+    """
+    after = branch.resistance - branch.before
+    g_feed = sum(1.0 / r for _, r in branch.feeds if r > 0)
+    v_eb = junction or 0.0
+    g_base = 1.0 / branch.before if branch.before > 0 else 0.0
+    floor = branch.end_volts + branch.drop
+    v_x = (floor + after * ((v_top - v_eb) * g_base + v_top * g_feed)) / (
+        1.0 + after * (g_base + g_feed)
+    )
+    base = max((v_top - v_eb - v_x) * g_base, 0.0) if junction is not None else 0.0
+    return base, max((v_top - v_x) * g_feed, 0.0)
 
 
 def _pull_up_control(device: Device | None, high: set[str]) -> tuple[str, float | None] | None:
@@ -301,6 +347,11 @@ def level_shift_drains(
             branch = _follow_branch(facts, first, control, high, v_bus)
             if branch is None or seen & set(branch.devices):
                 continue
+            if branch.joint is not None:
+                out.extend(_joint_drains(branch, pull_up, control, v_top, junction))
+                seen.update(branch.devices)
+                seen.update(name for name, _ in branch.feeds)
+                continue
             span = v_top - branch.drop - branch.end_volts
             clamped = (span - junction) / branch.resistance if junction is not None else 0.0
             divider = span / (r_up + branch.resistance) if r_up is not None else 0.0
@@ -324,6 +375,45 @@ def level_shift_drains(
                 )
             )
     return tuple(out)
+
+
+def _joint_drains(
+    branch: _Branch, pull_up: Device, control: str, v_top: float, junction: float | None
+) -> list[Drain]:
+    """The drains of a level shifter whose collector is pulled up from the boot node: the
+    pull-up's base current and the collector resistor's own current, both sunk while the
+    switch is on."""
+    base, fed = _joint_currents(branch, v_top, junction)
+    out = []
+    names = "+".join(branch.devices)
+    how = (
+        f"computed: Kirchhoff's current law at {branch.joint}, V_x = V_end + V_sat + "
+        "R_after·(I_base + I_feed)"
+    )
+    if base > 0:
+        out.append(
+            Drain(
+                names,
+                Value(base, "A", f"{how}; I_base = (V_bus + V_boot − V_EB − V_x)/R_base"),
+                f"drive of pull-up {pull_up.name} from {control} through "
+                f"{', '.join(branch.devices)} to {branch.end_net}",
+            )
+        )
+    for name, _ in branch.feeds:
+        share = fed / len(branch.feeds) if len(branch.feeds) == 1 else None
+        if share is None:
+            # Several feeds in parallel: each its own share of the joint's current.
+            total_g = sum(1.0 / r for _, r in branch.feeds)
+            share = fed * (1.0 / dict(branch.feeds)[name]) / total_g
+        if share > 0:
+            out.append(
+                Drain(
+                    name,
+                    Value(share, "A", f"{how}; I_feed = (V_bus + V_boot − V_x)/R"),
+                    f"{name} from the boot node to the level shifter at {branch.joint}",
+                )
+            )
+    return out
 
 
 def clamp_leakage(stage: DriveStage, facts: StageFacts) -> Value:

@@ -65,6 +65,45 @@ VGS_ON_LOGIC_LEVEL = 4.5
 LOGIC_LEVEL_MAX_VTO = 2.0
 
 
+# A driver IC with no parts entry (recognised by its pin names) is charged conservative
+# figures, never zero. From memory: the boot-supply quiescent current of high-side gate
+# drivers is typically 50-150 uA, a few hundred uA at most; bootstrap-sizing application
+# notes take about 5 nC of level-shifter charge per cycle for high-voltage (600 V)
+# half-bridge drivers, and low-voltage drivers need well under 1 nC. The quiescent
+# default is used only where the driver's model shows no drain of its own from the boot
+# pin; the level-shift charge, which no behavioural model shows, always.
+DRIVER_IQ_BOOT_DEFAULT = 250e-6
+DRIVER_Q_LEVELSHIFT_DEFAULT = 1e-9  # buses up to DRIVER_HIGH_VOLTAGE
+DRIVER_Q_LEVELSHIFT_HIGH_VOLTAGE = 5e-9
+DRIVER_HIGH_VOLTAGE = 100.0
+
+
+def _driver_default(facts: StageFacts, key: str, amount: float | None = None) -> str:
+    driver = facts.stage.driver
+    assert driver is not None
+    part = facts.ratings.parts.get(driver.subckt)
+    if part is not None:
+        # The user's own entry leaves it out: taken as none, and listed as assumed.
+        return f"none given: part {part.name} ({part.origin}) has no {key}, taken as 0"
+    if key == "q_levelshift":
+        figure = format_si(amount or 0.0, "C")
+        high = amount == DRIVER_Q_LEVELSHIFT_HIGH_VOLTAGE
+        what = f"level-shift charge for a {'high' if high else 'low'}-voltage bus"
+    else:
+        figure, what = format_si(DRIVER_IQ_BOOT_DEFAULT, "A"), "boot-supply quiescent current"
+    return (
+        f"default: {figure}, a conservative {what} for driver {driver.device} (no parts "
+        f"entry for {driver.subckt}; typical drivers take less, from memory); give {key} "
+        "for the part"
+    )
+
+
+def _junction_law(params: Mapping[str, float]) -> bool:
+    """A model card whose IS and N give a usable Shockley law (N = 0 or negative, which no
+    junction has, leaves the documented default drop to stand in)."""
+    return bool(params.get("is")) and params.get("n", 1.0) > 0
+
+
 def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
     """Every device touching each net; built once per circuit and shared by its stages."""
     index: dict[str, list[Device]] = {}
@@ -289,6 +328,8 @@ class StageFacts:
             if fsw is not None and duty is not None:
                 # Conditions without a waveform: one period's share stands in.
                 return computed(duty.value / fsw.value, "s", "computed: D/f_sw (conditions)")
+        if found is not None and self.condition("on_time_max") is None:
+            found = self._capped_by_duty(found)
         if found is not None or not self.modulated:
             return found
         if self.duty_max is not None and self.fsw is not None:
@@ -307,6 +348,23 @@ class StageFacts:
             f"one period of the carrier of the modulator {self.stage.control.source}"  # type: ignore[union-attr]
             " (the loop sets the duty, the netlist does not; set duty_max or on_time_max "
             "to refine)",
+        )
+
+    def _capped_by_duty(self, found: Value) -> Value:
+        """A periodic command's on-time read from its waveform, capped at D_max/f_sw where
+        a duty_max is given: the duty the rules use then also bounds each on-time (as
+        on_time_max sets it outright). A DC command keeps its unbounded on-time."""
+        duty, waveform = self.condition("duty_max"), self.waveform
+        if duty is None or waveform is None or waveform.period() is None or self.fsw is None:
+            return found
+        cap = duty.value / self.fsw.value
+        if not found.value > cap:
+            return found
+        return computed(
+            cap,
+            "s",
+            f"computed: D_max/f_sw = {duty.text()} / {self.fsw.text()} ({duty.origin}), "
+            f"capping the {found.text()} of the {found.origin}",
         )
 
     @cached_property
@@ -365,7 +423,7 @@ class StageFacts:
         if given is not None:
             return Value(given[0], "V", f"directive ({given[1].path}:{given[1].line})")
         model = device.model
-        if model is not None and model.params.get("is"):
+        if model is not None and _junction_law(model.params):
             params = model.params
             amps = max(current, DIODE_VF_MIN_CURRENT) / device.multiplier
             drop = diode_physics.diode_drop(
@@ -390,7 +448,7 @@ class StageFacts:
     def _n_vt(self) -> float | None:
         """N·V_T of the bootstrap diode's model at the junction temperature."""
         model = self.diode.model if self.diode else None
-        if model is None or not model.params.get("is"):
+        if model is None or not _junction_law(model.params):
             return None
         return model.params.get("n", 1.0) * diode_physics.thermal_voltage(self.temperature.value)
 
@@ -441,7 +499,7 @@ class StageFacts:
         for refresh in self.stage.refresh:
             device = self.device(refresh.devices[0])
             model = device.model if device else None
-            if device is None or model is None or not model.params.get("is"):
+            if device is None or model is None or not _junction_law(model.params):
                 continue
             if refresh.kind in ("low-side switch", "freewheel diode"):
                 params = model.params
@@ -899,11 +957,35 @@ class StageFacts:
     @cached_property
     def q_ls(self) -> Value:
         found = self._driver_value("q_levelshift", "C")
+        if found is None and self.stage.driver is not None:
+            if self._driver_part is not None:
+                return Value(0.0, "C", _driver_default(self, "q_levelshift"))
+            high = self.v_bus is not None and self.v_bus.value > DRIVER_HIGH_VOLTAGE
+            charge = DRIVER_Q_LEVELSHIFT_HIGH_VOLTAGE if high else DRIVER_Q_LEVELSHIFT_DEFAULT
+            return Value(charge, "C", _driver_default(self, "q_levelshift", charge))
         return found or Value(0.0, "C", "no driver IC level shifter")
+
+    @cached_property
+    def _driver_part(self) -> object | None:
+        driver = self.stage.driver
+        return self.ratings.parts.get(driver.subckt) if driver is not None else None
 
     @cached_property
     def i_quiescent(self) -> Value:
         found = self._driver_value("iq_boot", "A")
+        driver = self.stage.driver
+        if found is None and driver is not None:
+            own = sorted(
+                d.name
+                for d in self.by_net.get(self.stage.supply.boot_net or "", ())
+                if d.name.startswith(driver.device + ".") and d.kind == "resistor"
+            )
+            if self._driver_part is not None:
+                return Value(0.0, "A", _driver_default(self, "iq_boot"))
+            if own:
+                # The driver's model draws from its boot pin itself: those drains count.
+                return Value(0.0, "A", f"none beside the driver model's own ({', '.join(own)})")
+            return Value(DRIVER_IQ_BOOT_DEFAULT, "A", _driver_default(self, "iq_boot"))
         return found or Value(0.0, "A", "no driver IC on the boot supply")
 
     @cached_property

@@ -2,62 +2,34 @@
 
 Three forms, one prefix (the reader collects the comments; this module gives them meaning)::
 
-    * drivelint: part M1 qg=38n vgs_max=20          ratings of one device (SPICE numbers)
-    * drivelint: conditions fsw=100k duty_max=0.95   operating conditions for the file
+    * drivelint: part M1 qg=38n vgs_max=20V          ratings of one device
+    * drivelint: conditions fsw=20k duty_max=0.95    operating conditions for the file
     * drivelint: accept dc-hold M1 -- charge pump fitted on the real board
+    * drivelint: accept dc-hold * -- every device of this file
 
-An acceptance must give a reason after ``--``. Numbers use SPICE syntax and are taken in
-the unit of the key (``qg=38n`` is 38 nC); temperatures (``ambient``, ``tj_max``) are in °C.
+An acceptance must give a reason after ``--``; ``*`` for the device accepts the rule's
+findings on every device of the file. Values are read by the same quantity reader as the
+parts library and the configuration (:func:`drivelint.ratings.units.parse_quantity`), with
+the same keys and ranges: SPICE numbers (``38n``, ``2m``) or numbers with their unit
+(``38nC``, ``20kHz``); a bare temperature (``ambient``, ``tj_max``) is in °C.
 """
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.netlist.statements import Directive
+from drivelint.ratings.conditions import CONDITION_KEYS as CONDITION_KEYS
+from drivelint.ratings.conditions import read_condition
+from drivelint.ratings.parts import PART_KEY_TABLE, out_of_range
+from drivelint.ratings.units import UnitError, parse_quantity
 
-# Keys a `part` directive may set, with their units (the parts library uses the same keys).
-PART_KEYS: Mapping[str, str] = {
-    "vds_max": "V",
-    "vgs_max": "V",
-    "vgs_min": "V",
-    "qg": "C",
-    "vgs_qg": "V",
-    "qgd": "C",
-    "rds_on": "Ohm",
-    "vgs_plateau": "V",
-    "vgs_on": "V",
-    "vth": "V",
-    "rg_internal": "Ohm",
-    "rth_ja": "K/W",
-    "tj_max": "K",
-    "vceo_max": "V",
-    "vrrm": "V",
-    "trr": "s",
-    "qrr": "C",
-    "ir_leak": "A",
-    "vf": "V",
-    "vz": "V",
-    "iq_boot": "A",
-    "uvlo_boot": "V",
-    "q_levelshift": "C",
-    "i_source": "A",
-    "i_sink": "A",
-    "v_max": "V",
-    "c": "F",
-}
-CONDITION_KEYS: Mapping[str, str] = {
-    "fsw": "Hz",
-    "duty_max": "1",
-    "on_time_max": "s",
-    "v_bus": "V",
-    "v_aux": "V",
-    "ambient": "K",
-    "load_current": "A",
-}
-_CELSIUS_KEYS = frozenset({"tj_max", "ambient"})
+# Keys a `part` directive may set, with their units: the parts library's table.
+PART_KEYS: Mapping[str, str] = {key: spec.unit for key, spec in PART_KEY_TABLE.items()}
+ANY_DEVICE = "*"
 
 
 @dataclass(frozen=True, slots=True)
@@ -78,13 +50,17 @@ class DirectiveSet:
     diagnostics: tuple[Diagnostic, ...] = ()
 
 
-def _number(text: str, key: str) -> float | None:
-    from drivelint.netlist.values import parse_number
+def _part_value(key: str, raw: str) -> float:
+    """A part key's SI value, in the key's unit and range (as in a parts file)."""
+    spec = PART_KEY_TABLE[key]
+    value = parse_quantity(raw, spec.unit, bare_celsius=True)
+    problem = out_of_range(abs(value) if spec.signed else value, spec)
+    if problem:
+        raise UnitError(problem)
+    return value
 
-    value = parse_number(text)
-    if value is None:
-        return None
-    return value + 273.15 if key in _CELSIUS_KEYS else value
+
+_WORD = re.compile(r"\S+")
 
 
 def parse_directives(
@@ -104,36 +80,35 @@ def parse_directives(
 
     for directive in directives:
         text = directive.text
-        words = text.split()
+        words = [(m.group(), m.start()) for m in _WORD.finditer(text)]
         if not words:
             problem(directive, 0, "empty directive: expected 'part', 'conditions' or 'accept'")
             continue
-        verb = words[0].lower()
+        verb = words[0][0].lower()
         if verb == "accept":
             head, sep, reason = text.partition("--")
             fields = head.split()
             if len(fields) != 3:
-                problem(directive, 0, "expected 'accept RULE DEVICE -- REASON'")
+                problem(directive, 0, "expected 'accept RULE DEVICE -- REASON' (DEVICE * for all)")
                 continue
             if not sep or not reason.strip():
                 problem(directive, len(head), "an acceptance needs a reason after '--'")
                 continue
             rule, device = fields[1].lower(), fields[2].lower()
             if rules and rule not in rules:
-                problem(directive, text.index(fields[1]), f"unknown rule '{fields[1]}'")
+                problem(directive, words[1][1], f"unknown rule '{fields[1]}'")
                 continue
             accepts.append(Acceptance(rule, device, reason.strip(), directive.span))
         elif verb in ("part", "conditions"):
-            allowed = PART_KEYS if verb == "part" else CONDITION_KEYS
-            rest = words[2:] if verb == "part" else words[1:]
             if verb == "part" and len(words) < 2:
                 problem(directive, 0, "expected 'part DEVICE KEY=VALUE …'")
                 continue
+            allowed = PART_KEYS if verb == "part" else CONDITION_KEYS
+            rest = words[2:] if verb == "part" else words[1:]
             target: dict[str, tuple[float, Span]] = (
-                parts.setdefault(words[1].lower(), {}) if verb == "part" else conditions
+                parts.setdefault(words[1][0].lower(), {}) if verb == "part" else conditions
             )
-            for item in rest:
-                offset = text.index(item)
+            for item, offset in rest:
                 key, sep, raw = item.partition("=")
                 key = key.lower()
                 if not sep or not raw:
@@ -143,19 +118,30 @@ def parse_directives(
                     problem(
                         directive,
                         offset,
-                        f"unknown key '{key}' for '{verb}'; expected one of "
+                        f"unknown key '{key}' for '{verb}'"
+                        + _suggest(key, allowed)
+                        + "; expected one of "
                         + ", ".join(sorted(allowed)),
                     )
                     continue
-                value = _number(raw, key)
-                if value is None:
-                    problem(directive, offset + len(key) + 1, f"'{raw}' is not a number")
+                try:
+                    value = _part_value(key, raw) if verb == "part" else read_condition(key, raw)
+                except UnitError as exc:
+                    problem(directive, offset + len(key) + 1, f"{key}: {exc}")
                     continue
-                target[key] = (value, directive.span)
+                at = Span(directive.span.path, directive.span.line, directive.column + offset)
+                target[key] = (value, at)
         else:
             problem(
                 directive,
                 0,
-                f"unknown directive '{words[0]}': expected 'part', 'conditions' or 'accept'",
+                f"unknown directive '{words[0][0]}': expected 'part', 'conditions' or 'accept'",
             )
     return DirectiveSet(parts, conditions, tuple(accepts), tuple(problems))
+
+
+def _suggest(word: str, choices: Iterable[str]) -> str:
+    import difflib
+
+    close = difflib.get_close_matches(word, sorted(choices), n=1, cutoff=0.6)
+    return f" (did you mean '{close[0]}'?)" if close else ""

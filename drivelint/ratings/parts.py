@@ -229,10 +229,10 @@ def _load(path: Path, shown: str) -> PartsLibrary:
             if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
                 raise fail(keys, f"expected a quantity string such as '1 {spec.unit}'")
             try:
-                value = parse_quantity(raw, spec.unit)
+                value = parse_quantity(raw, spec.unit, bare_celsius=True)
             except UnitError as exc:
                 raise fail(keys, str(exc)) from None
-            problem = _out_of_range(abs(value) if spec.signed else value, spec)
+            problem = out_of_range(abs(value) if spec.signed else value, spec)
             if problem:
                 raise fail(keys, problem)
             values[lowered] = value
@@ -240,7 +240,7 @@ def _load(path: Path, shown: str) -> PartsLibrary:
     return PartsLibrary(parts, (shown,))
 
 
-def _out_of_range(value: float, spec: KeySpec) -> str | None:
+def out_of_range(value: float, spec: KeySpec) -> str | None:
     if value < spec.low or (value == spec.low and not spec.closed) or value > spec.high:
         above = "at least" if spec.closed else "above"
         top = "" if math.isinf(spec.high) else f" and at most {spec.high:g}"

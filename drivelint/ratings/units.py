@@ -79,16 +79,32 @@ class UnitError(ValueError):
     """A quantity that cannot be read, or has the wrong dimension."""
 
 
-def parse_quantity(raw: str | float, unit: str) -> float:
+def parse_quantity(raw: str | float, unit: str, *, bare_celsius: bool = False) -> float:
     """``raw`` in SI base units of ``unit`` (one of V A F C s Hz Ohm W K K/W H 1).
 
-    A bare number is taken in ``unit`` already; temperatures in ``degC`` become kelvin.
+    One reader for everything people type, in a parts file, a configuration or a netlist
+    directive:
+
+    - a number with a unit written as such (``"20 kHz"``, ``"38nC"``, ``"8.5 mOhm"``) takes
+      SI prefixes: ``M`` is mega, ``m`` milli;
+    - a number with a SPICE scale factor and no unit, or the key's unit after it in any case
+      (``"20k"``, ``"38n"``, ``"2meg"``, ``"10uf"``), follows SPICE3: case-insensitive, ``m``
+      and ``M`` are milli, ``meg`` is mega, ``mil`` is 25.4 µm. A lone upper-case ``M`` is
+      refused, since SPICE and SI read it a billion times apart;
+    - a plain number is in ``unit`` already; for a temperature (``K``) it is in °C when
+      ``bare_celsius`` (what people mean by ``ambient = 40``), in kelvin otherwise (values
+      already converted); ``degC`` and ``K`` say which;
+    - a dimensionless value may be a percentage (``"95 %"``).
+
     Raises :class:`UnitError` for anything else, including non-finite results.
     """
     if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
         raise UnitError(f"expected a number or a quantity string, not {type(raw).__name__}")
     if isinstance(raw, (int, float)):
-        return _finite(float(raw), str(raw))
+        value = float(raw)
+        if bare_celsius and unit == "K":
+            value += 273.15
+        return _finite(value, str(raw))
     text = raw
     if len(text) > MAX_QUANTITY_CHARS:
         raise UnitError(f"quantity is {len(text)} characters long (at most {MAX_QUANTITY_CHARS})")
@@ -97,27 +113,83 @@ def parse_quantity(raw: str | float, unit: str) -> float:
         if celsius:
             return _finite(float(celsius.group(1)) + 273.15, text)
     match = _QUANTITY.fullmatch(text)
+    other: str | None = None  # a unit of another dimension, for the message
     if match is not None:
         number, prefix, symbol = match.group(1), match.group(2) or "", match.group(3)
         if symbol is None and not prefix:
-            return _finite(float(number), text)
+            value = float(number)
+            if bare_celsius and unit == "K":
+                value += 273.15
+            return _finite(value, text)
         if symbol is not None and _UNITS[symbol] == unit:
             if symbol == "K/W" and prefix:
                 raise UnitError(f"'{text}': a prefix on K/W is not supported")
-            # Decimal keeps "9 mOhm" exactly 0.009 rather than 9 * 1e-3.
-            try:
-                value = float(Decimal(number).scaleb(_PREFIX[prefix]))
-            except (InvalidOperation, ArithmeticError):
-                raise UnitError(f"'{text}' is out of range") from None
-            return _finite(value, text)
-        if symbol is not None and _UNITS[symbol] != unit and unit != "1":
-            raise UnitError(f"'{text}' is in {_UNITS[symbol]}, expected {unit}")
+            return _finite(_scaled(number, _PREFIX[prefix], text), text)
+        if symbol is not None:
+            other = _UNITS[symbol]
+    if unit == "1":
+        percent = _PERCENT.fullmatch(text)
+        if percent:
+            return _finite(_scaled(percent.group(1), -2, text), text)
+    spice = _SPICE.fullmatch(text)
+    if spice is not None and _spice_unit_fits(spice.group(3), unit):
+        number, scale = spice.group(1), spice.group(2)
+        if scale == "M":
+            raise UnitError(
+                f"'{text}' is ambiguous: SPICE reads M as milli, SI as mega; write 'm' for "
+                f"milli or 'meg' for mega, or give the unit (such as '{_EXAMPLES.get(unit, '')}')"
+            )
+        lowered = scale.lower()
+        if lowered == "mil":
+            return _finite(float(number) * 25.4e-6, text)
+        return _finite(_scaled(number, _SPICE_DECADES[lowered], text), text)
+    if other is not None and unit != "1":
+        raise UnitError(f"'{text}' is in {other}, expected {unit}")
+    if not any(c.isdigit() for c in text):
+        raise UnitError(
+            f"cannot read as a quantity: '{text}' is not a number; expected a number and "
+            f"a unit such as '{_EXAMPLES.get(unit, '1.5')}'"
+        )
     if not _PINT_SAFE.fullmatch(text) or _POWER.search(text):
         raise UnitError(
             f"cannot read '{text}' as a quantity: expected a number and a unit such as "
             f"'{_EXAMPLES.get(unit, '1.5')}'"
         )
     return _finite(_parse_with_pint(text, unit), text)
+
+
+# SPICE3 scale factors (ngspice manual, "Basic syntax"), as powers of ten.
+_SPICE_DECADES: Mapping[str, int] = {
+    "t": 12,
+    "g": 9,
+    "meg": 6,
+    "k": 3,
+    "m": -3,
+    "u": -6,
+    "n": -9,
+    "p": -12,
+    "f": -15,
+}
+_SPICE = re.compile(
+    r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(meg|mil|[tgkmunpf])\s*([a-z/]*)\s*",
+    re.IGNORECASE,
+)
+_PERCENT = re.compile(r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*%\s*")
+
+
+def _spice_unit_fits(written: str, unit: str) -> bool:
+    """After a SPICE scale factor: nothing, or the key's own unit in any case."""
+    if not written:
+        return True
+    return written.lower() == {"Ohm": "ohm", "1": ""}.get(unit, unit.lower())
+
+
+def _scaled(number: str, decades: int, text: str) -> float:
+    # Decimal keeps "9 mOhm" exactly 0.009 rather than 9 * 1e-3.
+    try:
+        return float(Decimal(number).scaleb(decades))
+    except (InvalidOperation, ArithmeticError):
+        raise UnitError(f"'{text}' is out of range") from None
 
 
 _EXAMPLES: Mapping[str, str] = {

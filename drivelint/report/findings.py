@@ -20,46 +20,119 @@ JSON_VERSION = 1
 _COLORS = {Severity.ERROR: "red", Severity.WARNING: "yellow", Severity.NOTE: "cyan"}
 
 
+def _wrapped(line: str, width: int | None) -> list[str]:
+    """``line`` folded at ``width`` columns, continuation lines indented past its own indent;
+    unchanged without a width (output that is piped or written to a file)."""
+    if width is None or len(line) <= width:
+        return [line]
+    import textwrap
+
+    indent = " " * (len(line) - len(line.lstrip(" ")))
+    return textwrap.wrap(
+        line,
+        width=max(width, 40),
+        subsequent_indent=indent + "    ",
+        break_long_words=False,
+        break_on_hyphens=False,
+    ) or [line]
+
+
 def finding_text(
-    finding: Finding, explain: bool = False, color: bool = False, source_line: str = ""
+    finding: Finding,
+    explain: bool = False,
+    color: bool = False,
+    source_line: str = "",
+    width: int | None = None,
 ) -> str:
     label = finding.severity.label
+    head = f"{printable(str(finding.span))}: {label}: {finding.message} [{finding.rule}]"
+    lines = _wrapped(printable(head), width)
     if color:
         import click
 
-        label = click.style(label, fg=_COLORS[finding.severity], bold=True)
-    lines = [f"{printable(str(finding.span))}: {label}: {finding.message} [{finding.rule}]"]
+        styled = click.style(label, fg=_COLORS[finding.severity], bold=True)
+        lines[0] = lines[0].replace(f": {label}: ", f": {styled}: ", 1)
     if source_line:
         lines.extend(quoted_line(source_line, finding.span.column).split("\n"))
+    detail: list[str] = []
     if explain:
-        lines.append(f"    switch: {finding.switch}")
+        detail.append(f"    switch: {finding.switch}")
         for name, value in sorted(finding.values.items()):
-            lines.append(f"    {name} = {value.text()}  ({value.origin})")
+            detail.append(f"    {name} = {value.text()}  ({value.origin})")
         for step in finding.derivation:
-            lines.append(f"    | {step}")
-    lines.append(f"    fix: {finding.fix}")
+            detail.append(f"    | {step}")
+    detail.append(f"    fix: {finding.fix}")
     # Names and messages carry text from the netlist: no control character reaches a terminal.
-    return "\n".join(printable(line) for line in lines)
+    for line in detail:
+        lines.extend(_wrapped(printable(line), width))
+    return "\n".join(lines)
 
 
-def results_text(results: Sequence[CheckResult], explain: bool = False, color: bool = False) -> str:
+def accepted_text(finding: Finding, width: int | None = None) -> str:
+    """One line for an accepted finding: where, what, and the reason it was accepted."""
+    waiver = finding.accepted
+    reason = f" -- {waiver.reason} ({waiver.span.path}:{waiver.span.line})" if waiver else ""
+    line = (
+        f"{finding.span}: accepted {finding.severity.label}: {finding.message} "
+        f"[{finding.rule}]{reason}"
+    )
+    return "\n".join(_wrapped(printable(line), width))
+
+
+def assumed_text(result: CheckResult, width: int | None = None) -> list[str]:
+    """For ``--explain``: each floating stage's inputs taken from defaults or estimates."""
+    lines: list[str] = []
+    for stage in result.assumed:
+        where = f"{stage.span.path}:{stage.span.line}"
+        if not stage.values:
+            lines.append(
+                f"{where}: {stage.switch}: nothing assumed: every input from a rating, a "
+                "directive, the model card or the netlist"
+            )
+            continue
+        lines.append(f"{where}: {stage.switch}: assumed (no rating or directive gives these):")
+        for key, value in sorted(stage.values.items()):
+            shown = "unknown" if value.value != value.value else value.text()
+            lines.append(f"    {key} = {shown}  ({value.origin})")
+    return [w for line in lines for w in _wrapped(printable(line), width)]
+
+
+def results_text(
+    results: Sequence[CheckResult],
+    explain: bool = False,
+    color: bool = False,
+    show_accepted: bool = False,
+    width: int | None = None,
+) -> str:
     blocks: list[str] = []
     for result in results:
         for diagnostic in result.diagnostics:
             if diagnostic.severity >= Severity.WARNING:
-                blocks.append(diagnostic.render())
+                blocks.append(_wrap_block(diagnostic.render(), width))
         for finding in result.findings:
             source = result.circuit.line_text(finding.span) if color else ""
-            blocks.append(finding_text(finding, explain, color, source))
+            blocks.append(finding_text(finding, explain, color, source, width))
+        if show_accepted:
+            blocks.extend(accepted_text(f, width) for f in result.accepted)
+        if explain:
+            blocks.extend(assumed_text(result, width))
     blocks.append(summary_text(results))
     return "\n".join(blocks)
 
 
+def _wrap_block(text: str, width: int | None) -> str:
+    """A diagnostic: its headline wrapped, its quoted line and caret kept as they are."""
+    head, sep, rest = text.partition("\n")
+    return "\n".join(_wrapped(head, width)) + sep + rest
+
+
 def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
-    """Files, stages, findings by rule and severity, files that could not be checked."""
+    """Files, stages, findings by rule and severity, accepted findings, files that could
+    not be checked."""
     from collections import Counter
 
     findings = [f for r in results for f in r.findings]
+    accepted = sum(len(r.accepted) for r in results)
     stages = sum(sum(1 for s in r.stages if s.floating) for r in results)
     files = len(results)
     head = f"{files} file{'s' * (files != 1)}"
@@ -74,6 +147,8 @@ def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
             + ", ".join(f"{by_severity[s]} {s.label}" for s in sorted(by_severity, reverse=True))
             + ")"
         )
+    if accepted:
+        head += f", {accepted} accepted by a directive"
     lines = [head]
     by_rule = Counter(f.rule for f in findings)
     for rule, count in sorted(by_rule.items()):
@@ -108,6 +183,7 @@ def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:
             }
         )
         findings.extend(result.findings)
+        findings.extend(result.accepted)  # in their place, each with its "accepted" reason
     return {
         "version": JSON_VERSION,
         "tool": {"name": "drivelint", "version": __version__},
@@ -117,7 +193,9 @@ def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:
 
 
 def format_text(results: Sequence[CheckResult], options: ReportOptions) -> str:
-    return results_text(results, options.explain, options.color)
+    return results_text(
+        results, options.explain, options.color, options.show_accepted, options.width
+    )
 
 
 def format_json(results: Sequence[CheckResult], options: ReportOptions) -> str:

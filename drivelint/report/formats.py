@@ -18,6 +18,10 @@ from drivelint.checks.runner import CheckResult
 class ReportOptions:
     explain: bool = False
     color: bool = False
+    show_accepted: bool = False  # text: list accepted findings (other formats always do)
+    width: int | None = None  # text: wrap lines at this many columns (a terminal), else not
+    testbench: str | None = None  # html: the folder of `drivelint testbench` output
+    output: str | None = None  # where the report is written (html links are relative to it)
 
 
 Formatter = Callable[[Sequence[CheckResult], ReportOptions], str]

@@ -60,6 +60,14 @@ def finding_annotation(finding: Finding, explain: bool = False) -> str:
     return annotation(finding.severity, finding.span, finding.rule, message)
 
 
+def accepted_annotation(finding: Finding) -> str:
+    waiver = finding.accepted
+    reason = waiver.reason if waiver else ""
+    where = f" ({waiver.span.path}:{waiver.span.line})" if waiver else ""
+    message = f"accepted{where}: {reason}\n{finding.message}\nfix: {finding.fix}"
+    return annotation(Severity.NOTE, finding.span, f"{finding.rule} (accepted)", message)
+
+
 def diagnostic_annotation(diagnostic: Diagnostic) -> str:
     return annotation(
         diagnostic.severity, diagnostic.span, f"input ({diagnostic.code})", diagnostic.message
@@ -78,6 +86,12 @@ def format_github(results: Sequence[CheckResult], options: ReportOptions) -> str
             span = finding.span
             key = (portable_path(span.path), span.line, span.column, finding.rule, finding.device)
             keyed.append((key, finding_annotation(finding, options.explain)))
+        for finding in result.accepted:
+            # Still shown, as a notice: an accepted finding is a decision a reviewer may
+            # want to see again, not a failure.
+            span = finding.span
+            key = (portable_path(span.path), span.line, span.column, finding.rule, finding.device)
+            keyed.append((key, accepted_annotation(finding)))
         if result.circuit.partial:
             # The file status "partial": checked around what it names but does not hold.
             path = result.circuit.path

@@ -12,6 +12,7 @@ import xml.etree.ElementTree as ET
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
+from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
 from drivelint.diagnostics import Severity, printable
 from drivelint.report.findings import finding_text
@@ -81,10 +82,16 @@ def _testcase(result: CheckResult, explain: bool) -> ET.Element:
         ET.SubElement(case, "skipped", {"message": _xml_safe(f"partial: read without {needs}")})
     # What does not fail the file is still worth seeing beside it.
     notes = [d.headline() for d in result.diagnostics if d.severity is Severity.WARNING]
-    notes += [f"accepted: {finding_text(f)}" for f in result.accepted]
+    notes += [_accepted_note(f) for f in result.accepted]
     if notes:
         ET.SubElement(case, "system-out").text = _xml_safe("\n".join(notes))
     return case
+
+
+def _accepted_note(finding: Finding) -> str:
+    waiver = finding.accepted
+    why = f" ({waiver.reason}; {waiver.span.path}:{waiver.span.line})" if waiver else ""
+    return f"accepted{why}: {finding_text(finding)}"
 
 
 def junit_tree(results: Sequence[CheckResult], explain: bool = False) -> ET.Element:

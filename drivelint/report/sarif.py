@@ -193,16 +193,6 @@ def _fingerprint(finding: Finding) -> str:
     return hashlib.sha256(key.encode("utf-8", "surrogateescape")).hexdigest()[:32]
 
 
-def _acceptance_reason(result: CheckResult, finding: Finding) -> str:
-    from drivelint.ratings.directives import parse_directives
-
-    directives = parse_directives(result.circuit.directives, result.circuit.line_text)
-    for accept in directives.accepts:
-        if accept.rule == finding.rule and accept.device in (finding.device, finding.switch):
-            return accept.reason
-    return ""
-
-
 def _result(
     result: CheckResult,
     finding: Finding,
@@ -229,9 +219,10 @@ def _result(
     if accepted:
         # An acceptance directive in the netlist is what SARIF calls an in-source suppression.
         suppression: dict[str, Any] = {"kind": "inSource", "status": "accepted"}
-        reason = _acceptance_reason(result, finding)
-        if reason:
-            suppression["justification"] = reason
+        waiver = finding.accepted
+        if waiver is not None and waiver.reason:
+            suppression["justification"] = waiver.reason
+            suppression["location"] = {"physicalLocation": _physical(waiver.span, "", artifacts)}
         out["suppressions"] = [suppression]
     out["properties"] = {
         "switch": finding.switch,
@@ -273,6 +264,8 @@ def sarif_log(results: Sequence[CheckResult]) -> dict[str, Any]:
         paths.update((r.circuit.path, *r.circuit.files))
     for _, finding, _ in entries:
         paths.update(span.path for span in (finding.span, *finding.related))
+        if finding.accepted is not None:
+            paths.add(finding.accepted.span.path)
     paths.update(d.span.path for d in diagnostics)
     artifacts = _Artifacts(paths)
     codes = {code: number for number, code in enumerate(sorted({d.code for d in diagnostics}))}

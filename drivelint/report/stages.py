@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
 from drivelint.circuit.model import Circuit
 from drivelint.diagnostics import printable
+from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
 
 
@@ -37,7 +38,28 @@ def _waveform_text(stage: DriveStage) -> str:
     return f"{head}: {detail}" + (" (inverting)" if control.inverting else "")
 
 
-def stage_text(stage: DriveStage) -> str:
+def shifter_text(stage: DriveStage, current: Value | None) -> str | None:
+    """The level shifter line: transistor, resistors, what it draws from the boot supply."""
+    from drivelint.netlist.values import format_si
+
+    shifter = stage.level_shifter
+    if shifter is None:
+        return None
+    drives = f", drives pull-up {shifter.pull_up}" if shifter.pull_up else ""
+    line = (
+        f"    level shift: {shifter.transistor} via {', '.join(shifter.resistors) or 'no resistor'}"
+    )
+    line += drives
+    if current is not None:
+        when = "" if shifter.on_with_switch else " (it conducts while the switch is off)"
+        line += (
+            f"; draws {format_si(current.value, 'A')} from the boot supply while "
+            f"{stage.switch} is on{when}"
+        )
+    return line
+
+
+def stage_text(stage: DriveStage, shifter_current: Value | None = None) -> str:
     from drivelint.netlist.values import format_si
 
     head = f"{stage.span}: {stage.switch} ({stage.channel})"
@@ -90,15 +112,24 @@ def stage_text(stage: DriveStage) -> str:
     if not stage.refresh:
         lines.append("    refresh:  none recognised")
     lines.append(f"    control:  {_waveform_text(stage)}")
+    shifter = shifter_text(stage, shifter_current)
+    if shifter is not None:
+        lines.append(shifter)
     lines.extend(f"    note:     {note}" for note in stage.notes)
     return "\n".join(lines)
 
 
-def stages_text(circuit: Circuit, stages: Sequence[DriveStage], show_all: bool = False) -> str:
+def stages_text(
+    circuit: Circuit,
+    stages: Sequence[DriveStage],
+    show_all: bool = False,
+    shifter_currents: Mapping[str, Value] | None = None,
+) -> str:
     shown = [s for s in stages if s.floating or show_all]
     floating = sum(1 for s in stages if s.floating)
+    currents = shifter_currents or {}
     lines = [f"{circuit.path}: {len(stages)} switches, {floating} floating"]
-    lines.extend(stage_text(s) for s in shown)
+    lines.extend(stage_text(s, currents.get(s.switch)) for s in shown)
     lines.extend(d.render() for d in circuit.diagnostics)
     # Names come from the netlist: no control character reaches a terminal.
     return "\n".join(printable(line) for text in lines for line in text.split("\n"))

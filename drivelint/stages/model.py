@@ -179,6 +179,28 @@ class DriverInfo:
 
 
 @dataclass(frozen=True, slots=True)
+class LevelShifter:
+    """The ground-referenced transistor that carries the command up to the floating side,
+    with the resistors around it; ``pull_up`` is the P-type pull-up it drives (None when
+    it acts on the gate node itself), ``on_with_switch`` whether it conducts while the
+    switch is on (then its current drains the boot supply for the whole on-time)."""
+
+    __reduce__ = positional_reduce
+    transistor: str
+    resistors: tuple[str, ...]
+    pull_up: str | None
+    on_with_switch: bool
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "transistor": self.transistor,
+            "resistors": list(self.resistors),
+            "pull_up": self.pull_up,
+            "on_with_switch": self.on_with_switch,
+        }
+
+
+@dataclass(frozen=True, slots=True)
 class DriveStage:
     __reduce__ = positional_reduce
     switch: str
@@ -200,8 +222,10 @@ class DriveStage:
     driver: DriverInfo | None = None
     related: tuple[str, ...] = ()  # every device recognised as part of the stage
     notes: tuple[str, ...] = ()  # what recognition assumed, in words (wires, linear use, …)
+    level_shifter: LevelShifter | None = None
 
     def to_json(self) -> dict[str, Any]:
+        shifter = {"level_shifter": self.level_shifter.to_json()} if self.level_shifter else {}
         return {
             "switch": self.switch,
             "channel": self.channel,
@@ -231,6 +255,7 @@ class DriveStage:
             "control": self.control.to_json() if self.control else None,
             "driver": self.driver.to_json() if self.driver else None,
             "notes": list(self.notes),
+            **shifter,
             "path": self.span.path,
             "line": self.span.line,
         }

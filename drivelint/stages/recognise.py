@@ -25,6 +25,7 @@ from drivelint.stages.model import (
     DriverInfo,
     DriveStage,
     GatePath,
+    LevelShifter,
     Rail,
     Refresh,
     Supply,
@@ -35,6 +36,7 @@ MAX_PATH_DEVICES = 4  # devices in one pull-up or pull-down path
 MAX_CONTROL_HOPS = 8  # devices between a level shifter's input and its source
 MAX_SERIES_TO_RAIL = 2  # series R/L between a drain or diode and its rail
 MAX_COMBINE_DEPTH = 3  # behavioural sources that combine signals, nested
+MAX_SHIFT_RESISTORS = 3  # series resistors from a P-type pull-up's base to its level shifter
 # A diode between gate and source with a breakdown this low is a Zener/TVS clamp; rectifier
 # and fast diodes are rated for the bus, far above any gate rating (common practice).
 ZENER_MAX_BV = 60.0
@@ -1153,7 +1155,108 @@ class _StageBuilder:
             driver=driver[0] if driver else None,
             related=tuple(sorted(related)),
             notes=tuple(notes),
+            level_shifter=self.level_shifter(control, pullups),
         )
+
+    # -- the level shifter (every usual layout) ----------------------------------------------
+
+    def level_shifter(
+        self, control: Control | None, pullups: list[GatePath]
+    ) -> LevelShifter | None:
+        """The ground-referenced NPN or N-channel transistor that carries the command up to
+        the floating side, in every usual layout:
+
+        - driving a P-type pull-up (emitter or source at the boot or gate net): found from
+          the pull-up's control terminal through up to MAX_SHIFT_RESISTORS series
+          resistors, with or without resistors from the boot node to its own collector
+          (the base resistor after the collector pull-up); it conducts while the switch
+          is on, so its current drains the boot supply for the whole on-time;
+        - else the first such transistor on the command's path whose collector is pulled
+          up from the boot node by a resistor (pulling the gate, or a totem pole's bases,
+          down against it): it conducts while the switch is off. A transistor that only
+          pulls a gate to ground is a pull-down, not a level shifter.
+
+        Its emitter (source) must sit at ground or a rail, directly or through one
+        resistor. Its resistors: those on the nets between it and the floating side, and
+        its emitter resistor."""
+        view = self.view
+        high = {n for n in (self.gate, self.boot_net) if n}
+        for path in pullups:
+            pull_up = view.device(path.devices[0]) if path.devices else None
+            if pull_up is None or pull_up.model_type not in ("pnp", "pmos"):
+                continue
+            if pull_up.net("e" if pull_up.kind == "bjt" else "s") not in high:
+                continue
+            start = pull_up.net("b" if pull_up.kind == "bjt" else "g")
+            found = self._shifter_below(start, high) if start else None
+            if found is not None:
+                transistor, resistors = found
+                return LevelShifter(transistor, resistors, pull_up.name, True)
+        if control is None:
+            return None
+        for name in control.path:
+            device = view.device(name)
+            if device is None or device.model_type not in ("npn", "nmos"):
+                continue
+            below = self._grounded_emitter(device)
+            if below is None:
+                continue
+            collector = device.net(_CONDUCTION[device.model_type or ""][0]) or ""
+            later = set(control.path[control.path.index(name) + 1 :])
+            around = {n for n, _ in view.at(collector) if view.kind(n) == "resistor"} - later
+            fed = any(_other_net(view.devices[n], collector) == self.boot_net for n in around)
+            if not fed:
+                return None  # a plain pull-down to ground: no level is shifted
+            return LevelShifter(name, tuple(sorted(around | set(below))), None, False)
+        return None
+
+    def _grounded_emitter(self, device: Device) -> list[str] | None:
+        """[] when the emitter (source) is at ground or a rail, [resistor] when one resistor
+        takes it there, else None."""
+        view = self.view
+        emitter = device.net(_CONDUCTION[device.model_type or ""][1])
+        if emitter is None:
+            return None
+        if emitter == GROUND or view.is_rail(emitter):
+            return []
+        below = [
+            n
+            for n, _ in view.at(emitter)
+            if n != device.name
+            and view.kind(n) == "resistor"
+            and (_other_net(view.devices[n], emitter) or "") in (GROUND, *view.rails)
+        ]
+        return below if len(below) == 1 else None
+
+    def _shifter_below(self, start: str, high: set[str]) -> tuple[str, tuple[str, ...]] | None:
+        """From a pull-up's control net through series resistors to the collector (drain)
+        of a ground-referenced transistor: (transistor, the resistors on the nets passed
+        and on its collector net, and its emitter resistor)."""
+        view = self.view
+        frontier = [(start, [start])]
+        seen = {start}
+        for _ in range(MAX_SHIFT_RESISTORS + 1):
+            following = []
+            for net, nets in frontier:
+                for name, pin in view.at(net):
+                    device = view.device(name)
+                    if device is None:
+                        continue
+                    if device.model_type in ("npn", "nmos") and pin in ("c", "d"):
+                        below = self._grounded_emitter(device)
+                        if below is None:
+                            continue
+                        around = {
+                            n for on in nets for n, _ in view.at(on) if view.kind(n) == "resistor"
+                        }
+                        return name, tuple(sorted(around | set(below)))
+                    if device.kind == "resistor":
+                        far = _other_net(device, net)
+                        if far and far not in seen and far not in high and not view.is_rail(far):
+                            seen.add(far)
+                            following.append((far, [*nets, far]))
+            frontier = following
+        return None
 
     def pump_note(self, supply: Supply) -> str:
         feed = supply.aux

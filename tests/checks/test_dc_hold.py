@@ -50,11 +50,12 @@ def findings_of(text: str, parts: PartsLibrary | None = DRIVER) -> list[Finding]
     return [f for f in result.findings if f.rule == RULE]
 
 
-def droop_example_deck(control: str, qg: str = "0") -> str:
+def droop_example_deck(control: str, qg: str = "1f") -> str:
     # A published driver application example (from memory): ΔV = 10 mA × 3.33 µs / 0.1 µF
     # = 333 mV. Read the other way, a 0.1 µF capacitor allowed to droop 333 mV under 10 mA
     # holds for 3.33 µs. Here V_boot,0 = 12 − 1.667 = 10.333 V against vgs_on = 10 V
-    # (333 mV allowed), and R_GS = 1033.3 Ω draws 10.333 V / 1033.3 Ω = 10 mA.
+    # (333 mV allowed), and R_GS = 1033.3 Ω draws 10.333 V / 1033.3 Ω = 10 mA. The example
+    # leaves the gate charge out: 1 fC (a rating must be positive) shifts 33 nC by 3e-8.
     return DRIVER_STAGE.format(qg=qg, vf="1.667", c="100n", rgs="1033.3", control=control)
 
 
@@ -242,7 +243,7 @@ def test_dc_on_a_bootstrap_fires_even_without_known_drains() -> None:
 
 
 def test_unknown_gate_charge_gives_an_upper_bound() -> None:
-    deck = droop_example_deck(DC_COMMAND).replace("qg=0 ", "")
+    deck = droop_example_deck(DC_COMMAND).replace("qg=1f ", "")
     deck = deck.replace("VDMOS(VTO=3 KP=20 Cgs=2n Cgdmax=1n)", "VDMOS(VTO=3 KP=20)")
     (finding,) = findings_of(deck)
     # No gate charge and no gate capacitance: the example's 3.33 µs, a little longer as

@@ -302,6 +302,9 @@ def expected_exit(results: list[Any], fail_on: Severity) -> int:
     """The README's exit codes, computed from the results."""
     if any(file_status(r) == "error" for r in results):
         return 1
+    # A file checked in part counts as a warning (README, exit codes).
+    if fail_on <= Severity.WARNING and any(file_status(r) == "partial" for r in results):
+        return 1
     return 1 if any(f.severity >= fail_on for r in results for f in r.findings) else 0
 
 

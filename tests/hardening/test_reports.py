@@ -22,7 +22,7 @@ import pytest
 from drivelint.diagnostics import Diagnostic, Severity, Span, printable
 from drivelint.pipeline import check_path
 from drivelint.report.formats import FORMATS, ReportOptions, formatter
-from drivelint.report.html import _status as html_status
+from drivelint.report.html.page import _status as html_status
 from drivelint.report.junit import file_status as junit_status
 from drivelint.report.sarif import sarif_log
 from drivelint.report.status import file_status

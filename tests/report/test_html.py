@@ -130,8 +130,8 @@ def parse(page: str) -> _Page:
 def finding_div(page: str, finding_message: str) -> str:
     """The HTML of the finding card whose message is ``finding_message``."""
     at = page.index(escape(finding_message, quote=True))
-    start = page.rindex('<div class="finding', 0, at)
-    following = page.find('<div class="finding', at)
+    start = page.rindex('<div class="finding ', 0, at)
+    following = page.find('<div class="finding ', at)
     return page[start : following if following != -1 else len(page)]
 
 
