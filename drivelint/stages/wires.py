@@ -12,10 +12,17 @@ the rules then both work on that circuit.
 What counts as a wire (common practice in simulation decks; the bounds are ours):
 
 - an independent voltage source of 0 V DC (an ammeter);
-- an inductor of at most ``WIRE_MAX_INDUCTANCE`` that is not coupled to another winding and
-  does not form a filter (no capacitor of ``FILTER_MIN_CAPACITANCE`` or more from either of
-  its nets to ground or a rail, except on a net that is a rail itself);
+- an inductor not coupled to another winding, of at most ``STRAY_MAX_INDUCTANCE`` (a
+  package lead or a loop: never a filter, whatever capacitors sit beside it), or of at most
+  ``WIRE_MAX_INDUCTANCE`` where it does not form a filter;
 - a resistor of at most ``WIRE_MAX_RESISTANCE`` (a shunt, an ESR, a 0 Ω link).
+
+What makes an inductor a filter is where the capacitor sits: an LC filter's capacitor holds
+the inductor's far net, which nothing else holds, against ground or a rail (an output
+filter, a supply's bulk capacitor behind its lead). A capacitor between two nets that are
+both held already — a rail, ground, or a net tied to one by the parts above (a DC-link
+ceramic from the bus to a shunt's top, which the shunt ties to ground) — is a decoupling
+capacitor: it filters nothing, and an inductor beside it stays a stray.
 
 Two nets held at different DC voltages are never merged, whatever joins them.
 """
@@ -29,6 +36,9 @@ from drivelint.circuit.model import GROUND, Circuit, Device, Instance
 
 WIRE_MAX_RESISTANCE = 0.1  # Ω: current-sense shunts, ESRs, 0 Ω links
 WIRE_MAX_INDUCTANCE = 1e-6  # H: package leads, PCB loops and cables run from nH to ~µH
+# H: package leads and commutation loops are 1-20 nH; the smallest inductors that filter a
+# switching stage (MHz converters) are ~100 nH and up (common practice).
+STRAY_MAX_INDUCTANCE = 20e-9
 # A capacitor this large on an inductor's net makes the pair an LC filter, not a stray:
 # switch-node and snubber capacitances are pF to nF, output and DC-link filters 100 nF up.
 FILTER_MIN_CAPACITANCE = 100e-9
@@ -78,22 +88,36 @@ def _two_nets(device: Device) -> tuple[str, str] | None:
     return (a, b) if a != b else None
 
 
-def _filter_nets(circuit: Circuit, rails: Mapping[str, float]) -> frozenset[str]:
-    """Nets (not rails themselves) with a filter-sized capacitor to ground or a rail (also
-    through its ESR, a milliohm resistor)."""
-    rails = dict(rails)
+def _filter_nets(
+    circuit: Circuit, rails: Mapping[str, float], coupled: frozenset[str]
+) -> frozenset[str]:
+    """Nets held by a filter-sized capacitor and nothing else: the capacitor goes from the
+    net (or from nets tied to it by milliohms, ammeters or nH strays) to ground or a rail
+    (also behind its ESR), and no such tie holds the net itself at a DC level."""
+    tied = _Groups(rails)
+    counts: dict[str, int] | None = None
     for device in circuit.devices.values():
         nets = _two_nets(device)
-        if device.kind != "resistor" or device.value is None or nets is None:
+        if nets is None:
             continue
-        if abs(device.value) / device.multiplier > WIRE_MAX_RESISTANCE:
-            continue
-        a, b = nets
-        if a in rails and b not in rails:
-            rails[b] = rails[a]
-        elif b in rails and a not in rails:
-            rails[a] = rails[b]
-    out: set[str] = set()
+        if device.kind == "resistor" and device.value is not None:
+            if abs(device.value) / device.multiplier <= WIRE_MAX_RESISTANCE:
+                tied.join(*nets)
+        elif device.kind == "inductor" and device.value is not None:
+            if device.name not in coupled and (
+                abs(device.value) / device.multiplier <= STRAY_MAX_INDUCTANCE
+            ):
+                tied.join(*nets)
+        elif device.kind == "vsource" and _is_zero_volts(device):
+            if counts is None:
+                counts = _terminal_counts(circuit)
+            if all(counts.get(n, 0) > 1 for n in nets):
+                tied.join(*nets)
+
+    def held(net: str) -> bool:
+        return tied.level.get(tied.find(net)) is not None
+
+    filtered: set[str] = set()
     for device in circuit.devices.values():
         if device.kind != "capacitor" or device.value is None:
             continue
@@ -103,11 +127,18 @@ def _filter_nets(circuit: Circuit, rails: Mapping[str, float]) -> frozenset[str]
         if nets is None:
             continue
         a, b = nets
-        if a in rails and b not in rails:
-            out.add(b)
-        elif b in rails and a not in rails:
-            out.add(a)
-    return frozenset(out)
+        if held(a) and not held(b):
+            filtered.add(tied.find(b))
+        elif held(b) and not held(a):
+            filtered.add(tied.find(a))
+    if not filtered:
+        return frozenset()
+    return frozenset(n for n in circuit.nets if tied.find(n) in filtered)
+
+
+def _is_zero_volts(device: Device) -> bool:
+    wave = device.waveform
+    return wave is not None and wave.kind == "dc" and wave.dc_level() == 0.0
 
 
 def _terminal_counts(circuit: Circuit) -> dict[str, int]:
@@ -126,9 +157,9 @@ def find_wires(circuit: Circuit) -> tuple[Wire, ...]:
     """
     rails = {**circuit.rails, GROUND: 0.0}
     counts: dict[str, int] | None = None
-    coupled = {
+    coupled = frozenset(
         name for d in circuit.devices.values() if d.kind == "coupling" for name in d.controls
-    }
+    )
     filters: frozenset[str] | None = None
     out: list[Wire] = []
     for device in circuit.devices.values():
@@ -136,8 +167,7 @@ def find_wires(circuit: Circuit) -> tuple[Wire, ...]:
         if nets is None:
             continue
         if device.kind == "vsource":
-            wave = device.waveform
-            if wave is not None and wave.kind == "dc" and wave.dc_level() == 0.0:
+            if _is_zero_volts(device):
                 if counts is None:
                     counts = _terminal_counts(circuit)
                 if all(counts.get(n, 0) > 1 for n in nets):
@@ -150,10 +180,11 @@ def find_wires(circuit: Circuit) -> tuple[Wire, ...]:
             henries = abs(device.value) / device.multiplier
             if henries > WIRE_MAX_INDUCTANCE or device.name in coupled:
                 continue
-            if filters is None:
-                filters = _filter_nets(circuit, rails)
-            if any(n in filters for n in nets):
-                continue
+            if henries > STRAY_MAX_INDUCTANCE:
+                if filters is None:
+                    filters = _filter_nets(circuit, rails, coupled)
+                if any(n in filters for n in nets):
+                    continue
             out.append(Wire(device.name, "stray inductance", nets, henries))
     return tuple(sorted(out, key=lambda w: w.device))
 

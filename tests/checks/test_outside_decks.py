@@ -47,6 +47,10 @@ CLEAN = [
     "o07_audio_follower_stage.cir",
     "o10_hbridge_leg_held_off.cir",
     "o12_behavioural_gate_drive.cir",
+    # two legs (subcircuits) on one DC-link shunt, each low side behind a 2 nH stray, the
+    # bridge's ceramic from the bus to the shunt's top: both legs refresh (ngspice: both
+    # boot supplies hold at 11.3-11.5 V)
+    "o15_hbridge_shared_shunt.cir",
 ]
 
 
@@ -86,3 +90,17 @@ def test_findings_name_real_devices() -> None:
         for finding in result.findings:
             assert finding.device and finding.device in finding.message
             assert " by :" not in finding.message
+
+
+def test_a_shared_shunt_behind_strays_refreshes_both_legs() -> None:
+    # The 2 nH strays, the shunt and its 0.5 nH are wires; the ceramic from the bus to the
+    # shunt's top decouples two held nets and makes no filter of the strays.
+    result = check_path(OUTSIDE / "o15_hbridge_shared_shunt.cir")
+    floating = {s.switch: s for s in result.stages if s.floating}
+    assert set(floating) == {"xla.m_h", "xlb.m_h"}
+    for leg in ("a", "b"):
+        stage = floating[f"xl{leg}.m_h"]
+        (refresh,) = stage.refresh
+        assert refresh.kind == "low-side switch" and refresh.devices == (f"xl{leg}.m_l",)
+        assert refresh.reference == "0"
+        assert any(f"xl{leg}.l_ls (2 nH inductance) taken as a wire" in n for n in stage.notes)

@@ -15,7 +15,12 @@ from drivelint.netlist.waveforms import Pulse, Pwl
 from drivelint.pipeline import load_circuit, load_stages
 from drivelint.stages.model import DriveStage
 from drivelint.stages.recognise import recognise, supply_range
-from drivelint.stages.wires import FILTER_MIN_CAPACITANCE, collapse_wires, find_wires
+from drivelint.stages.wires import (
+    FILTER_MIN_CAPACITANCE,
+    STRAY_MAX_INDUCTANCE,
+    collapse_wires,
+    find_wires,
+)
 
 OUTSIDE = Path(__file__).resolve().parents[1] / "checks" / "outside"
 
@@ -73,6 +78,49 @@ RB out 0 10
     assert names == {"l2"}
     merged = collapse_wires(circuit)
     assert merged.net("d") == "vin"
+
+
+def test_a_package_stray_is_never_a_filter(tmp_path: Path) -> None:
+    # 2 nH into a 220 µF bulk capacitor is still a lead: no filter is built of a few nH.
+    # 50 nH into the same capacitor is a supply filter (the capacitor holds the far net,
+    # which nothing else holds), and is kept.
+    text = """strays and leads into bulk capacitors
+VA a 0 DC 12
+L1 a a2 2n
+C1 a2 0 220u
+VB b 0 DC 12
+L2 b b2 50n
+C2 b2 0 220u
+RL1 a2 0 100
+RL2 b2 0 100
+.end
+"""
+    path = tmp_path / "deck.cir"
+    path.write_text(text, encoding="utf-8")
+    assert STRAY_MAX_INDUCTANCE < 50e-9
+    assert {w.device for w in find_wires(load_circuit(path))} == {"l1"}
+
+
+def test_a_capacitor_between_two_held_nets_decouples_and_filters_nothing(tmp_path: Path) -> None:
+    # A DC-link ceramic from the bus to the top of a shunt: the shunt (and its nH) holds
+    # that net at ground, so the 30 nH loop inductance beside it is a stray. Without the
+    # shunt the same capacitor holds the net alone: then 30 nH and it are a filter.
+    text = """a loop inductance beside a DC-link ceramic
+VBUS bus 0 DC 36
+C1 bus isns 2.2u
+R1 isns sh 5m
+L1 sh 0 0.5n
+L2 ls isns 30n
+M1 sw g ls ls NMOD
+.model NMOD NMOS (VTO=2)
+.end
+"""
+    path = tmp_path / "deck.cir"
+    path.write_text(text, encoding="utf-8")
+    assert {w.device for w in find_wires(load_circuit(path))} == {"l1", "l2", "r1"}
+    unshunted = tmp_path / "unshunted.cir"
+    unshunted.write_text(text.replace("R1 isns sh 5m", "R1 isns sh 5"), encoding="utf-8")
+    assert {w.device for w in find_wires(load_circuit(unshunted))} == {"l1"}
 
 
 def test_two_rails_at_different_voltages_are_never_merged(tmp_path: Path) -> None:
