@@ -272,10 +272,12 @@ def facts_of(deck: Path, switch: str) -> tuple[DriveStage, StageFacts]:
     from drivelint.pipeline import parts_for
     from drivelint.ratings.directives import parse_directives
     from drivelint.ratings.ratings import Ratings
+    from drivelint.stages.wires import collapse_wires
 
     result = check_path(deck, load_config(find_config(deck)))
     (stage,) = [s for s in result.stages if s.switch == switch]
-    circuit = result.circuit
+    # the rules see the circuit recognition saw: wires merged, rails behind leads held
+    circuit = collapse_wires(result.circuit).circuit
     directives = parse_directives(circuit.directives)
     facts = StageFacts(
         stage,

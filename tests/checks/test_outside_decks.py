@@ -38,6 +38,12 @@ EXPECTED: dict[str, set[tuple[str, str, str]]] = {
     # 10 V and 5 V gate rails on standard-level switches
     "o13_bootstrap_10v_rail.cir": {("gate-headroom", "d_bt", "warning")},
     "o14_bootstrap_5v_rail.cir": {("gate-headroom", "d_bt", "error")},
+    # ±45 V rails behind 50 nH leads into the board's capacitors, VCC stacked on the
+    # negative one: the 75 V boot diode blocks ≈ 89 V (ngspice: 90.0 V)
+    "o16_classd_rails_behind_leads.cir": {("bootstrap-diode-voltage", "d_bs", "error")},
+    # a general-purpose rectifier (TT 4 µs) fed from the driver's RC-filtered VCC, at
+    # 60 kHz (ngspice: -0.43 A back through it at every rising edge, 23 nC)
+    "o17_inverter400v_filtered_vcc.cir": {("bootstrap-diode-slow", "d_bt", "error")},
 }
 CLEAN = [
     "o01_sync_buck_ammeters.cir",
@@ -104,3 +110,35 @@ def test_a_shared_shunt_behind_strays_refreshes_both_legs() -> None:
         assert refresh.kind == "low-side switch" and refresh.devices == (f"xl{leg}.m_l",)
         assert refresh.reference == "0"
         assert any(f"xl{leg}.l_ls (2 nH inductance) taken as a wire" in n for n in stage.notes)
+
+
+def test_a_rail_behind_its_lead_is_still_that_rail() -> None:
+    # -45 V through 10 mΩ and 50 nH into 220 µF and 2.2 µF is -45 V at DC; the driver's
+    # VCC, a 12 V source on it, is -33 V; the boot diode is fed from there through 4.7 Ω
+    # and an ammeter. The positive rail's board net carries the high side's drain: it stays
+    # a net, and the bus is found behind its lead.
+    result = check_path(OUTSIDE / "o16_classd_rails_behind_leads.cir")
+    (stage,) = [s for s in result.stages if s.floating]
+    assert stage.bus is not None and (stage.bus.net, stage.bus.volts) == ("vps", 45.0)
+    supply = stage.supply
+    assert supply.diode == "d_bs" and supply.series_resistors == ("r_bs",)
+    assert supply.aux is not None and supply.aux.net == "vcc"
+    assert supply.aux.volts == pytest.approx(-33.0)
+    assert [r.reference for r in stage.refresh if r.kind == "low-side switch"] == ["vn"]
+    notes = " ".join(stage.notes)
+    assert "vn taken as the rail vns (-45 V) at DC" in notes and "v_vcc stacks it on vn" in notes
+    (finding,) = result.findings
+    assert finding.values["diode_reverse_voltage_steady"].value == pytest.approx(90.0, rel=0.05)
+
+
+def test_a_boot_diode_fed_through_a_filtered_supply_pin_has_its_rail() -> None:
+    # 15 V → 0.2 Ω → the driver's VCC pin (10 µF) → 10 Ω → ammeter → diode: the aux rail
+    # is the 15 V supply, both resistors are in the charge path.
+    result = check_path(OUTSIDE / "o17_inverter400v_filtered_vcc.cir")
+    (stage,) = [s for s in result.stages if s.floating]
+    supply = stage.supply
+    assert supply.diode == "d_bt" and supply.aux is not None
+    assert (supply.aux.net, supply.aux.volts) == ("a15", 15.0)
+    assert supply.series_resistors == ("r_bt", "r_vf")
+    assert supply.series_resistance == pytest.approx(10.2)
+    assert any("through the decoupled supply node vdd" in n for n in stage.notes)
