@@ -1131,8 +1131,17 @@ class _StageBuilder:
         waveform = control.waveform if control else None
         periodic = waveform is not None and waveform.period() is not None
         analog = waveform is not None and waveform.kind in ("sin", "exp")
+        # An independent source's enable (PWL, a single pulse) through the gate's transistor
+        # turns a rail-fed switch on and off: a load switch, static, not a linear stage.
+        enabled = (
+            control is not None
+            and control.kind == "source"
+            and not control.modulated
+            and waveform is not None
+            and waveform.kind in ("pwl", "pulse")
+        )
         notes: list[str] = []
-        if supply.kind == "none" and (not periodic or analog):
+        if supply.kind == "none" and (not periodic or analog) and not enabled:
             mode = "linear"
             notes.append(
                 "no floating supply and no switching command: a linear stage (source "

@@ -621,3 +621,24 @@ def test_dc_enable_missing_terms_account_for_the_difference(loadswitch: Case) ->
     )
     assert predicted == pytest.approx(hold.hold_time, rel=REL)
     assert math.isfinite(predicted) and predicted < hold.hold_time
+
+
+# ---------------------------------------------------------------- a held turn-off
+
+
+def test_turn_off_against_a_held_output(tmp_path: Path) -> None:
+    # The load switch's own enable turns it off at 30 ms: Q_OFF takes the gate to ground
+    # within microseconds while C_OUT (τ = 47 ms) holds the source, so V_GS goes to the
+    # finding's -48 V and stays beyond the rating for milliseconds, not for an edge.
+    if NGSPICE is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot cross-check")
+    from drivelint.pipeline import check_path
+
+    deck = OUTSIDE / "o18_loadswitch48v_high_gate_rail.cir"
+    (finding,) = [f for f in check_path(deck).findings if f.device == "q_off"]
+    computed = finding.values["vgs_pulled_down"].value
+    limit = finding.values["vgs_limit_negative"].value
+    waves = run_transient(deck.read_text(encoding="utf-8"), ("v(g,out)",), tmp_path)
+    after = [v for t, v in zip(waves.time, waves["v(g,out)"], strict=True) if t >= 30e-3]
+    assert min(after) == pytest.approx(computed, rel=REL)
+    assert waves.at("v(g,out)", 35e-3) < limit

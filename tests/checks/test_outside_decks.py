@@ -44,6 +44,13 @@ EXPECTED: dict[str, set[tuple[str, str, str]]] = {
     # a general-purpose rectifier (TT 4 µs) fed from the driver's RC-filtered VCC, at
     # 60 kHz (ngspice: -0.43 A back through it at every rising edge, 23 nC)
     "o17_inverter400v_filtered_vcc.cir": {("bootstrap-diode-slow", "d_bt", "error")},
+    # a load switch pulled up from 60 V, pulled off by an NPN to ground against 100 µF:
+    # V_GS -48 V at every turn-off (ngspice: -48.2 V, still -38.8 V 10 ms later), an
+    # error; and the output-short case, a warning
+    "o18_loadswitch48v_high_gate_rail.cir": {
+        ("gate-overvoltage", "q_off", "error"),
+        ("gate-overvoltage", "m1", "warning"),
+    },
 }
 CLEAN = [
     "o01_sync_buck_ammeters.cir",
@@ -142,3 +149,22 @@ def test_a_boot_diode_fed_through_a_filtered_supply_pin_has_its_rail() -> None:
     assert supply.series_resistors == ("r_bt", "r_vf")
     assert supply.series_resistance == pytest.approx(10.2)
     assert any("through the decoupled supply node vdd" in n for n in stage.notes)
+
+
+def test_a_turn_off_against_a_held_output_is_an_error_and_says_why() -> None:
+    # The enable commands the turn-off (a state of normal operation, not a fault) and the
+    # output capacitor holds the source far longer than the gate takes to fall.
+    result = check_path(OUTSIDE / "o18_loadswitch48v_high_gate_rail.cir")
+    (stage,) = [s for s in result.stages if s.floating]
+    assert stage.mode == "static"
+    (finding,) = [f for f in result.findings if f.device == "q_off"]
+    assert finding.values["tau_source_node"].value == pytest.approx(47e-3)
+    assert finding.values["tau_source_node"].value > finding.values["pulldown_fall_time"].value
+    assert "τ = 47 ms, longer than the ≈ 1 us the gate takes to fall" in finding.message
+    assert finding.values["vgs_pulled_down"].value == pytest.approx(-48.0)
+    # the same pull-down under a regulator's loop is a transient or fault: a warning
+    loop = check_path(OUTSIDE / "o08_linreg_high_gate_rail.cir")
+    (warning,) = [f for f in loop.findings if f.device == "q_ea"]
+    assert (
+        warning.severity.label == "warning" and "only in a transient or a fault" in warning.message
+    )
