@@ -518,12 +518,16 @@ class StageFacts:
         The diode's own charging law (:func:`drivelint.physics.diode.recharge_end_current`:
         Shockley current and TT diffusion charge into the hold capacitor), for the charge
         each cycle takes back, plus what the boot supply draws with the switch off (the
-        driver's quiescent current and the leakage it feeds).
+        driver's quiescent current, the leakage it feeds, and resistors across the hold
+        capacitor).
         """
-        steady = self.i_quiescent.value + self.i_leak.value
+        across = self.off_drain.value
+        steady = self.i_quiescent.value + self.i_leak.value + across
         c_hold, t_rest, n_vt = self.c_hold, self.recharge_time, self._n_vt
         if c_hold is None or t_rest is None or n_vt is None:
-            return Value(steady, "A", "computed: driver quiescent + leakage (switch off)")
+            how = "computed: driver quiescent + leakage"
+            how += f" + {self.off_drain.text()} {self.off_drain.origin}" if across else ""
+            return Value(steady, "A", how + " (switch off)")
         q = self._q_cycle_guess
         charging = diode_physics.recharge_end_current(c_hold.value, n_vt, self._tt, q, t_rest.value)
         return computed(
@@ -532,6 +536,29 @@ class StageFacts:
             f"computed: diode charging law for {format_si(q, 'C')} in {t_rest.text()} "
             f"({t_rest.origin}), plus {format_si(steady, 'A')} drawn with the switch off",
         )
+
+    @cached_property
+    def off_drain(self) -> Value:
+        """Resistors straight across the hold capacitor (boot net to the switch node): they
+        draw V_boot/R with the switch off as well, so the diode carries it at rest. Taken at
+        V_aux − 0.7 V − V_sw,low (the drop only moves the diode's V_F logarithmically)."""
+        from drivelint.checks.drains import hidden_in_driver
+
+        stage = self.stage
+        boot = stage.supply.boot_net
+        if stage.supply.kind != "bootstrap" or not boot or self.v_aux is None:
+            return Value(0.0, "A", "none")
+        v_boot = max(self.v_aux.value - 0.7 - self.v_sw_low.value, 0.0)
+        total, names = 0.0, []
+        for device in self.by_net.get(boot, ()):
+            if device.kind != "resistor" or not device.value or hidden_in_driver(self, device):
+                continue
+            if set(device.nets) == {boot, stage.source}:
+                total += v_boot * device.multiplier / device.value
+                names.append(device.name)
+        if not names:
+            return Value(0.0, "A", "none")
+        return computed(total, "A", f"through {', '.join(names)} across the hold capacitor")
 
     @cached_property
     def diode_vf(self) -> Value:

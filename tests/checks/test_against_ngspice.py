@@ -642,3 +642,29 @@ def test_turn_off_against_a_held_output(tmp_path: Path) -> None:
     after = [v for t, v in zip(waves.time, waves["v(g,out)"], strict=True) if t >= 30e-3]
     assert min(after) == pytest.approx(computed, rel=REL)
     assert waves.at("v(g,out)", 35e-3) < limit
+
+
+# ---------------------------------------------------------------- a long enable
+
+
+def test_hold_of_a_long_enable(tmp_path: Path) -> None:
+    # The heater's 150 ms enable from a 2.2 µF bootstrap: V(boot, source) before the enable
+    # against V_boot,0 (the diode carries the boot supply's resting draw, R_QB's), and the
+    # time it takes to fall to V_boot,min against dc-hold's hold time.
+    if NGSPICE is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot cross-check")
+    from drivelint.pipeline import check_path
+
+    deck = OUTSIDE / "o19_heater24v_long_enable.cir"
+    (finding,) = check_path(deck).findings
+    hold = finding.values["hold_time"].value
+    v_min = finding.values["v_boot_min"].value
+    waves = run_transient(deck.read_text(encoding="utf-8"), ("v(vb,sw)", "v(en)"), tmp_path)
+    t_enable = next(t for t, v in zip(waves.time, waves["v(en)"], strict=True) if v > 2.5)
+    before = waves.at("v(vb,sw)", t_enable - 10e-6)
+    assert finding.values["v_boot"].value == pytest.approx(before, rel=0.02)
+    t_min = next(
+        t for t, v in zip(waves.time, waves["v(vb,sw)"], strict=True) if t > t_enable and v < v_min
+    )
+    assert hold == pytest.approx(t_min - t_enable, rel=REL)
+    assert hold <= t_min - t_enable + 0.5e-3  # never much longer: the unsafe side

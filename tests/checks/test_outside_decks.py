@@ -51,6 +51,9 @@ EXPECTED: dict[str, set[tuple[str, str, str]]] = {
         ("gate-overvoltage", "q_off", "error"),
         ("gate-overvoltage", "m1", "warning"),
     },
+    # a bootstrap enabled for 150 ms that holds about 10 ms (ngspice: 10.3 ms): one finding
+    # for the one cause, dc-hold's (never bootstrap-capacitor-small's as well)
+    "o19_heater24v_long_enable.cir": {("dc-hold", "ven", "error")},
 }
 CLEAN = [
     "o01_sync_buck_ammeters.cir",
