@@ -74,6 +74,15 @@ def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
     return index
 
 
+def _diode_law(model: object) -> bool:
+    """A model card whose junction law can be evaluated: IS and N both positive (N = 0 or a
+    negative IS is no Shockley law; the documented defaults stand in)."""
+    params = getattr(model, "params", None)
+    if not params:
+        return False
+    return bool(params.get("is", 0.0) > 0 and params.get("n", 1.0) > 0)
+
+
 def _where(device: Device) -> str:
     return f"{device.span.path}:{device.span.line}"
 
@@ -365,7 +374,7 @@ class StageFacts:
         if given is not None:
             return Value(given[0], "V", f"directive ({given[1].path}:{given[1].line})")
         model = device.model
-        if model is not None and model.params.get("is"):
+        if model is not None and _diode_law(model):
             params = model.params
             amps = max(current, DIODE_VF_MIN_CURRENT) / device.multiplier
             drop = diode_physics.diode_drop(
@@ -390,7 +399,7 @@ class StageFacts:
     def _n_vt(self) -> float | None:
         """N·V_T of the bootstrap diode's model at the junction temperature."""
         model = self.diode.model if self.diode else None
-        if model is None or not model.params.get("is"):
+        if model is None or not _diode_law(model):
             return None
         return model.params.get("n", 1.0) * diode_physics.thermal_voltage(self.temperature.value)
 
@@ -441,7 +450,7 @@ class StageFacts:
         for refresh in self.stage.refresh:
             device = self.device(refresh.devices[0])
             model = device.model if device else None
-            if device is None or model is None or not model.params.get("is"):
+            if device is None or model is None or not _diode_law(model):
                 continue
             if refresh.kind in ("low-side switch", "freewheel diode"):
                 params = model.params
