@@ -276,6 +276,14 @@ def _representative(members: list[str], circuit: Circuit, terminals: Mapping[str
 
 def held_rails(circuit: Circuit) -> tuple[HeldRail, ...]:
     """Nets of ``circuit`` (wires already merged) that are a rail at DC, behind a lead."""
+    leads_at_all = any(
+        d.kind == "inductor"
+        and d.value is not None
+        and abs(d.value) / d.multiplier <= WIRE_MAX_INDUCTANCE
+        for d in circuit.devices.values()
+    )
+    if not leads_at_all:
+        return ()
     rails = {**circuit.rails, GROUND: 0.0}
     coupled = {
         name for d in circuit.devices.values() if d.kind == "coupling" for name in d.controls
@@ -359,7 +367,11 @@ def _with_held_rails(collapsed: Collapsed) -> Collapsed:
 
 
 def _collapse(circuit: Circuit) -> Collapsed:
-    return _with_held_rails(_merge(circuit))
+    from drivelint._gc import paused_gc
+
+    # many small acyclic objects: the cyclic collector would walk the whole circuit
+    with paused_gc():
+        return _with_held_rails(_merge(circuit))
 
 
 def _merge(circuit: Circuit) -> Collapsed:
