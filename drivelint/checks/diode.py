@@ -45,6 +45,7 @@ def check_diode_voltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
     limit = stress.derated_limit(rating.value, factor)
     if v_reverse <= limit:
         return
+    from drivelint.checks.printed import sum_line
     from drivelint.netlist.values import format_si
 
     needed = v_reverse / factor
@@ -72,10 +73,32 @@ def check_diode_voltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
         f"(so that {format_si(v_reverse, 'V')} is within {factor:.0%} of its rating)",
         derivation=(
             "V_R = V_bus + V_boot − V_aux + k_ring·(V_bus − V_sw,low)",
-            f"    = {facts.v_bus.text()} + {facts.v_boot_max.text()} − {facts.v_aux_max.text()} "
-            f"+ {format_si(ringing, 'V')} = {format_si(v_reverse, 'V')}",
-            f"  V_boot = V_aux − V_F − V_sw,low with V_sw,low = {facts.v_sw_low.text()} "
-            f"({facts.v_sw_low.origin})",
+            "    = "
+            + sum_line(
+                [
+                    (1, facts.v_bus.value),
+                    (1, facts.v_boot_max.value),
+                    (-1, facts.v_aux_max.value),
+                    (1, ringing),
+                ],
+                "V",
+            ),
+            f"  k_ring·(V_bus − V_sw,low) = {ctx.options['ringing']:g} × "
+            f"({sum_line([(1, facts.v_bus.value), (-1, facts.v_sw_low.value)], 'V')}) "
+            f"= {format_si(ringing, 'V')}",
+            "  V_boot = V_aux,max − V_F − V_sw,low"
+            + (" + dead-time boost" if facts.dead_time_boost.value else "")
+            + " = "
+            + sum_line(
+                [
+                    (1, facts.v_aux_max.value),
+                    (-1, facts.diode_vf.value),
+                    (-1, facts.v_sw_low.value),
+                    *([(1, facts.dead_time_boost.value)] if facts.dead_time_boost.value else []),
+                ],
+                "V",
+            )
+            + f"  (V_F: {facts.diode_vf.origin}; V_sw,low: {facts.v_sw_low.origin})",
             f"limit = V_RRM × derating = {rating.text()} × {factor:g} = {format_si(limit, 'V')}",
         ),
     )

@@ -39,7 +39,7 @@ class Drain:
     why: str
 
 
-def _hidden(facts: StageFacts, device: Device) -> bool:
+def hidden_in_driver(facts: StageFacts, device: Device) -> bool:
     """Inside a driver IC whose boot current the parts library already gives (a driver
     without one is charged its model's own drains, or a default when it has none)."""
     driver = facts.stage.driver
@@ -67,7 +67,7 @@ def resistor_drains(facts: StageFacts, v_boot: float) -> tuple[Drain, ...]:
     candidates = {d.name: d for net in high for d in facts.by_net.get(net, ())}
     for device in candidates.values():
         resistance = _resistance(device)
-        if resistance is None or device.name in seen or _hidden(facts, device):
+        if resistance is None or device.name in seen or hidden_in_driver(facts, device):
             continue
         nets = set(device.nets)
         start = nets & high

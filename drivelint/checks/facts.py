@@ -98,12 +98,6 @@ def _driver_default(facts: StageFacts, key: str, amount: float | None = None) ->
     )
 
 
-def _junction_law(params: Mapping[str, float]) -> bool:
-    """A model card whose IS and N give a usable Shockley law (N = 0 or negative, which no
-    junction has, leaves the documented default drop to stand in)."""
-    return bool(params.get("is")) and params.get("n", 1.0) > 0
-
-
 def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
     """Every device touching each net; built once per circuit and shared by its stages."""
     index: dict[str, list[Device]] = {}
@@ -111,6 +105,15 @@ def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
         for net in set(device.nets):
             index.setdefault(net, []).append(device)
     return index
+
+
+def _diode_law(model: object) -> bool:
+    """A model card whose junction law can be evaluated: IS and N both positive (N = 0 or a
+    negative IS is no Shockley law; the documented defaults stand in)."""
+    params = getattr(model, "params", None)
+    if not params:
+        return False
+    return bool(params.get("is", 0.0) > 0 and params.get("n", 1.0) > 0)
 
 
 def _where(device: Device) -> str:
@@ -423,7 +426,7 @@ class StageFacts:
         if given is not None:
             return Value(given[0], "V", f"directive ({given[1].path}:{given[1].line})")
         model = device.model
-        if model is not None and _junction_law(model.params):
+        if model is not None and _diode_law(model):
             params = model.params
             amps = max(current, DIODE_VF_MIN_CURRENT) / device.multiplier
             drop = diode_physics.diode_drop(
@@ -448,7 +451,7 @@ class StageFacts:
     def _n_vt(self) -> float | None:
         """N·V_T of the bootstrap diode's model at the junction temperature."""
         model = self.diode.model if self.diode else None
-        if model is None or not _junction_law(model.params):
+        if model is None or not _diode_law(model):
             return None
         return model.params.get("n", 1.0) * diode_physics.thermal_voltage(self.temperature.value)
 
@@ -499,7 +502,7 @@ class StageFacts:
         for refresh in self.stage.refresh:
             device = self.device(refresh.devices[0])
             model = device.model if device else None
-            if device is None or model is None or not _junction_law(model.params):
+            if device is None or model is None or not _diode_law(model):
                 continue
             if refresh.kind in ("low-side switch", "freewheel diode"):
                 params = model.params
@@ -576,12 +579,16 @@ class StageFacts:
         The diode's own charging law (:func:`drivelint.physics.diode.recharge_end_current`:
         Shockley current and TT diffusion charge into the hold capacitor), for the charge
         each cycle takes back, plus what the boot supply draws with the switch off (the
-        driver's quiescent current and the leakage it feeds).
+        driver's quiescent current, the leakage it feeds, and resistors across the hold
+        capacitor).
         """
-        steady = self.i_quiescent.value + self.i_leak.value
+        across = self.off_drain.value
+        steady = self.i_quiescent.value + self.i_leak.value + across
         c_hold, t_rest, n_vt = self.c_hold, self.recharge_time, self._n_vt
         if c_hold is None or t_rest is None or n_vt is None:
-            return Value(steady, "A", "computed: driver quiescent + leakage (switch off)")
+            how = "computed: driver quiescent + leakage"
+            how += f" + {self.off_drain.text()} {self.off_drain.origin}" if across else ""
+            return Value(steady, "A", how + " (switch off)")
         q = self._q_cycle_guess
         charging = diode_physics.recharge_end_current(c_hold.value, n_vt, self._tt, q, t_rest.value)
         return computed(
@@ -590,6 +597,29 @@ class StageFacts:
             f"computed: diode charging law for {format_si(q, 'C')} in {t_rest.text()} "
             f"({t_rest.origin}), plus {format_si(steady, 'A')} drawn with the switch off",
         )
+
+    @cached_property
+    def off_drain(self) -> Value:
+        """Resistors straight across the hold capacitor (boot net to the switch node): they
+        draw V_boot/R with the switch off as well, so the diode carries it at rest. Taken at
+        V_aux − 0.7 V − V_sw,low (the drop only moves the diode's V_F logarithmically)."""
+        from drivelint.checks.drains import hidden_in_driver
+
+        stage = self.stage
+        boot = stage.supply.boot_net
+        if stage.supply.kind != "bootstrap" or not boot or self.v_aux is None:
+            return Value(0.0, "A", "none")
+        v_boot = max(self.v_aux.value - 0.7 - self.v_sw_low.value, 0.0)
+        total, names = 0.0, []
+        for device in self.by_net.get(boot, ()):
+            if device.kind != "resistor" or not device.value or hidden_in_driver(self, device):
+                continue
+            if set(device.nets) == {boot, stage.source}:
+                total += v_boot * device.multiplier / device.value
+                names.append(device.name)
+        if not names:
+            return Value(0.0, "A", "none")
+        return computed(total, "A", f"through {', '.join(names)} across the hold capacitor")
 
     @cached_property
     def diode_vf(self) -> Value:

@@ -339,7 +339,38 @@ class _SourceHold:
     values: Mapping[str, Value]
 
 
-def _source_hold(stage: DriveStage, facts: StageFacts, hold_tau: float) -> _SourceHold:
+def _fall_time(stage: DriveStage, facts: StageFacts, floor: float) -> Value:
+    """How long the fastest pull-down that does not return to the source takes to bring the
+    gate down: R·C_g of its resistors (and a driver's sink resistance) with the gate's
+    capacitance, at least ``floor`` (option hold_time_constant: about the fall time of a
+    transistor or driver pull-down with no resistor of its own)."""
+    best: tuple[float, str] | None = None
+    for path in stage.pulldowns:
+        if path.returns_to == "source":
+            continue
+        ohms = 0.0
+        for name in path.devices:
+            ohms += _resistance(facts.device(name)) or 0.0
+            if stage.driver is not None and name == stage.driver.device:
+                sink = facts._driver_value("r_sink", "Ohm")
+                ohms += sink.value if sink is not None else 0.0
+        names = "+".join(path.devices)
+        if best is None or ohms < best[0]:
+            best = (ohms, names)
+    c_gate = facts.c_gate.value
+    if best is None or best[0] * c_gate <= floor:
+        how = "option hold_time_constant (a pull-down with no resistance of its own"
+        if best is not None and best[0] > 0:
+            how += f"; R·C_g through {best[1]} = {format_si(best[0] * c_gate, 's')}"
+        return Value(floor, "s", how + ")")
+    return computed(
+        best[0] * c_gate,
+        "s",
+        f"computed: R·C_g through {best[1]} = {format_si(best[0], 'Ω')} × {facts.c_gate.text()}",
+    )
+
+
+def _source_hold(stage: DriveStage, facts: StageFacts, fall: Value) -> _SourceHold:
     reasons: list[str] = []
     values: dict[str, Value] = {}
     for refresh in stage.refresh:
@@ -380,13 +411,14 @@ def _source_hold(stage: DriveStage, facts: StageFacts, hold_tau: float) -> _Sour
                 1.0 / siemens, "Ohm", "computed: loads from the source, in parallel"
             )
         values["tau_source_node"] = computed(tau, "s", "computed: R_discharge · C_source_node")
-        values["hold_time_constant"] = Value(hold_tau, "s", "option hold_time_constant")
-        if not unknown and tau >= hold_tau:
+        values["pulldown_fall_time"] = fall
+        if not unknown and tau >= fall.value:
             how = (
                 f"it discharges with τ = {format_si(tau, 's')}"
                 if math.isfinite(tau)
                 else "nothing discharges it"
             )
+            how += f", longer than the ≈ {fall.text()} the gate takes to fall"
             reasons.append(f"{names} ({format_si(farads, 'F')} to a fixed net; {how})")
     if reasons:
         return _SourceHold(True, tuple(reasons), values)
@@ -490,7 +522,8 @@ def gate_extremes(stage: DriveStage, facts: StageFacts, options: Mapping[str, fl
     clamps = [_clamp_levels(c, stage, facts) for c in stage.clamps]
     drives = _drives(stage, facts, options.get("undershoot", 0.0))
     vth = facts.ratings.get(facts.switch, "vth")
-    hold = _source_hold(stage, facts, options["hold_time_constant"])
+    fall = _fall_time(stage, facts, options["hold_time_constant"])
+    hold = _source_hold(stage, facts, fall)
     pulls, complete = _pulldowns(stage, facts, hold, vth)
 
     # Positive side: the highest drive, held down by any clamp that conducts within the limit.
@@ -967,7 +1000,13 @@ def _negative_finding(
         f"{pull.device} pulls {stage.switch}'s gate to {where} while the source is held at "
         f"{facts.v_bus.text()} by {held_by}: V_GS reaches {_v(pull.vgs)} "
         f"at turn-off, beyond the {_v(limit)} limit{rating.derated_text(rating.negative)}, "
-        f"{_not_holding(clamps, 'negative')}",
+        f"{_not_holding(clamps, 'negative')}"
+        + (
+            " (a linear stage: its loop pulls the gate this far only in a transient or a "
+            "fault, with the output above its set point)"
+            if linear
+            else ""
+        ),
         values,
         fix=f"return {pull.device} to the source {stage.source} instead of {where}, or {clamp_fix}",
         derivation=(
@@ -975,8 +1014,10 @@ def _negative_finding(
             f"         = {pull.v_return.text()} − {facts.v_bus.text()} = {_v(pull.vgs)}",
             *(
                 (
-                    f"τ = R_discharge·C = {values['tau_source_node'].text()} ≥ "
-                    f"{values['hold_time_constant'].text()} (option hold_time_constant)",
+                    f"τ = R_discharge·C = {values['tau_source_node'].text()} ≥ τ_fall = "
+                    f"{values['pulldown_fall_time'].text()} "
+                    f"({values['pulldown_fall_time'].origin}): the source stays up while the "
+                    "gate falls",
                 )
                 if "tau_source_node" in values and math.isfinite(values["tau_source_node"].value)
                 else ()

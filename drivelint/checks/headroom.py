@@ -12,6 +12,8 @@ from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
 from drivelint.checks.facts import StageFacts
+from drivelint.checks.hold import boot_voltage_line
+from drivelint.checks.printed import sum_line
 from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
 from drivelint.ratings.values import Value, computed
@@ -191,13 +193,17 @@ def check_gate_headroom(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
         f"below the {need.text()} it needs: {consequence}"
     )
     fix = _fix(stage, facts, found)
+    boot = boot_voltage_line(facts) if supply.kind == "bootstrap" else None
     derivation = [
-        f"V_GS,on = {level.text()} ({level.origin})",
+        boot.replace("V_boot,0 =", "V_GS,on = V_boot,0 =", 1)
+        if boot
+        else f"V_GS,on = {level.text()} ({level.origin})",
         f"need = max(vgs_on + margin, UVLO + uvlo_margin) = {need.text()} ({need.origin})",
     ]
     if found.droop is not None:
         derivation.insert(
-            1, f"after one on-time: {level.text()} − {found.droop.text()} = {_v(after)}"
+            1,
+            "after one on-time: " + sum_line([(1, level.value), (-1, found.droop.value)], "V"),
         )
     if found.full_on is not None:
         derivation.append(f"fully on only above {found.full_on.text()} ({found.full_on.origin})")

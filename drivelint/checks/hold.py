@@ -12,6 +12,7 @@ from collections.abc import Iterator
 from drivelint.checks.base import CheckContext, Finding
 from drivelint.checks.drains import OnDrains
 from drivelint.checks.facts import StageFacts
+from drivelint.checks.printed import at, resolution, sum_line
 from drivelint.netlist.values import format_si
 from drivelint.physics import bootstrap as boot_physics
 from drivelint.physics import gate as gate_physics
@@ -20,6 +21,38 @@ from drivelint.ratings.values import Value, computed
 from drivelint.stages.model import DriveStage
 
 PREFERRED_SERIES = "E12"
+# A bootstrap hold capacitor is a ceramic beside the driver, from 100 nF to a few tens of µF
+# (common practice). A hold that needs more than this is not a sizing problem: the
+# bootstrap is the wrong supply for that on-time (an electrolytic large enough leaks, by
+# the usual 0.01·C·V rule, about as much as the drains it would hold against).
+PRACTICAL_MAX_CAPACITANCE = 100e-6
+ALTERNATIVES = "a charge pump, an isolated gate supply, or periodic refresh pulses"
+
+
+def outlasts_hold(facts: StageFacts) -> float | None:
+    """The hold time, when a finite on-time outlasts it (dc-hold's finding, and so not
+    bootstrap-capacitor-small's: one root cause, one finding); None otherwise."""
+    on_time, c_hold, dv, qg = facts.on_time, facts.c_hold, facts.delta_v_allowed, facts.qg
+    if on_time is None or not math.isfinite(on_time.value) or on_time.value <= 0:
+        return None
+    if c_hold is None or dv is None or qg is None or dv.value <= 0:
+        return None
+    if (c_hold.value + facts.c_gate.value) * dv.value <= qg.value:
+        return None  # the gate charge alone: a sizing problem, whatever the on-time
+    t_hold = _hold_time(facts, c_hold.value, dv.value, facts.on_drains.total.value)
+    return t_hold if on_time.value > t_hold else None
+
+
+def boot_voltage_line(facts: StageFacts, finest: float | None = None) -> str | None:
+    """``V_boot,0 = V_aux − V_F − V_sw,low = …`` with V_F and where it comes from."""
+    v_aux, v_boot = facts.v_aux, facts.v_boot0
+    if facts.stage.supply.kind != "bootstrap" or v_aux is None or v_boot is None:
+        return None
+    if facts.diode is None:
+        return None
+    vf = facts.diode_vf
+    line = sum_line([(1, v_aux.value), (-1, vf.value), (-1, facts.v_refresh)], "V", finest)
+    return f"V_boot,0 = V_aux − V_F − V_sw,low = {line}  (V_F: {vf.origin})"
 
 
 def _drain_list(drains: OnDrains, most: int = 3) -> str:
@@ -48,6 +81,10 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
     # supply level is gate-headroom's finding).
     if dv.value <= 0:
         return
+    # An on-time the capacitor cannot even hold is dc-hold's finding, with the same
+    # capacitance this rule would ask for: one root cause, one finding.
+    if outlasts_hold(facts) is not None:
+        return
     drains = facts.on_drains
     q_total = q_cycle.value
     q_rr = facts.recovery_charge
@@ -65,6 +102,7 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
     )
     cap = facts.capacitor.name
     drained = q_total - qg.value - facts.q_ls.value - (q_rr.value if q_rr else 0.0)
+    finest = resolution([(1, v_boot.value), (-1, facts.v_boot_min.value)])
     values: dict[str, Value] = {
         "capacitance": c_hold,
         "gate_charge": qg,
@@ -90,8 +128,6 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
     }
     if q_rr is not None:
         values["recovery_charge"] = q_rr
-    i_q, i_leak, i_r = drains.quiescent, drains.i_leak, drains.i_resistive
-    rr_text = f" + {q_rr.text()}" if q_rr else ""
     fix = (
         f"use {format_si(suggested, 'F')} ({PREFERRED_SERIES}) or more for {cap}: "
         f"≥ {format_si(c_required, 'F')} = {margin:g} × {format_si(q_total, 'C')} / "
@@ -114,27 +150,65 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
         + (f", Q_ls {facts.q_ls.text()}" if facts.q_ls.value else "")
         + (f", Q_rr {q_rr.text()}" if q_rr else "")
         + f", {format_si(drained, 'C')} drained), a droop of {format_si(droop, 'V')} per cycle "
-        f"against {dv.text()} allowed ({v_boot.text()} → {facts.v_boot_min.text()}); "
-        f"needs ≥ {format_si(c_required, 'F')}",
+        f"against {dv.text()} allowed ({at(v_boot.value, 'V', finest)} → "
+        f"{at(facts.v_boot_min.value, 'V', finest)}); needs ≥ {format_si(c_required, 'F')}",
         values,
         fix=fix,
-        derivation=(
-            "Q_total = Q_g + Q_ls + (I_q + I_leak + I_R)·t_on + Q_rr",
-            f"        = {qg.text()} + {facts.q_ls.text()} + ({i_q.text()} + {i_leak.text()} "
-            f"+ {i_r.text()})·{on_time.text()}{rr_text} = {format_si(q_total, 'C')}",
-            f"  Q_g: {qg.origin}",
-            f"  drains: {_drain_list(drains, most=6)}",
-            "ΔV_allowed = V_boot,0 − V_boot,min",
-            f"           = {v_boot.text()} − {facts.v_boot_min.text()} = {dv.text()}"
-            f"  (V_boot,min: {facts.v_boot_min.origin})",
-            f"C_req = margin·Q_total/ΔV_allowed = {margin:g} × {format_si(q_total, 'C')} / "
-            f"{dv.text()} = {format_si(c_required, 'F')}",
-            f"ΔV per cycle = Q_total/(C + C_g) = {format_si(q_total, 'C')} / ({c_hold.text()} + "
+        derivation=_budget_lines(facts, drains, q_rr)
+        + (
+            f"C_req = margin·Q_total/ΔV_allowed = {margin:g} × {_c4(q_total)} / "
+            f"{_v4(dv.value)} = {format_si(c_required, 'F')}",
+            f"ΔV per cycle = Q_total/(C + C_g) = {_c4(q_total)} / ({c_hold.text()} + "
             f"{facts.c_gate.text()}) = {format_si(droop, 'V')}",
             f"next {PREFERRED_SERIES} value ≥ {format_si(c_required, 'F')}: "
             f"{format_si(suggested, 'F')} (droop {format_si(droop_suggested, 'V')})",
         ),
     )
+
+
+def _c4(coulombs: float) -> str:
+    return format_si(coulombs, "C", digits=4)
+
+
+def _v4(volts: float) -> str:
+    return format_si(volts, "V", digits=4)
+
+
+def _budget_lines(
+    facts: StageFacts, drains: OnDrains, q_rr: Value | None, supply: bool = True
+) -> tuple[str, ...]:
+    """Q_total (and with ``supply``, the drains, V_boot,0 and ΔV_allowed) as sums that add
+    up as printed, V_F among the inputs."""
+    assert facts.qg is not None and facts.on_time is not None
+    assert facts.v_boot0 is not None and facts.delta_v_allowed is not None
+    on_time, i_drain = facts.on_time, drains.total
+    drained = i_drain.value * on_time.value
+    terms = [(1, facts.qg.value), (1, facts.q_ls.value), (1, drained)]
+    if q_rr is not None:
+        terms.append((1, q_rr.value))
+    dv_terms = [(1, facts.v_boot0.value), (-1, facts.v_boot_min.value)]
+    finest = resolution(dv_terms)
+    lines = [
+        "Q_total = Q_g + Q_ls + I_drain·t_on" + (" + Q_rr" if q_rr is not None else ""),
+        f"        = {sum_line(terms, 'C')}",
+        f"  I_drain·t_on = ({drains.quiescent.text()} + {drains.i_leak.text()} + "
+        f"{drains.i_resistive.text()}) × {on_time.text()} = {i_drain.text()} × "
+        f"{on_time.text()} = {format_si(drained, 'C')}",
+        f"  Q_g: {facts.qg.origin}",
+    ]
+    if q_rr is not None:
+        lines.append(f"  Q_rr: {q_rr.origin}")
+    if not supply:
+        return tuple(lines)
+    lines.append(f"  drains: {_drain_list(drains, most=6)}")
+    boot = boot_voltage_line(facts, finest)
+    if boot is not None:
+        lines.append(boot)
+    lines += [
+        f"ΔV_allowed = V_boot,0 − V_boot,min = {sum_line(dv_terms, 'V')}"
+        f"  (V_boot,min: {facts.v_boot_min.origin})",
+    ]
+    return tuple(lines)
 
 
 # ---------------------------------------------------------------- dc-hold
@@ -159,22 +233,18 @@ def check_dc_hold(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     on_time = facts.on_time
     if on_time is None or on_time.value <= 0:
         return
-    unbounded = not math.isfinite(on_time.value)
-    c_hold, dv, qg = facts.c_hold, facts.delta_v_allowed, facts.qg
+    c_hold, dv = facts.c_hold, facts.delta_v_allowed
     drains = facts.on_drains
-    i_drain = drains.total
-    t_hold: float | None = None
-    if c_hold is not None and dv is not None:
-        t_hold = _hold_time(facts, c_hold.value, dv.value, i_drain.value)
-    if not unbounded:
-        if t_hold is None or c_hold is None or dv is None or qg is None:
-            return
+    if math.isfinite(on_time.value):
         # Below the minimum from the start, or a gate charge alone beyond the allowed
         # droop: the supply voltage or the capacitor is the problem, reported elsewhere.
-        if dv.value <= 0 or (c_hold.value + facts.c_gate.value) * dv.value <= qg.value:
+        t_hold = outlasts_hold(facts)
+        if t_hold is None:
             return
-        if on_time.value <= t_hold:
-            return
+    else:
+        t_hold = None
+        if c_hold is not None and dv is not None:
+            t_hold = _hold_time(facts, c_hold.value, dv.value, drains.total.value)
     yield _dc_hold_finding(stage, ctx, drains, t_hold)
 
 
@@ -212,6 +282,10 @@ def _dc_hold_finding(
         values["v_boot"] = v_boot
         values["v_boot_min"] = facts.v_boot_min
         values["delta_v_allowed"] = dv
+        if facts.diode is not None:
+            values["diode_vf"] = facts.diode_vf
+        if facts.v_aux is not None:
+            values["v_aux"] = facts.v_aux
     derivation: list[str] = []
     if t_hold is not None and c_hold is not None and dv is not None:
         origin = (
@@ -230,6 +304,8 @@ def _dc_hold_finding(
             "Ohm",
             "computed: 1/g, the resistance the drains behave like as the boot voltage sags",
         )
+        dv_terms = [(1, dv.value + facts.v_boot_min.value), (-1, facts.v_boot_min.value)]
+        boot = boot_voltage_line(facts, resolution(dv_terms))
         derivation += [
             "t_hold = ((C + C_g)/g)·ln(I(V_1)/I(V_min)) with I(V) = I_drain,on + g·(V − V_boot,0), "
             f"g = {format_si(slope.value, 'A')}/V ({slope.origin}); for g = 0: "
@@ -237,15 +313,21 @@ def _dc_hold_finding(
             f"       with C + C_g = {c_hold.text()} + {facts.c_gate.text()}, ΔV_allowed = "
             f"{dv.text()}, Q_g = {q_text}, I_drain,on = {i_drain.text()}: "
             f"t_hold = {format_si(t_hold, 's')}",
-            f"  I_drain,on = I_q + I_leak + I_R = {drains.quiescent.text()} + "
-            f"{drains.i_leak.text()} + {drains.i_resistive.text()}",
+            "  I_drain,on = I_q + I_leak + I_R = "
+            + sum_line(
+                [
+                    (1, drains.quiescent.value),
+                    (1, drains.i_leak.value),
+                    (1, drains.i_resistive.value),
+                ],
+                "A",
+            ),
             f"  drains: {_drain_list(drains, most=8)}",
-            f"  ΔV_allowed = V_boot,0 − V_boot,min = "
-            f"{v_boot.text() if v_boot else '?'} − {facts.v_boot_min.text()} = {dv.text()}",
+            *((f"  {boot}",) if boot else ()),
+            f"  ΔV_allowed = V_boot,0 − V_boot,min = {sum_line(dv_terms, 'V')}",
         ]
     unbounded = not math.isfinite(on_time.value)
     derivation.append(f"t_on = {'unbounded' if unbounded else on_time.text()} ({on_time.origin})")
-    alternatives = "a charge pump, an isolated gate supply, or periodic refresh pulses"
     if t_hold is not None and math.isfinite(t_hold) and c_hold is not None:
         held = format_si(t_hold, "s")
         hold_part = (
@@ -271,33 +353,59 @@ def _dc_hold_finding(
         message = f"{switch} is held on without limit{by} from a bootstrap supply; {hold_part}"
         fix = (
             f"a bootstrap supply recharges only while {switch} is off, so it cannot hold it on "
-            f"at DC: use {alternatives} ({refresh}); {largest}"
+            f"at DC: use {ALTERNATIVES} ({refresh}); {largest}"
         )
-    else:
-        assert t_hold is not None and qg is not None and dv is not None
-        needed = boot_physics.required_capacitance(
-            boot_physics.charge_budget(
-                qg.value,
-                0.0,
-                drains.quiescent.value,
-                drains.i_leak.value,
-                drains.i_resistive.value,
-                on_time.value,
-            ),
-            dv.value,
+        return ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation))
+    assert t_hold is not None and qg is not None and dv is not None
+    q_cycle = facts.q_per_cycle
+    assert q_cycle is not None
+    margin = ctx.options["margin"]
+    c_min = boot_physics.required_capacitance(q_cycle.value, dv.value)
+    needed = margin * c_min
+    values["charge_per_cycle"] = q_cycle
+    values["margin"] = Value(margin, "1", "option margin")
+    values["minimum_capacitance"] = computed(c_min, "F", "computed: Q_total/ΔV_allowed")
+    derivation += _budget_lines(facts, drains, facts.recovery_charge, supply=False)
+    derivation.append(
+        f"C for t_on = margin·Q_total/ΔV_allowed = {margin:g} × {_c4(q_cycle.value)} / "
+        f"{_v4(dv.value)} = {format_si(needed, 'F')}"
+    )
+    if needed > PRACTICAL_MAX_CAPACITANCE:
+        # Not a capacitor to fit: a bootstrap is the wrong supply for this on-time.
+        values["capacitance_needed"] = computed(
+            needed, "F", "computed: margin·Q_total/ΔV_allowed (beyond a bootstrap capacitor)"
         )
-        values["capacitance_for_on_time"] = computed(
-            needed, "F", "computed: (Q_g + I_drain·t_on)/ΔV_allowed"
+        values["practical_max_capacitance"] = Value(
+            PRACTICAL_MAX_CAPACITANCE,
+            "F",
+            "common practice: bootstrap hold capacitors are ceramics up to tens of µF",
         )
+        by = f" as {device} commands" if stage.control and device == stage.control.source else ""
         message = (
-            f"{switch} is commanded on for {on_time.text()} at a time, longer than its "
-            f"bootstrap supply can hold: {hold_part}"
+            f"a bootstrap supply cannot hold {switch} on for {on_time.text()}{by}: {hold_part}, "
+            f"and holding {on_time.text()} would take {format_si(needed, 'F')} of hold "
+            f"capacitance, far beyond a bootstrap capacitor"
         )
-        fix = (
-            f"keep on-times within {format_si(t_hold, 's')}, or use {alternatives} "
-            f"({refresh}); holding {on_time.text()} from the bootstrap would take "
-            f"{cap_name} ≥ {format_si(needed, 'F')}"
-        )
+        fix = f"use {ALTERNATIVES} ({refresh}); the largest on-time that works as built is {held}"
+        return ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation))
+    suggested = next_preferred(needed, PREFERRED_SERIES)
+    values["capacitance_for_on_time"] = computed(
+        needed, "F", "computed: margin·Q_total/ΔV_allowed (as bootstrap-capacitor-small sizes it)"
+    )
+    values["suggested_capacitance"] = computed(
+        suggested, "F", f"computed: next {PREFERRED_SERIES} value ≥ required (IEC 60063)"
+    )
+    by = f" by {device}" if stage.control and device == stage.control.source else ""
+    message = (
+        f"{switch} is commanded on{by} for {on_time.text()} at a time, longer than its "
+        f"bootstrap supply can hold: {hold_part}; holding {on_time.text()} takes "
+        f"≥ {format_si(needed, 'F')}"
+    )
+    fix = (
+        f"use {format_si(suggested, 'F')} ({PREFERRED_SERIES}) or more for {cap_name} "
+        f"(≥ {format_si(needed, 'F')} = {margin:g} × {format_si(q_cycle.value, 'C')} / "
+        f"{dv.text()}), or keep on-times within {held}, or use {ALTERNATIVES} ({refresh})"
+    )
     return ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation))
 
 

@@ -8,6 +8,7 @@ from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
 from drivelint.checks.facts import StageFacts
+from drivelint.checks.printed import sum_line
 from drivelint.netlist.values import format_si
 from drivelint.physics import bootstrap as boot_physics
 from drivelint.physics.preferred import preferred_values
@@ -362,15 +363,21 @@ def _not_sustained(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
         # With t_off ≪ τ the charge put back per cycle tends to V·t_off/R whatever C is.
         fix += "; a larger capacitor helps little while the off-time is much shorter than τ"
     derivation = (
-        f"R_charge = R_series + R_D + R_refresh = {r_series.text()} + {r_diode.text()} + "
-        f"{path.resistance.text()} ({'+'.join(path.refresh.devices)}) = {format_si(r_charge, 'Ω')}",
+        "R_charge = R_series + R_D + R_refresh = "
+        + sum_line([(1, r_series.value), (1, r_diode.value), (1, path.resistance.value)], "Ω")
+        + f" ({'+'.join(path.refresh.devices)})",
         f"τ = R_charge·C = {format_si(r_charge, 'Ω')} × {c_hold.text()} = {format_si(tau, 's')}",
-        f"Q = Q_g + Q_ls + I_drain·t_on + Q_rr = {qg.text()} + {facts.q_ls.text()} + "
-        f"{facts.i_drain.text()} × {on_time.text()}"
+        f"Q = Q_g + Q_ls + I_drain·t_on + Q_rr at V_target = {format_si(q_cycle, 'C')} "
+        f"(at V_boot,0: {qg.text()} + {facts.q_ls.text()} + {facts.i_drain.text()} × "
+        f"{on_time.text()}"
         + (f" + {facts.recovery_charge.text()}" if facts.recovery_charge else "")
-        + f" = {format_si(q_cycle, 'C')}; ΔV = Q/C = {format_si(delta_v, 'V')}",
-        f"V_target = V_aux − V_F − V_sw,low = {v_aux.text()} − {v_f.text()} − "
-        f"{v_sw_low.text()} = {v_target.text()}",
+        + f"); ΔV = Q/C = {format_si(delta_v, 'V')}",
+        "V_target = V_aux − V_F − V_sw,low = "
+        + sum_line(
+            [(1, v_aux.value), (-1, v_f.value), (-1, v_sw_low.value)],
+            "V",
+        )
+        + f"  (V_F: {v_f.origin})",
         f"1 − a = 1 − exp(−t_off/τ) = 1 − exp(−{off_time.text()} / {format_si(tau, 's')}) "
         f"= {one_minus_a:.4g}",
         f"k = dQ/dV = {format_si(found.dq_dv, 'F')}; u = a·Q/(C·(1 − a + a·k/C)); "

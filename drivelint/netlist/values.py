@@ -70,8 +70,8 @@ _PREFIXES: Final = ("f", "p", "n", "u", "m", "", "k", "M", "G", "T")
 _UNITY: Final = _PREFIXES.index("")
 
 
-def format_si(value: float, unit: str = "") -> str:
-    """Engineering notation for messages: 3 significant digits, e.g. ``220 nF``."""
+def format_si(value: float, unit: str = "", digits: int = 3) -> str:
+    """Engineering notation for messages: ``digits`` significant digits (3: ``220 nF``)."""
     suffix = f" {unit}" if unit else ""
     if math.isnan(value):
         return f"nan{suffix}"
@@ -79,11 +79,11 @@ def format_si(value: float, unit: str = "") -> str:
         return f"{'-' if value < 0 else ''}inf{suffix}"
     if value == 0:
         return f"0{suffix}"
-    # Round to 3 significant digits first, so 999.7 becomes "1 k" and not "1000".
-    rounded = Decimal(f"{abs(value):.2e}")
+    # Round to the significant digits first, so 999.7 becomes "1 k" and not "1000".
+    rounded = Decimal(f"{abs(value):.{max(1, digits) - 1}e}")
     decade = rounded.adjusted()
     group = min(max(decade // 3, -_UNITY), len(_PREFIXES) - 1 - _UNITY)
     mantissa = rounded.scaleb(-3 * group).normalize()
-    digits = f"{mantissa:f}"
+    shown = f"{mantissa:f}"
     sign = "-" if value < 0 else ""
-    return f"{sign}{digits} {_PREFIXES[group + _UNITY]}{unit}".rstrip()
+    return f"{sign}{shown} {_PREFIXES[group + _UNITY]}{unit}".rstrip()

@@ -167,6 +167,26 @@ class _View:
     def is_rail(self, net: str) -> bool:
         return net in self.rails
 
+    def is_supply_node(self, net: str) -> bool:
+        """A net held by a filter-sized capacitor to ground or a rail (a decoupled supply
+        pin); never a rail itself here, and never a switch's drain or source."""
+        from drivelint.stages.wires import FILTER_MIN_CAPACITANCE
+
+        found = False
+        for name, pin in self.at(net):
+            device = self.device(name)
+            if device is None:
+                continue
+            if device.kind == "mosfet" and pin in ("d", "s"):
+                return False
+            if device.kind != "capacitor" or device.value is None:
+                continue
+            if device.value * device.multiplier < FILTER_MIN_CAPACITANCE:
+                continue
+            far = _other_net(device, net)
+            found = found or (far is not None and far in self.rails)
+        return found
+
     def zener_voltage(self, device: Device) -> float | None:
         part = self.parts.get(device.model_name)
         if part is not None and part.kind == "zener":
@@ -209,6 +229,8 @@ class _StageBuilder:
         self.source = switch.net("s") or ""
         self.drain = switch.net("d") or ""
         self.boot_net = ""  # set once the floating supply is known
+        # (supply node, rail) when the boot diode is fed through a decoupled supply node
+        self.fed_through: tuple[str, str] | None = None
 
     # -- floating or not ---------------------------------------------------------------
 
@@ -448,20 +470,42 @@ class _StageBuilder:
         return None
 
     def to_rail(self, net: str, exclude: set[str]) -> tuple[str, list[str]]:
-        """The rail reached from ``net`` through at most one series resistor (else ``net``)."""
-        if self.view.supply_rail(net) is not None:
+        """The supply reached from ``net`` through series resistors and leads (else ``net``).
+
+        The first step is the charge path's own resistor (any value); beyond it the path
+        may go on only through a supply node — a net held by a filter-sized capacitor to
+        ground or a rail, such as a driver's VCC behind its RC filter — for at most
+        ``MAX_SERIES_TO_RAIL`` parts in all. The resistors passed are returned, to count in
+        the charge path. Ground is not a supply here.
+        """
+        view = self.view
+        if view.supply_rail(net) is not None:
             return net, []
-        for name, _ in self.view.at(net):
-            device = self.view.device(name)
-            if device is not None and device.kind == "resistor":
-                far = _other_net(device, net)
-                if (
-                    far is not None
-                    and far not in exclude
-                    and self.view.supply_rail(far) is not None
-                    and far != GROUND
-                ):
-                    return far, [name]
+        blocked = exclude | {self.source, self.gate, GROUND}
+        frontier: list[tuple[str, list[str]]] = [(net, [])]
+        seen = {net}
+        for _ in range(MAX_SERIES_TO_RAIL):
+            following: list[tuple[str, list[str]]] = []
+            for here, passed in frontier:
+                if passed and not view.is_supply_node(here):
+                    continue
+                for name, _ in view.at(here):
+                    device = view.device(name)
+                    if device is None or device.kind not in ("resistor", "inductor"):
+                        continue
+                    if device.kind == "inductor" and name in view.coupled_inductors:
+                        continue
+                    far = _other_net(device, here)
+                    if far is None or far in seen or far in blocked:
+                        continue
+                    seen.add(far)
+                    resistors = [*passed, name] if device.kind == "resistor" else passed
+                    if view.supply_rail(far) is not None:
+                        if here != net:
+                            self.fed_through = (here, far)
+                        return far, resistors
+                    following.append((far, resistors if device.kind == "resistor" else passed))
+            frontier = following
         return net, []
 
     def pump(self, net: str, diode: str) -> tuple[str, str, str, str] | None:
@@ -1089,8 +1133,17 @@ class _StageBuilder:
         waveform = control.waveform if control else None
         periodic = waveform is not None and waveform.period() is not None
         analog = waveform is not None and waveform.kind in ("sin", "exp")
+        # An independent source's enable (PWL, a single pulse) through the gate's transistor
+        # turns a rail-fed switch on and off: a load switch, static, not a linear stage.
+        enabled = (
+            control is not None
+            and control.kind == "source"
+            and not control.modulated
+            and waveform is not None
+            and waveform.kind in ("pwl", "pulse")
+        )
         notes: list[str] = []
-        if supply.kind == "none" and (not periodic or analog):
+        if supply.kind == "none" and (not periodic or analog) and not enabled:
             mode = "linear"
             notes.append(
                 "no floating supply and no switching command: a linear stage (source "
@@ -1116,6 +1169,12 @@ class _StageBuilder:
             )
         if supply.kind == "charge-pump":
             notes.append(self.pump_note(supply))
+        if self.fed_through is not None and supply.diode and supply.aux:
+            node, rail = self.fed_through
+            notes.append(
+                f"{supply.diode} is fed from {rail} through the decoupled supply node {node} "
+                f"({', '.join(supply.series_resistors)} counted in the charge path)"
+            )
         if driver is not None and driver[0].origin == "pin names":
             info = driver[0]
             notes.append(
@@ -1134,7 +1193,13 @@ class _StageBuilder:
         related.discard(self.switch.name)
         nets = {self.source, self.gate, self.drain, supply.boot_net, bus.net if bus else None}
         nets |= {supply.aux.net if supply.aux else None} | {r.reference for r in refresh}
-        notes = [w.describe() for w in self.collapsed.wires_at(n for n in nets if n)] + notes
+        shown = [n for n in nets if n]
+        held = self.collapsed.held_at(shown)
+        notes = (
+            [w.describe() for w in self.collapsed.wires_at([*shown, *(h.rail for h in held)])]
+            + [h.describe() for h in held]
+            + notes
+        )
         return DriveStage(
             switch=self.switch.name,
             channel=channel,

@@ -96,6 +96,10 @@ class Measured:
     peaks: tuple[float, ...]
     valleys: tuple[float, ...]
     earliest_peak: float | None  # the same before the run's first complete on-time
+    # the node rose before the gate did in every kept cycle (a load current lifted it
+    # through the switch's body diode in the dead time): the switch turned on at zero
+    # voltage, and its gate took no Miller charge
+    soft_turn_on: bool = False
 
 
 def _spans(time: Sequence[float], values: Sequence[float], level: float) -> list[tuple[int, int]]:
@@ -185,6 +189,7 @@ def measure_switching(
     gate_low = vgs_low + 0.1 * (vgs_high - vgs_low)
     boot = w[f"v({nets.boot},{nets.source})"] if nets.boot else None
     starts, ends = [], []
+    soft = all(vgs[rise] < gate_low for rise, _ in spans)
     previous_fall = [every[every.index(s) - 1][1] if every.index(s) > 0 else 0 for s in spans]
     earliest = None
     if boot is not None:
@@ -251,6 +256,7 @@ def measure_switching(
         peaks=tuple(starts),
         valleys=tuple(ends),
         earliest_peak=earliest,
+        soft_turn_on=soft,
     )
 
 
@@ -266,10 +272,12 @@ def facts_of(deck: Path, switch: str) -> tuple[DriveStage, StageFacts]:
     from drivelint.pipeline import parts_for
     from drivelint.ratings.directives import parse_directives
     from drivelint.ratings.ratings import Ratings
+    from drivelint.stages.wires import collapse_wires
 
     result = check_path(deck, load_config(find_config(deck)))
     (stage,) = [s for s in result.stages if s.switch == switch]
-    circuit = result.circuit
+    # the rules see the circuit recognition saw: wires merged, rails behind leads held
+    circuit = collapse_wires(result.circuit).circuit
     directives = parse_directives(circuit.directives)
     facts = StageFacts(
         stage,

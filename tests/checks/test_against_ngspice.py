@@ -65,7 +65,14 @@ REL = 0.20
 # 0 V has no meaningful ratio): 5 % of a 20 V rating.
 VGS_FLOOR = 1.0
 # A recovery charge under this share of the cycle's charge is compared on that scale: a
-# fast diode's fraction of a nanocoulomb changes no finding.
+# fast diode's fraction of a nanocoulomb changes no finding. On the 17 switching stages of
+# the examples and outside decks (2026-12) a fast diode's computed charge is 0.5-5x the
+# simulated one, under 5 % of the cycle's charge either way: it is the current the diode
+# still carries as the node rises, set by the dead-time step (the load current's size and
+# direction at that edge, which the netlist does not give) and by the delay from the step to
+# the rise. Integrating the SPICE diode (RS, TT) in series with C over the average dead time
+# (physics.diode.stored_charge_after_step) was tried for fast diodes too and scattered more
+# (0.9-8x): the step's size and timing, not the diode law, decide it. Left as it is.
 QRR_FLOOR = 0.10
 # The slow rectifier of the buck example: its stored charge depends on how fast the node
 # steps down at the start of the 30 ns dead time, which the model takes as instantaneous
@@ -177,7 +184,43 @@ def test_droop_per_on_time(runs: Runs, case: tuple[Path, str]) -> None:
         assert valleys is not None
         predicted = peak - valleys[0]
     rel = DROOP_MODULATED_REL if run.facts.modulated else REL
+    if run.measured.soft_turn_on:
+        # The load current lifts this node in the dead time (an H-bridge leg or an inverter
+        # leg whose current flows in at that edge): the switch turns on at zero V_DS, its
+        # gate takes no Miller charge, and no dead-time step drives the boot diode harder.
+        # drivelint, which cannot know the current's direction, counts a hard turn-on after
+        # a freewheeling dead time: an upper bound, high by those two charges over C + C_g.
+        assert predicted >= run.measured.droop
+        facts = run.facts
+        assert facts.c_hold is not None
+        extra = _miller_charge(facts) + run.computed.get("q_rr", 0.0) - _soft_recovery(facts)
+        predicted -= extra / (facts.c_hold.value + facts.c_gate.value)
     assert predicted == pytest.approx(run.measured.droop, rel=rel)
+
+
+def _soft_recovery(facts: StageFacts) -> float:
+    """The recovery charge without a dead-time step before the turn-on: TT (or t_rr) times
+    the current the diode carries as the recharge ends (a rated qrr as it is)."""
+    q_rr = facts.recovery_charge
+    if q_rr is None:
+        return 0.0
+    if facts.ratings.get(facts.diode, "qrr") is not None or not facts._tt:
+        return q_rr.value
+    return facts._tt * facts.recharge_end_current.value
+
+
+def _miller_charge(facts: StageFacts) -> float:
+    """The gate–drain charge of a hard turn-on from the blocked bus (VDMOS models)."""
+    from drivelint.physics import gate as gate_physics
+
+    model = facts.switch.model
+    assert model is not None and model.type == "vdmos" and facts.v_boot0 is not None
+    p = model.params
+    lo, hi, a = p.get("cgdmin", p.get("cgdmax", 0.0)), p.get("cgdmax", 0.0), p.get("a", 1.0)
+    drive = facts.v_boot0.value
+    hard = gate_physics.vdmos_gate_charge(p["cgs"], lo, hi, a, drive, facts.v_switched)
+    soft = gate_physics.vdmos_gate_charge(p["cgs"], lo, hi, a, drive, 0.0)
+    return (hard - soft) * facts.switch.multiplier
 
 
 @pytest.mark.parametrize("case", BOOT_CASES, ids=_ids)
@@ -230,18 +273,26 @@ def test_recovery_charge(runs: Runs, case: tuple[Path, str]) -> None:
     # Stages under a modulator are left out: their dead times come out of behavioural
     # logic drivelint does not time, and the refill current a dead time drives through a
     # fast boot diode (stored as TT·I_F) is then not counted. In the class-D and closed-loop
-    # examples ngspice shows 15-23 nC of it, 25-40 % of the cycle's charge.
+    # examples ngspice shows 15-23 nC of it, 25-40 % of the cycle's charge (in o03 a 0.7 V
+    # step 28 ns before the rise still drives 0.57 A through the diode as the node rises:
+    # R·C of the path, 30 ns, outlasts the dead time). Given the dead time, the rule's
+    # charging-law current (C·N·V_T/t_dead, 0.10-0.21 A there) would still be 3-5x low.
     run = runs.get(*case)
     q_cycle = run.facts.q_per_cycle
     assert run.measured.recovery_charge is not None and q_cycle is not None
     computed = run.computed.get("q_rr", 0.0)
     simulated = run.measured.recovery_charge
     slow = run.facts.dead_time is not None and run.facts._tt > run.facts.dead_time.value
+    if run.measured.soft_turn_on:
+        # the node rose in the dead time (see test_droop_per_on_time): the freewheeling step
+        # drivelint allows for did not happen, and its figure is an upper bound
+        assert computed >= simulated
+        computed = _soft_recovery(run.facts)
+    if slow:
+        # a slow diode's recovery dominates the budget: what the rules count is never under
+        assert run.computed.get("q_rr", 0.0) >= simulated
     rel = QRR_SLOW_REL if slow else REL
     assert abs(computed - simulated) <= max(rel * simulated, QRR_FLOOR * q_cycle.value)
-    if slow:
-        # a slow diode's recovery dominates the budget: never under-counted
-        assert computed >= simulated
 
 
 @pytest.mark.parametrize("case", PUMP_CASES, ids=_ids)
@@ -580,3 +631,50 @@ def test_dc_enable_missing_terms_account_for_the_difference(loadswitch: Case) ->
     )
     assert predicted == pytest.approx(hold.hold_time, rel=REL)
     assert math.isfinite(predicted) and predicted < hold.hold_time
+
+
+# ---------------------------------------------------------------- a held turn-off
+
+
+def test_turn_off_against_a_held_output(tmp_path: Path) -> None:
+    # The load switch's own enable turns it off at 30 ms: Q_OFF takes the gate to ground
+    # within microseconds while C_OUT (τ = 47 ms) holds the source, so V_GS goes to the
+    # finding's -48 V and stays beyond the rating for milliseconds, not for an edge.
+    if NGSPICE is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot cross-check")
+    from drivelint.pipeline import check_path
+
+    deck = OUTSIDE / "o18_loadswitch48v_high_gate_rail.cir"
+    (finding,) = [f for f in check_path(deck).findings if f.device == "q_off"]
+    computed = finding.values["vgs_pulled_down"].value
+    limit = finding.values["vgs_limit_negative"].value
+    waves = run_transient(deck.read_text(encoding="utf-8"), ("v(g,out)",), tmp_path)
+    after = [v for t, v in zip(waves.time, waves["v(g,out)"], strict=True) if t >= 30e-3]
+    assert min(after) == pytest.approx(computed, rel=REL)
+    assert waves.at("v(g,out)", 35e-3) < limit
+
+
+# ---------------------------------------------------------------- a long enable
+
+
+def test_hold_of_a_long_enable(tmp_path: Path) -> None:
+    # The heater's 150 ms enable from a 2.2 µF bootstrap: V(boot, source) before the enable
+    # against V_boot,0 (the diode carries the boot supply's resting draw, R_QB's), and the
+    # time it takes to fall to V_boot,min against dc-hold's hold time.
+    if NGSPICE is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot cross-check")
+    from drivelint.pipeline import check_path
+
+    deck = OUTSIDE / "o19_heater24v_long_enable.cir"
+    (finding,) = check_path(deck).findings
+    hold = finding.values["hold_time"].value
+    v_min = finding.values["v_boot_min"].value
+    waves = run_transient(deck.read_text(encoding="utf-8"), ("v(vb,sw)", "v(en)"), tmp_path)
+    t_enable = next(t for t, v in zip(waves.time, waves["v(en)"], strict=True) if v > 2.5)
+    before = waves.at("v(vb,sw)", t_enable - 10e-6)
+    assert finding.values["v_boot"].value == pytest.approx(before, rel=0.02)
+    t_min = next(
+        t for t, v in zip(waves.time, waves["v(vb,sw)"], strict=True) if t > t_enable and v < v_min
+    )
+    assert hold == pytest.approx(t_min - t_enable, rel=REL)
+    assert hold <= t_min - t_enable + 0.5e-3  # never much longer: the unsafe side

@@ -212,7 +212,7 @@ def test_node_capacitance_counts_only_when_it_outlasts_the_gate_fall() -> None:
     held = with_load(BAD, "COUT out 0 100n\nRLOAD out 0 48")
     (finding,) = lint(held)
     assert value(finding, "tau_source_node") == pytest.approx(4.8e-6)
-    assert value(finding, "hold_time_constant") == pytest.approx(1e-6)
+    assert value(finding, "pulldown_fall_time") == pytest.approx(1e-6)
     assert lint(held, hold_time_constant=10e-6) == []
     short = with_load(BAD, "COUT out 0 10n\nRLOAD out 0 48")
     assert lint(short) == []

@@ -38,6 +38,22 @@ EXPECTED: dict[str, set[tuple[str, str, str]]] = {
     # 10 V and 5 V gate rails on standard-level switches
     "o13_bootstrap_10v_rail.cir": {("gate-headroom", "d_bt", "warning")},
     "o14_bootstrap_5v_rail.cir": {("gate-headroom", "d_bt", "error")},
+    # ±45 V rails behind 50 nH leads into the board's capacitors, VCC stacked on the
+    # negative one: the 75 V boot diode blocks ≈ 89 V (ngspice: 90.0 V)
+    "o16_classd_rails_behind_leads.cir": {("bootstrap-diode-voltage", "d_bs", "error")},
+    # a general-purpose rectifier (TT 4 µs) fed from the driver's RC-filtered VCC, at
+    # 60 kHz (ngspice: -0.43 A back through it at every rising edge, 23 nC)
+    "o17_inverter400v_filtered_vcc.cir": {("bootstrap-diode-slow", "d_bt", "error")},
+    # a load switch pulled up from 60 V, pulled off by an NPN to ground against 100 µF:
+    # V_GS -48 V at every turn-off (ngspice: -48.2 V, still -38.8 V 10 ms later), an
+    # error; and the output-short case, a warning
+    "o18_loadswitch48v_high_gate_rail.cir": {
+        ("gate-overvoltage", "q_off", "error"),
+        ("gate-overvoltage", "m1", "warning"),
+    },
+    # a bootstrap enabled for 150 ms that holds about 10 ms (ngspice: 10.3 ms): one finding
+    # for the one cause, dc-hold's (never bootstrap-capacitor-small's as well)
+    "o19_heater24v_long_enable.cir": {("dc-hold", "ven", "error")},
 }
 CLEAN = [
     "o01_sync_buck_ammeters.cir",
@@ -47,6 +63,10 @@ CLEAN = [
     "o07_audio_follower_stage.cir",
     "o10_hbridge_leg_held_off.cir",
     "o12_behavioural_gate_drive.cir",
+    # two legs (subcircuits) on one DC-link shunt, each low side behind a 2 nH stray, the
+    # bridge's ceramic from the bus to the shunt's top: both legs refresh (ngspice: both
+    # boot supplies hold at 11.3-11.5 V)
+    "o15_hbridge_shared_shunt.cir",
 ]
 
 
@@ -86,3 +106,68 @@ def test_findings_name_real_devices() -> None:
         for finding in result.findings:
             assert finding.device and finding.device in finding.message
             assert " by :" not in finding.message
+
+
+def test_a_shared_shunt_behind_strays_refreshes_both_legs() -> None:
+    # The 2 nH strays, the shunt and its 0.5 nH are wires; the ceramic from the bus to the
+    # shunt's top decouples two held nets and makes no filter of the strays.
+    result = check_path(OUTSIDE / "o15_hbridge_shared_shunt.cir")
+    floating = {s.switch: s for s in result.stages if s.floating}
+    assert set(floating) == {"xla.m_h", "xlb.m_h"}
+    for leg in ("a", "b"):
+        stage = floating[f"xl{leg}.m_h"]
+        (refresh,) = stage.refresh
+        assert refresh.kind == "low-side switch" and refresh.devices == (f"xl{leg}.m_l",)
+        assert refresh.reference == "0"
+        assert any(f"xl{leg}.l_ls (2 nH inductance) taken as a wire" in n for n in stage.notes)
+
+
+def test_a_rail_behind_its_lead_is_still_that_rail() -> None:
+    # -45 V through 10 mΩ and 50 nH into 220 µF and 2.2 µF is -45 V at DC; the driver's
+    # VCC, a 12 V source on it, is -33 V; the boot diode is fed from there through 4.7 Ω
+    # and an ammeter. The positive rail's board net carries the high side's drain: it stays
+    # a net, and the bus is found behind its lead.
+    result = check_path(OUTSIDE / "o16_classd_rails_behind_leads.cir")
+    (stage,) = [s for s in result.stages if s.floating]
+    assert stage.bus is not None and (stage.bus.net, stage.bus.volts) == ("vps", 45.0)
+    supply = stage.supply
+    assert supply.diode == "d_bs" and supply.series_resistors == ("r_bs",)
+    assert supply.aux is not None and supply.aux.net == "vcc"
+    assert supply.aux.volts == pytest.approx(-33.0)
+    assert [r.reference for r in stage.refresh if r.kind == "low-side switch"] == ["vn"]
+    notes = " ".join(stage.notes)
+    assert "vn taken as the rail vns (-45 V) at DC" in notes and "v_vcc stacks it on vn" in notes
+    (finding,) = result.findings
+    assert finding.values["diode_reverse_voltage_steady"].value == pytest.approx(90.0, rel=0.05)
+
+
+def test_a_boot_diode_fed_through_a_filtered_supply_pin_has_its_rail() -> None:
+    # 15 V → 0.2 Ω → the driver's VCC pin (10 µF) → 10 Ω → ammeter → diode: the aux rail
+    # is the 15 V supply, both resistors are in the charge path.
+    result = check_path(OUTSIDE / "o17_inverter400v_filtered_vcc.cir")
+    (stage,) = [s for s in result.stages if s.floating]
+    supply = stage.supply
+    assert supply.diode == "d_bt" and supply.aux is not None
+    assert (supply.aux.net, supply.aux.volts) == ("a15", 15.0)
+    assert supply.series_resistors == ("r_bt", "r_vf")
+    assert supply.series_resistance == pytest.approx(10.2)
+    assert any("through the decoupled supply node vdd" in n for n in stage.notes)
+
+
+def test_a_turn_off_against_a_held_output_is_an_error_and_says_why() -> None:
+    # The enable commands the turn-off (a state of normal operation, not a fault) and the
+    # output capacitor holds the source far longer than the gate takes to fall.
+    result = check_path(OUTSIDE / "o18_loadswitch48v_high_gate_rail.cir")
+    (stage,) = [s for s in result.stages if s.floating]
+    assert stage.mode == "static"
+    (finding,) = [f for f in result.findings if f.device == "q_off"]
+    assert finding.values["tau_source_node"].value == pytest.approx(47e-3)
+    assert finding.values["tau_source_node"].value > finding.values["pulldown_fall_time"].value
+    assert "τ = 47 ms, longer than the ≈ 1 us the gate takes to fall" in finding.message
+    assert finding.values["vgs_pulled_down"].value == pytest.approx(-48.0)
+    # the same pull-down under a regulator's loop is a transient or fault: a warning
+    loop = check_path(OUTSIDE / "o08_linreg_high_gate_rail.cir")
+    (warning,) = [f for f in loop.findings if f.device == "q_ea"]
+    assert (
+        warning.severity.label == "warning" and "only in a transient or a fault" in warning.message
+    )

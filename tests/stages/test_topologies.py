@@ -15,7 +15,12 @@ from drivelint.netlist.waveforms import Pulse, Pwl
 from drivelint.pipeline import load_circuit, load_stages
 from drivelint.stages.model import DriveStage
 from drivelint.stages.recognise import recognise, supply_range
-from drivelint.stages.wires import FILTER_MIN_CAPACITANCE, collapse_wires, find_wires
+from drivelint.stages.wires import (
+    FILTER_MIN_CAPACITANCE,
+    STRAY_MAX_INDUCTANCE,
+    collapse_wires,
+    find_wires,
+)
 
 OUTSIDE = Path(__file__).resolve().parents[1] / "checks" / "outside"
 
@@ -73,6 +78,127 @@ RB out 0 10
     assert names == {"l2"}
     merged = collapse_wires(circuit)
     assert merged.net("d") == "vin"
+
+
+def test_a_package_stray_is_never_a_filter(tmp_path: Path) -> None:
+    # 2 nH into a 220 µF bulk capacitor is still a lead: no filter is built of a few nH.
+    # 50 nH into the same capacitor is a supply filter (the capacitor holds the far net,
+    # which nothing else holds), and is kept.
+    text = """strays and leads into bulk capacitors
+VA a 0 DC 12
+L1 a a2 2n
+C1 a2 0 220u
+VB b 0 DC 12
+L2 b b2 50n
+C2 b2 0 220u
+RL1 a2 0 100
+RL2 b2 0 100
+.end
+"""
+    path = tmp_path / "deck.cir"
+    path.write_text(text, encoding="utf-8")
+    assert STRAY_MAX_INDUCTANCE < 50e-9
+    assert {w.device for w in find_wires(load_circuit(path))} == {"l1"}
+
+
+def test_a_capacitor_between_two_held_nets_decouples_and_filters_nothing(tmp_path: Path) -> None:
+    # A DC-link ceramic from the bus to the top of a shunt: the shunt (and its nH) holds
+    # that net at ground, so the 30 nH loop inductance beside it is a stray. Without the
+    # shunt the same capacitor holds the net alone: then 30 nH and it are a filter.
+    text = """a loop inductance beside a DC-link ceramic
+VBUS bus 0 DC 36
+C1 bus isns 2.2u
+R1 isns sh 5m
+L1 sh 0 0.5n
+L2 ls isns 30n
+M1 sw g ls ls NMOD
+.model NMOD NMOS (VTO=2)
+.end
+"""
+    path = tmp_path / "deck.cir"
+    path.write_text(text, encoding="utf-8")
+    assert {w.device for w in find_wires(load_circuit(path))} == {"l1", "l2", "r1"}
+    unshunted = tmp_path / "unshunted.cir"
+    unshunted.write_text(text.replace("R1 isns sh 5m", "R1 isns sh 5"), encoding="utf-8")
+    assert {w.device for w in find_wires(load_circuit(unshunted))} == {"l1"}
+
+
+def test_a_supply_behind_its_lead_is_that_supply_at_dc(tmp_path: Path) -> None:
+    # -24 V through a 220 nH lead into 100 µF, then a 68 nH board filter into 1 µF: both
+    # nets are -24 V at DC, and a 15 V source stacked on the second is -9 V.
+    text = """a rail behind two leads, a source stacked on it
+VN vns 0 DC -24
+L1 vns n1 220n
+C1 n1 0 100u
+L2 n1 n2 68n
+C2 n2 0 1u
+V15 vcc n2 DC 15
+RL vcc n2 1k
+.end
+"""
+    path = tmp_path / "deck.cir"
+    path.write_text(text, encoding="utf-8")
+    merged = collapse_wires(load_circuit(path))
+    assert {h.net: (h.volts, h.kind) for h in merged.held} == {
+        "n1": (-24.0, "lead"),
+        "n2": (-24.0, "lead"),
+        "vcc": (-9.0, "stacked"),
+    }
+    assert merged.circuit.rails["vcc"] == pytest.approx(-9.0)
+    assert [h.net for h in merged.held_at(["vcc"])] == ["n1", "n2", "vcc"]
+
+
+def test_a_switch_node_is_never_taken_as_a_rail(tmp_path: Path) -> None:
+    # A boost inductor from the input rail to the switch's drain, even with a (wrongly
+    # large) capacitor on the node; a high side's source, held by its output capacitor,
+    # behind an inductor from a rail; and an undecoupled net behind a lead.
+    text = """switch nodes behind inductors
+VIN vin 0 DC 12
+L1 vin sw 470n
+C1 sw 0 220n
+M1 sw g 0 0 NMOD
+VB bus 0 DC 48
+M2 bus g2 out out NMOD
+L2 vin out 1u
+C2 out 0 10u
+L3 vin x 100n
+RX x 0 10
+.model NMOD NMOS (VTO=2)
+.end
+"""
+    path = tmp_path / "deck.cir"
+    path.write_text(text, encoding="utf-8")
+    assert collapse_wires(load_circuit(path)).held == ()
+
+
+BOOT_THROUGH_A_NODE = """boot diode fed through a node between two resistors
+VB bus 0 DC 48
+V12 v12 0 DC 12
+R1 v12 mid 1
+R2 mid a 10
+D1 a boot DFAST
+C1 boot sw 470n
+RG boot g 22
+M1 bus g sw sw NMOD
+M2 sw gl 0 0 NMOD
+VL gl 0 PULSE(0 10 0 10n 10n 5u 10u)
+LL sw 0 100u
+.model NMOD NMOS (VTO=2)
+.model DFAST D (IS=1n TT=20n BV=100)
+.end
+"""
+
+
+def test_a_boot_diode_is_fed_through_a_decoupled_supply_node_only(tmp_path: Path) -> None:
+    # Through the node between R1 and R2 only when a capacitor holds it (a supply pin
+    # behind its RC filter), never through any two resistors in a row.
+    (stage,) = [s for s in stages_of_text(BOOT_THROUGH_A_NODE, tmp_path) if s.floating]
+    assert stage.supply.aux is None
+    decoupled = BOOT_THROUGH_A_NODE.replace("R2 mid a 10", "R2 mid a 10\nCM mid 0 1u")
+    (stage,) = [s for s in stages_of_text(decoupled, tmp_path) if s.floating]
+    assert stage.supply.aux is not None and stage.supply.aux.net == "v12"
+    assert stage.supply.series_resistors == ("r2", "r1")
+    assert stage.supply.series_resistance == pytest.approx(11.0)
 
 
 def test_two_rails_at_different_voltages_are_never_merged(tmp_path: Path) -> None:

@@ -53,7 +53,7 @@ def _fixed_in_both(record: Record) -> None:
 
 def test_every_finding_of_the_own_decks_has_a_deck(built: Outcome) -> None:
     assert not built.failed and not built.diagnostics
-    assert len(built.records) == 5 and all(r.deck for r in built.records)
+    assert len(built.records) == 4 and all(r.deck for r in built.records)
 
 
 def test_every_own_deck_runs_cleanly(built: Outcome) -> None:
@@ -81,19 +81,25 @@ def test_included_library_inlined_and_own_analysis_dropped(built: Outcome) -> No
 def test_hold_time_and_its_capacitor_fix(built: Outcome) -> None:
     # The driver's output switch draws the gate charge from VB, so the hold capacitor's
     # balance is what the rule computes: C·ΔV − Q_g against R_GS and R_Q.
+    # (the capacitance with the sizing rule's margin of 2, so the fixed deck passes both)
     record = _record(built, "heater24.cir", "dc-hold")
-    assert record.fix and "2.2 uF" in record.fix
+    assert record.fix and "5.6 uF" in record.fix
     _confirmed(record, "hold_time", "i_drain")
     _fixed_in_both(record)
+    assert record.fixed is not None
+    again = check_path(record.fixed.path)
+    assert not [f for f in again.findings if f.rule == "bootstrap-capacitor-small"]
 
 
 def test_charge_per_cycle_and_the_suggested_capacitor(built: Outcome) -> None:
-    record = _record(built, "heater24.cir", "bootstrap-capacitor-small")
-    _confirmed(record, "v_boot", "droop_per_cycle", "charge_per_cycle")
-    _fixed_in_both(record)
-    assert record.fixed is not None
-    claims = {c.key for c in record.fixed.claims}
-    assert claims == {"suggested_droop_per_cycle"}
+    # The 10 ms on-time outlasts what 1 µF holds: one cause, one finding (dc-hold's); the
+    # sizing rule stays quiet on it.
+    assert not [
+        r
+        for r in built.records
+        if r.finding.span.path.endswith("heater24.cir")
+        and r.finding.rule == "bootstrap-capacitor-small"
+    ]
 
 
 def test_conditions_from_the_configuration_drive_the_stimulus(built: Outcome) -> None:
