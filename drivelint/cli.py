@@ -763,7 +763,12 @@ def testbench_command(
     from drivelint.checks.registry import RuleError, registry
     from drivelint.config import DEFAULT_SUFFIXES, ConfigError
     from drivelint.ratings.parts import PartsError
-    from drivelint.testbench.command import BenchOptions, make_testbenches, record_text
+    from drivelint.testbench.command import (
+        BenchOptions,
+        make_testbenches,
+        record_text,
+        records_json,
+    )
     from drivelint.testbench.ngspice import find_ngspice
 
     if rule_id is not None and rule_id not in registry():
@@ -801,10 +806,7 @@ def testbench_command(
     for diagnostic in outcome.diagnostics:
         click.echo(diagnostic.render(), err=True)
     if fmt == "json":
-        import json
-
-        payload = [record.to_json() for record in outcome.records]
-        click.echo(json.dumps(payload, indent=2, sort_keys=True))
+        click.echo(records_json(outcome), nl=False)
     else:
         lines = [line for record in outcome.records for line in record_text(record)]
         click.echo("\n".join(lines) if lines else "no findings: no testbench written")

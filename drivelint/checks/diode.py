@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.corners import STRESS, with_corner
 from drivelint.checks.facts import StageFacts
 from drivelint.physics import diode as diode_physics
 from drivelint.physics import stress
@@ -63,7 +64,7 @@ def check_diode_voltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
         "derating": Value(factor, "1", "option derating"),
         "derated_limit": computed(limit, "V", "computed: rating × derating"),
     }
-    yield ctx.finding(
+    found = ctx.finding(
         diode.name,
         f"{diode.name} blocks {format_si(v_reverse, 'V')} while {stage.switch} is on, "
         f"above {format_si(limit, 'V')} "
@@ -102,6 +103,8 @@ def check_diode_voltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
             f"limit = V_RRM × derating = {rating.text()} × {factor:g} = {format_si(limit, 'V')}",
         ),
     )
+    # V_R = V_bus − V_F: the gate supply's tolerance cancels, only the bus's moves it
+    yield with_corner(found, facts, STRESS, frozenset({"bus"}))
 
 
 CHECKS = {"bootstrap-diode-voltage": check_diode_voltage}

@@ -14,6 +14,7 @@ import re
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
+from drivelint.checks.corners import leakage
 from drivelint.circuit.model import GROUND, Device
 from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
@@ -426,7 +427,7 @@ def clamp_leakage(stage: DriveStage, facts: StageFacts) -> Value:
             facts.ratings.get(facts.device(name), "ir_leak")
             for name in (clamp.devices or (clamp.device,))
         ]
-        known = [v for v in leaks if v is not None]
+        known = [leakage(facts, v) for v in leaks if v is not None]  # at the hot corner
         if not known:
             continue
         largest = max(known, key=lambda v: v.value)

@@ -17,6 +17,15 @@ from collections.abc import Callable, Mapping, Sequence
 from functools import cached_property
 from typing import TYPE_CHECKING
 
+from drivelint.checks.corners import (
+    Corners,
+    charge_spread,
+    corners_of,
+    hold_capacitance,
+    leakage,
+    stress_capacitance,
+)
+from drivelint.checks.corners import supply as supply_corner
 from drivelint.circuit.model import GROUND, Circuit, Device
 from drivelint.diagnostics import Span
 from drivelint.netlist.values import format_si
@@ -131,6 +140,7 @@ class StageFacts:
         directives: DirectiveSet,
         conditions: dict[str, Value] | None = None,
         by_net: Mapping[str, Sequence[Device]] | None = None,
+        overrides: Mapping[str, Value] | None = None,
     ) -> None:
         self.by_net = by_net if by_net is not None else devices_by_net(circuit)
         self.stage = stage
@@ -138,6 +148,8 @@ class StageFacts:
         self.ratings = ratings
         self.directives = directives
         self.configured = conditions or {}
+        # Conditions that win over directives and configuration (the nominal twin).
+        self.overrides: Mapping[str, Value] = overrides or {}
 
     # -- devices --------------------------------------------------------------------------
 
@@ -166,18 +178,30 @@ class StageFacts:
     # -- operating conditions ---------------------------------------------------------------
 
     def condition(self, key: str) -> Value | None:
+        if key in self.overrides:
+            return self.overrides[key]
         given = self.directives.conditions.get(key)
         if given is not None:
             value, span = given
-            unit = {
-                "fsw": "Hz",
-                "duty_max": "1",
-                "on_time_max": "s",
-                "ambient": "K",
-                "load_current": "A",
-            }.get(key, "V")
+            from drivelint.ratings.directives import CONDITION_KEYS
+
+            unit = CONDITION_KEYS.get(key, "V")
             return Value(value, unit, f"directive ({span.path}:{span.line})")
         return self.configured.get(key)
+
+    @cached_property
+    def nominal(self) -> StageFacts:
+        """The same stage judged at its nominal values (every tolerance corner off): what a
+        design margin is applied to, beside the worst corner taken at face value."""
+        return StageFacts(
+            self.stage,
+            self.circuit,
+            self.ratings,
+            self.directives,
+            dict(self.configured),
+            self.by_net,
+            {**self.overrides, "corners": Value(0.0, "1", "the nominal values (corners off)")},
+        )
 
     @cached_property
     def waveform(self) -> Waveform | None:
@@ -219,7 +243,25 @@ class StageFacts:
             return given
         return Value(DEFAULT_TEMPERATURE, "K", "default: 27 °C, SPICE's nominal temperature (TNOM)")
 
+    @cached_property
+    def corners(self) -> Corners:
+        """The tolerance corners the stage's figures are judged at (checks/corners.py)."""
+        return corners_of(self)
+
     def _rail_value(self, rail: Rail | None, key: str, lowest: bool) -> Value | None:
+        found = self._rail_nominal(rail, key, lowest)
+        if found is None:
+            return None
+        # The corner: a gate rail within supply_tolerance of its level above the node it
+        # charges from, the bus within bus_tolerance; low for hold figures, high for stress.
+        bus = self.stage.bus.net if self.stage.bus else None
+        if key == "v_aux" and (rail is None or rail.net != bus):
+            reference = self.v_sw_low.value if self.stage.supply.kind == "bootstrap" else 0.0
+            return supply_corner(self, found, reference, "supply_tolerance", not lowest, "rail")
+        # the bus, or a pump fed from the bus itself: the bus's own tolerance
+        return supply_corner(self, found, 0.0, "bus_tolerance", not lowest, "bus")
+
+    def _rail_nominal(self, rail: Rail | None, key: str, lowest: bool) -> Value | None:
         given = self.condition(key)
         if given is not None:
             return given
@@ -244,6 +286,12 @@ class StageFacts:
     def v_aux(self) -> Value | None:
         """The auxiliary rail (or pump feed) at its lowest once up (headroom, hold)."""
         return self._rail_value(self._aux_rail, "v_aux", lowest=True)
+
+    @cached_property
+    def v_aux_nominal(self) -> Value | None:
+        """The auxiliary rail at its lowest as the netlist (or a condition) gives it,
+        before its tolerance corner."""
+        return self._rail_nominal(self._aux_rail, "v_aux", lowest=True)
 
     @cached_property
     def v_aux_max(self) -> Value | None:
@@ -355,8 +403,9 @@ class StageFacts:
 
     def _capped_by_duty(self, found: Value) -> Value:
         """A periodic command's on-time read from its waveform, capped at D_max/f_sw where
-        a duty_max is given: the duty the rules use then also bounds each on-time (as
-        on_time_max sets it outright). A DC command keeps its unbounded on-time."""
+        a duty_max is given: the configured duty bounds each on-time (as on_time_max sets
+        it outright) but never lengthens the pulse the waveform shows. A DC command keeps
+        its unbounded on-time."""
         duty, waveform = self.condition("duty_max"), self.waveform
         if duty is None or waveform is None or waveform.period() is None or self.fsw is None:
             return found
@@ -674,7 +723,8 @@ class StageFacts:
         bootstrap V_aux − V_F − V_sw,low just after a recharge (V_boot,0)."""
         supply = self.stage.supply
         if supply.kind == "isolated" and supply.aux and supply.aux.volts is not None:
-            return Value(supply.aux.lowest or 0.0, "V", f"isolated source {supply.source}")
+            level = Value(supply.aux.lowest or 0.0, "V", f"isolated source {supply.source}")
+            return supply_corner(self, level, 0.0, "supply_tolerance", False, "supply")
         if supply.kind == "charge-pump":
             pump = self._pump
             if pump is None:
@@ -702,7 +752,8 @@ class StageFacts:
         """The same supply at its highest (a surge on the auxiliary rail)."""
         supply = self.stage.supply
         if supply.kind == "isolated" and supply.aux and supply.aux.volts is not None:
-            return Value(supply.aux.volts, "V", f"isolated source {supply.source}")
+            level = Value(supply.aux.volts, "V", f"isolated source {supply.source}")
+            return supply_corner(self, level, 0.0, "supply_tolerance", True, "supply")
         if supply.kind == "charge-pump":
             pump = self._pump
             if pump is None:
@@ -800,11 +851,38 @@ class StageFacts:
         return max(candidates, key=lambda v: v.value)
 
     @cached_property
-    def c_hold(self) -> Value | None:
+    def c_hold_nominal(self) -> Value | None:
+        """The hold capacitor as the netlist gives it (a voltage-dependent C at 0 V)."""
         cap = self.capacitor
         if cap is None or cap.value is None:
             return None
         return Value(cap.value * cap.multiplier, "F", f"{cap.name} ({_where(cap)})")
+
+    @cached_property
+    def _c_hold_volts(self) -> float:
+        """The highest voltage the hold capacitor holds, where a ceramic has the least
+        capacitance: V_aux,max − V_sw,low for a bootstrap (a diode drop above its charge,
+        a little on the safe side), else the supply's highest level."""
+        if self.stage.supply.kind == "bootstrap":
+            top = self.v_aux_max.value if self.v_aux_max else 0.0
+            return top - self.v_sw_low.value
+        return self.v_boot_max.value if self.v_boot_max else 0.0
+
+    @cached_property
+    def c_hold(self) -> Value | None:
+        """The hold capacitor at its low corner (tolerance, temperature, DC bias)."""
+        nominal = self.c_hold_nominal
+        if nominal is None:
+            return None
+        return hold_capacitance(self, nominal, self._c_hold_volts)
+
+    @cached_property
+    def c_hold_high(self) -> Value | None:
+        """The hold capacitor at its high corner: what shares least with the gate."""
+        nominal = self.c_hold_nominal
+        if nominal is None:
+            return None
+        return stress_capacitance(self, nominal, self._c_hold_volts)
 
     # -- charge and current ---------------------------------------------------------------------
 
@@ -815,7 +893,22 @@ class StageFacts:
         return bus - self.v_sw_low.value
 
     def _qg_at(self, drive: float) -> Value | None:
-        """The switch's own gate charge at a drive level ``drive``."""
+        """The switch's own gate charge at a drive level ``drive``, at the top of its
+        part-to-part spread (the corner)."""
+        typical = self._qg_typical_at(drive)
+        factor = charge_spread(self)
+        if typical is None or factor == 1.0:
+            return typical
+        spread = self.corners.qg_spread
+        return Value(
+            typical.value * factor,
+            "C",
+            f"{typical.origin}; {typical.text()} at the top of its spread (+{spread.value:.0%}, "
+            f"qg_spread {spread.origin})",
+        )
+
+    def _qg_typical_at(self, drive: float) -> Value | None:
+        """The switch's own gate charge at a drive level ``drive`` (typical)."""
         multiplier = self.switch.multiplier
         rated = self.ratings.get(self.switch, "qg")
         if rated is not None:
@@ -882,6 +975,25 @@ class StageFacts:
 
     @cached_property
     def c_gate(self) -> Value:
+        """The gate's capacitance near the drive level, at the top of its spread (it
+        scales with the gate charge)."""
+        typical = self.c_gate_typical
+        factor = charge_spread(self)
+        if factor == 1.0 or typical.value == 0:
+            return typical
+        return computed(typical.value * factor, "F", f"{typical.origin}, × {factor:g} (qg_spread)")
+
+    @cached_property
+    def qg_typical(self) -> Value | None:
+        """Charge the gate takes at each turn-on at its typical value (switch plus
+        external): the stress side of a figure, where more charge would mean less V_GS."""
+        own = self._qg_typical_at(self.v_boot0.value if self.v_boot0 else 0.0)
+        if own is None:
+            return None
+        return Value(own.value + self.qg_external.value, "C", own.origin)
+
+    @cached_property
+    def c_gate_typical(self) -> Value:
         """Slope of the gate-charge curve near the drive level (what shares the hold
         capacitor's charge): (Q_g − Q_gd)/V_qg from the parts library, else the model's
         C_gs + C_gd at V_GD = V_drive."""
@@ -1020,8 +1132,11 @@ class StageFacts:
 
     @cached_property
     def i_leak(self) -> Value:
+        """The bootstrap diode's leakage at the junction's highest temperature."""
         found = self.ratings.get(self.diode, "ir_leak")
-        return found or Value(0.0, "A", "no bootstrap diode leakage known")
+        if found is None:
+            return Value(0.0, "A", "no bootstrap diode leakage known")
+        return leakage(self, found)
 
     @cached_property
     def on_drains(self) -> OnDrains:

@@ -15,6 +15,7 @@ from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.corners import STRESS, with_corner
 from drivelint.checks.facts import StageFacts
 from drivelint.circuit.model import GROUND, Device
 from drivelint.diagnostics import Severity
@@ -259,8 +260,11 @@ def _drives(stage: DriveStage, facts: StageFacts, undershoot: float) -> list[_Dr
                 # The gate takes its charge from the hold capacitor: the two settle together,
                 # Q_g/(C + C_g) below where the capacitor started.
                 # A recovering diode takes its stored charge back during the same edge.
+                # The stress corner: the gate charge at its typical value, the capacitor at
+                # its highest (they share least).
                 q_rr = facts.recovery_charge.value if facts.recovery_charge else 0.0
-                share = (facts.qg.value + q_rr) / (facts.c_hold.value + facts.c_gate.value)
+                qg, c_high = facts.qg_typical or facts.qg, facts.c_hold_high or facts.c_hold
+                share = (qg.value + q_rr) / (c_high.value + facts.c_gate_typical.value)
                 level = max(0.0, level - share)
                 note += f" after sharing its charge with the gate ({_v(share)})"
             steady = facts.vgs_on_max.value if facts.vgs_on_max else level
@@ -596,7 +600,13 @@ class _Extremes:
 
 
 def check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
-    """V_GS beyond the rating either way with no clamp holding it; clamps that misbehave."""
+    """V_GS beyond the rating either way with no clamp holding it; clamps that misbehave;
+    each at the corner where V_GS is highest (corners.STRESS)."""
+    for found in _check_gate_overvoltage(stage, ctx):
+        yield with_corner(found, ctx.facts, STRESS)
+
+
+def _check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     if stage.channel != "nmos":
         return  # a P-channel switch's on-state V_GS is negative; not this rule's model
     facts = ctx.facts

@@ -11,6 +11,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.corners import HOLD, nominal_for, with_corner
 from drivelint.checks.facts import StageFacts
 from drivelint.checks.hold import boot_voltage_line
 from drivelint.checks.printed import sum_line
@@ -207,9 +208,10 @@ def check_gate_headroom(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
         )
     if found.full_on is not None:
         derivation.append(f"fully on only above {found.full_on.text()} ({found.full_on.origin})")
-    yield ctx.finding(
+    finding = ctx.finding(
         device, message, values, fix=fix, derivation=tuple(derivation), severity=severity
     )
+    yield with_corner(finding, facts, HOLD)
 
 
 def _near_lockout(facts: StageFacts, vgs: float) -> str:
@@ -234,8 +236,11 @@ def _fix(stage: DriveStage, facts: StageFacts, found: Headroom) -> str:
     supply = stage.supply
     need = found.need.value
     if supply.kind == "bootstrap":
+        # the nominal rail whose low corner clears the need
         aux = facts.v_aux.value if facts.v_aux else 0.0
-        short = need - found.supply_level.value
+        target = nominal_for(facts, aux + need - found.supply_level.value)
+        aux = facts.v_aux_nominal.value if facts.v_aux_nominal else aux
+        short = target - aux
         return (
             f"raise the auxiliary rail by at least {_v(max(short, 0.0))} (to "
             f"{_v(aux + max(short, 0.0))} or more; a 12 V or 15 V gate rail is usual), or use a "

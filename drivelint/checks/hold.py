@@ -8,8 +8,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterator
+from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.corners import HOLD, corner_factor, holds_corner, with_corner
 from drivelint.checks.drains import OnDrains
 from drivelint.checks.facts import StageFacts
 from drivelint.checks.printed import at, resolution, sum_line
@@ -66,6 +68,54 @@ def _drain_list(drains: OnDrains, most: int = 3) -> str:
 # ---------------------------------------------------------------- bootstrap-capacitor-small
 
 
+@dataclass(frozen=True, slots=True)
+class _Sizing:
+    """The nominal hold capacitance a stage needs, and which requirement sets it.
+
+    Two requirements, the larger wins: the design margin (``margin``, AN-978's factor 2 for
+    what is not computed) applied to the charge at the nominal values, and the worst
+    tolerance corner met at face value (its charge, its allowed droop, the capacitor's low
+    corner). The margin is not stacked on the corner: the corner already spends what the
+    margin was kept for.
+    """
+
+    required: float  # F, the nominal part to fit
+    at_corner: float  # F, a nominal part whose low corner meets the worst corner's charge
+    with_margin: float | None  # F, margin × the nominal charge / the nominal droop
+    governs: str
+
+    def lines(self, margin: float) -> tuple[str, ...]:
+        shown = [f"  at the worst corner, 1×: {format_si(self.at_corner, 'F')} (nominal part)"]
+        if self.with_margin is not None:
+            shown.append(
+                f"  at the nominal values, margin {margin:g}×: {format_si(self.with_margin, 'F')}"
+            )
+        shown.append(f"  C_req = the larger = {format_si(self.required, 'F')} ({self.governs})")
+        return tuple(shown)
+
+
+def _sizing(facts: StageFacts, q_total: float, dv: float, margin: float) -> _Sizing:
+    corner = corner_factor(facts)
+    at_corner = boot_physics.required_capacitance(q_total, dv) / corner
+    if holds_corner(facts) is not None:
+        # The netlist is a corner already: met at face value, no margin stacked on it.
+        return _Sizing(at_corner, at_corner, None, "the corner the netlist holds, 1×")
+    nominal = facts.nominal
+    with_margin: float | None = None
+    q_nominal, dv_nominal = nominal.q_per_cycle, nominal.delta_v_allowed
+    if q_nominal is not None and dv_nominal is not None:
+        if dv_nominal.value > 0 and math.isfinite(q_nominal.value):
+            with_margin = margin * boot_physics.required_capacitance(
+                q_nominal.value, dv_nominal.value
+            )
+    if with_margin is None:
+        # No nominal budget to apply the margin to: the margin on these values.
+        with_margin = margin * boot_physics.required_capacitance(q_total, dv)
+    if with_margin >= at_corner:
+        return _Sizing(with_margin, at_corner, with_margin, f"margin {margin:g} at nominal")
+    return _Sizing(at_corner, at_corner, with_margin, "the worst corner")
+
+
 def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     facts = ctx.facts
     if stage.supply.kind != "bootstrap" or facts.capacitor is None or facts.never_on:
@@ -90,15 +140,19 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
     q_rr = facts.recovery_charge
     margin = ctx.options["margin"]
     c_min = boot_physics.required_capacitance(q_total, dv.value)
-    c_required = margin * c_min
-    if c_hold.value >= c_required:
+    sizing = _sizing(facts, q_total, dv.value, margin)
+    c_required = sizing.required
+    nominal_c = facts.c_hold_nominal or c_hold
+    if nominal_c.value >= c_required:
         return
     droop_value = facts.droop_per_cycle
     assert droop_value is not None
     droop = droop_value.value
+    # The part to fit is a nominal value whose low corner meets the requirement.
+    corner = corner_factor(facts)
     suggested = next_preferred(c_required, PREFERRED_SERIES)
     droop_suggested = gate_physics.shared_droop(
-        v_boot.value, suggested, qg.value, facts.c_gate.value, q_total - qg.value
+        v_boot.value, suggested * corner, qg.value, facts.c_gate.value, q_total - qg.value
     )
     cap = facts.capacitor.name
     drained = q_total - qg.value - facts.q_ls.value - (q_rr.value if q_rr else 0.0)
@@ -117,10 +171,17 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
         "delta_v_allowed": dv,
         "margin": Value(margin, "1", "option margin"),
         "minimum_capacitance": computed(c_min, "F", "computed: Q_total/ΔV_allowed"),
-        "required_capacitance": computed(c_required, "F", "computed: margin·Q_total/ΔV_allowed"),
+        "required_capacitance": computed(
+            c_required,
+            "F",
+            f"computed: nominal part, the larger of margin·Q_nom/ΔV_nom and "
+            f"Q_worst/(ΔV_worst·C_low/C_nom) ({sizing.governs} governs)",
+        ),
         "droop_per_cycle": droop_value,
         "suggested_capacitance": computed(
-            suggested, "F", f"computed: next {PREFERRED_SERIES} value ≥ required (IEC 60063)"
+            suggested,
+            "F",
+            f"computed: next {PREFERRED_SERIES} value ≥ required (IEC 60063)",
         ),
         "suggested_droop_per_cycle": computed(
             droop_suggested, "V", "computed: Q_total/(C_suggested + C_g)"
@@ -130,22 +191,29 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
         values["recovery_charge"] = q_rr
     fix = (
         f"use {format_si(suggested, 'F')} ({PREFERRED_SERIES}) or more for {cap}: "
-        f"≥ {format_si(c_required, 'F')} = {margin:g} × {format_si(q_total, 'C')} / "
-        f"{dv.text()}; it then droops {format_si(droop_suggested, 'V')} per cycle"
+        f"≥ {format_si(c_required, 'F')} ({sizing.governs}"
+        + (
+            f"; a nominal part whose low corner, {format_si(c_required * corner, 'F')}, "
+            "still meets it"
+            if corner < 1
+            else ""
+        )
+        + f"); it then droops {format_si(droop_suggested, 'V')} per cycle"
     )
     if q_rr is not None and q_rr.value > 0.5 * q_total and facts.diode is not None:
         # Most of the budget is the diode's recovery: a faster diode is the better fix.
         without = q_total - q_rr.value
-        c_fast = margin * boot_physics.required_capacitance(without, dv.value)
+        c_fast = _sizing(facts, without, dv.value, margin).required
         fix = (
             f"most of the {format_si(q_total, 'C')} is {facts.diode.name}'s recovery charge "
             f"({q_rr.text()}): with a fast-recovery or Schottky bootstrap diode the budget is "
             f"{format_si(without, 'C')} and {cap} needs only ≥ {format_si(c_fast, 'F')}; "
             f"keeping the diode, {fix}"
         )
-    yield ctx.finding(
+    nominal = nominal_c
+    found = ctx.finding(
         cap,
-        f"{cap} = {c_hold.text()} is too small for {stage.switch}: each on-time "
+        f"{cap} = {nominal.text()} is too small for {stage.switch}: each on-time "
         f"({on_time.text()}) takes {format_si(q_total, 'C')} (Q_g {qg.text()}"
         + (f", Q_ls {facts.q_ls.text()}" if facts.q_ls.value else "")
         + (f", Q_rr {q_rr.text()}" if q_rr else "")
@@ -156,14 +224,15 @@ def check_capacitor_small(stage: DriveStage, ctx: CheckContext) -> Iterator[Find
         fix=fix,
         derivation=_budget_lines(facts, drains, q_rr)
         + (
-            f"C_req = margin·Q_total/ΔV_allowed = {margin:g} × {_c4(q_total)} / "
-            f"{_v4(dv.value)} = {format_si(c_required, 'F')}",
+            f"Q_total/ΔV_allowed = {_c4(q_total)} / {_v4(dv.value)} = {format_si(c_min, 'F')}",
+            *sizing.lines(margin),
             f"ΔV per cycle = Q_total/(C + C_g) = {_c4(q_total)} / ({c_hold.text()} + "
             f"{facts.c_gate.text()}) = {format_si(droop, 'V')}",
             f"next {PREFERRED_SERIES} value ≥ {format_si(c_required, 'F')}: "
             f"{format_si(suggested, 'F')} (droop {format_si(droop_suggested, 'V')})",
         ),
     )
+    yield with_corner(found, facts, HOLD)
 
 
 def _c4(coulombs: float) -> str:
@@ -331,7 +400,7 @@ def _dc_hold_finding(
     if t_hold is not None and math.isfinite(t_hold) and c_hold is not None:
         held = format_si(t_hold, "s")
         hold_part = (
-            f"{cap_name} ({c_hold.text()}) keeps the boot supply above "
+            f"{cap_name} ({(facts.c_hold_nominal or c_hold).text()}) keeps the boot supply above "
             f"{facts.v_boot_min.text()} for only {held}: {i_drain.text()} drains it "
             f"({_drain_list(drains)})"
         )
@@ -355,25 +424,31 @@ def _dc_hold_finding(
             f"a bootstrap supply recharges only while {switch} is off, so it cannot hold it on "
             f"at DC: use {ALTERNATIVES} ({refresh}); {largest}"
         )
-        return ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation))
+        return with_corner(
+            ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation)),
+            facts,
+            HOLD,
+        )
     assert t_hold is not None and qg is not None and dv is not None
     q_cycle = facts.q_per_cycle
     assert q_cycle is not None
     margin = ctx.options["margin"]
     c_min = boot_physics.required_capacitance(q_cycle.value, dv.value)
-    needed = margin * c_min
+    sizing = _sizing(facts, q_cycle.value, dv.value, margin)
+    needed = sizing.required
     values["charge_per_cycle"] = q_cycle
     values["margin"] = Value(margin, "1", "option margin")
     values["minimum_capacitance"] = computed(c_min, "F", "computed: Q_total/ΔV_allowed")
     derivation += _budget_lines(facts, drains, facts.recovery_charge, supply=False)
     derivation.append(
-        f"C for t_on = margin·Q_total/ΔV_allowed = {margin:g} × {_c4(q_cycle.value)} / "
-        f"{_v4(dv.value)} = {format_si(needed, 'F')}"
+        f"C for t_on: Q_total/ΔV_allowed = {_c4(q_cycle.value)} / {_v4(dv.value)} = "
+        f"{format_si(c_min, 'F')}"
     )
+    derivation += sizing.lines(margin)
     if needed > PRACTICAL_MAX_CAPACITANCE:
         # Not a capacitor to fit: a bootstrap is the wrong supply for this on-time.
         values["capacitance_needed"] = computed(
-            needed, "F", "computed: margin·Q_total/ΔV_allowed (beyond a bootstrap capacitor)"
+            needed, "F", f"computed: nominal part, {sizing.governs} (beyond a bootstrap capacitor)"
         )
         values["practical_max_capacitance"] = Value(
             PRACTICAL_MAX_CAPACITANCE,
@@ -387,10 +462,16 @@ def _dc_hold_finding(
             f"capacitance, far beyond a bootstrap capacitor"
         )
         fix = f"use {ALTERNATIVES} ({refresh}); the largest on-time that works as built is {held}"
-        return ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation))
+        return with_corner(
+            ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation)),
+            facts,
+            HOLD,
+        )
     suggested = next_preferred(needed, PREFERRED_SERIES)
     values["capacitance_for_on_time"] = computed(
-        needed, "F", "computed: margin·Q_total/ΔV_allowed (as bootstrap-capacitor-small sizes it)"
+        needed,
+        "F",
+        f"computed: nominal part, {sizing.governs} (as bootstrap-capacitor-small sizes it)",
     )
     values["suggested_capacitance"] = computed(
         suggested, "F", f"computed: next {PREFERRED_SERIES} value ≥ required (IEC 60063)"
@@ -403,10 +484,12 @@ def _dc_hold_finding(
     )
     fix = (
         f"use {format_si(suggested, 'F')} ({PREFERRED_SERIES}) or more for {cap_name} "
-        f"(≥ {format_si(needed, 'F')} = {margin:g} × {format_si(q_cycle.value, 'C')} / "
-        f"{dv.text()}), or keep on-times within {held}, or use {ALTERNATIVES} ({refresh})"
+        f"(≥ {format_si(needed, 'F')}, {sizing.governs}), or keep on-times within {held}, "
+        f"or use {ALTERNATIVES} ({refresh})"
     )
-    return ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation))
+    return with_corner(
+        ctx.finding(device, message, values, fix=fix, derivation=tuple(derivation)), facts, HOLD
+    )
 
 
 CHECKS = {

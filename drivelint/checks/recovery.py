@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.corners import HOLD, with_corner
 from drivelint.checks.facts import StageFacts
 from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
@@ -150,7 +151,7 @@ def check_diode_slow(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
             message += f", {lost / q_cycle.value:.2g}× the {q_cycle.text()} the supply delivers"
         message += ")"
     severity = ctx.severity if over_window else Severity.WARNING
-    yield ctx.finding(
+    found = ctx.finding(
         diode.name,
         message,
         values,
@@ -159,6 +160,7 @@ def check_diode_slow(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
         derivation=tuple(derivation),
         severity=severity,
     )
+    yield with_corner(found, facts, HOLD)
 
 
 def _recovery_charge(

@@ -7,6 +7,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.corners import HOLD, with_corner
 from drivelint.checks.facts import StageFacts
 from drivelint.checks.printed import sum_line
 from drivelint.netlist.values import format_si
@@ -387,7 +388,9 @@ def _not_sustained(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
         f"{format_si(t_off_min, 's')} (the valley at V_boot,min); D_max = 1 − (t_off,min + "
         f"2·t_dead)·f_sw = {max_duty:.4g}",
     )
-    yield ctx.finding(device, message, values, fix=fix, derivation=derivation)
+    yield with_corner(
+        ctx.finding(device, message, values, fix=fix, derivation=derivation), facts, HOLD
+    )
 
 
 CHECKS = {"bootstrap-no-refresh": check_no_refresh}

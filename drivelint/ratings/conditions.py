@@ -22,6 +22,30 @@ CONDITION_KEYS: Mapping[str, str] = {
     "v_aux": "V",
     "ambient": "K",
     "load_current": "A",
+    # tolerance corners (drivelint/checks/corners.py)
+    "corners": "1",
+    "as_corner": "1",
+    "cap_tolerance": "1",
+    "cap_temperature_loss": "1",
+    "cap_dc_bias_loss": "1",
+    "supply_tolerance": "1",
+    "bus_tolerance": "1",
+    "qg_spread": "1",
+    "junction_max": "K",
+}
+
+# The tolerance corners' ranges (fractions, and a temperature in kelvin).
+CORNER_RANGES: Mapping[str, tuple[float, float, bool]] = {
+    # key: (low, high, low is allowed)
+    "corners": (0.0, 1.0, True),
+    "as_corner": (0.0, 1.0, True),
+    "cap_tolerance": (0.0, 0.9, True),
+    "cap_temperature_loss": (0.0, 0.9, True),
+    "cap_dc_bias_loss": (0.0, 0.95, True),
+    "supply_tolerance": (0.0, 0.5, True),
+    "bus_tolerance": (0.0, 0.5, True),
+    "qg_spread": (0.0, 2.0, True),
+    "junction_max": (173.0, 574.0, True),
 }
 
 # Ranges (SI units): a negative, zero, NaN or infinite frequency or bus voltage would make
@@ -36,6 +60,8 @@ CONDITION_RANGES: Mapping[str, tuple[float, float, bool]] = {
     # kelvin: -100 °C to 300 °C, wider than any rated part; the diode laws lose meaning beyond
     "ambient": (173.0, 574.0, True),
     "load_current": (0.0, 1e6, True),
+    # tolerance corners: fractions, and a temperature (drivelint/checks/corners.py)
+    **CORNER_RANGES,
 }
 ANY_VALUE = (0.0, math.inf, True)
 

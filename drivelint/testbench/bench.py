@@ -16,20 +16,25 @@ from dataclasses import dataclass, field
 
 from drivelint.checks.base import Finding
 from drivelint.checks.facts import StageFacts
+from drivelint.circuit.model import Circuit, Device
 from drivelint.diagnostics import Span
 from drivelint.netlist.statements import Element, Word
 from drivelint.netlist.values import format_si
 from drivelint.netlist.waveforms import Dc, Pulse, Pwl, Waveform
+from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
 from drivelint.testbench.design import Design, Edit
-from drivelint.testbench.measure import Card, Claim, Limit
+from drivelint.testbench.measure import Card, Claim, Limit, Trace
 from drivelint.testbench.stimulus import (
+    Drive,
     Schedule,
     dead_time,
     drive_of,
+    modulator_drive,
     partner_source,
     waveform_text,
 )
+from drivelint.testbench.supplies import Held, hold_floating, hold_rails, levels_of
 
 # The period a one-shot's dead time is scaled from when the design gives none: 10 us,
 # for 100 ns of dead time (stimulus.DEAD_FRACTION).
@@ -72,6 +77,14 @@ class Bench:
     notes: tuple[str, ...]  # what the stimulus is and why, for the header
     saves: tuple[str, ...] = ()
     uic: bool = False
+    # the tolerance corner the deck holds (testbench.corners): what the header says, the
+    # '* drivelint:' lines that make drivelint judge the deck as written, and the numbers
+    corner: tuple[str, ...] = ()
+    directives: tuple[str, ...] = ()
+    corner_side: str | None = None
+    corner_values: Mapping[str, float] = field(default_factory=dict)
+    # the series of the waveform file written with --run (the quantity a claim is about)
+    traces: tuple[Trace, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -82,6 +95,12 @@ class BenchContext:
     design: Design
     options: Mapping[str, float]
     fix: Fix | None = None
+
+    @property
+    def circuit(self) -> Circuit:
+        """The circuit the rules judged: the design's, wires merged (``stages.wires``).
+        Its nets are nets of the design, so they can be probed in the deck."""
+        return self.facts.circuit
 
     def value(self, key: str) -> float | None:
         found = self.finding.values.get(key)
@@ -111,8 +130,8 @@ def design_schedule(stage: DriveStage) -> Schedule | None:
     read exactly (a pulse train, a single pulse, straight-line PWL, a DC level)."""
     control = stage.control
     waveform = control.waveform if control else None
-    if control is None or waveform is None:
-        return None
+    if control is None or waveform is None or control.modulated:
+        return None  # a modulator's waveform is its carrier, not the command
     high, low = waveform.high(), waveform.low()
     threshold = (high + low) / 2
     on_high = not control.inverting
@@ -187,13 +206,15 @@ class Stimulus:
     notes: tuple[str, ...]
 
 
-def _source_line(design: Design, element: Element, waveform: str) -> str | None:
+def _source_line(
+    design: Design, element: Element, waveform: str, name: str | None = None
+) -> str | None:
     nodes = element.fields[:2]
     if len(nodes) < 2 or not all(isinstance(n, Word) for n in nodes):
         return None
     first, second = nodes
     assert isinstance(first, Word) and isinstance(second, Word)
-    return f"{design.raw_name(element)} {first.raw} {second.raw} {waveform}"
+    return f"{name or design.raw_name(element)} {first.raw} {second.raw} {waveform}"
 
 
 def describe(schedule: Schedule) -> str:
@@ -208,45 +229,92 @@ def describe(schedule: Schedule) -> str:
     return ", ".join(parts) if parts else "held off"
 
 
-def stimulus(ctx: BenchContext, schedule: Schedule, why: str) -> Stimulus | Declined:
-    """Edits that make the stage's control source (and its bridge partner's) follow
-    ``schedule``; the partner gets the complement with the design's dead time."""
-    stage, design = ctx.stage, ctx.design
-    circuit = design.circuit
+def _command(
+    ctx: BenchContext,
+) -> tuple[Device, Element, Drive | None, str, str] | Declined:
+    """The statement that commands the switch, the levels it commands with, the name the
+    rewritten source takes, and what it is.
+
+    An independent voltage source keeps its name. A modulator (a behavioural comparator or
+    error amplifier, whose duty is the loop's) is replaced at its own statement by an
+    independent source between the same nodes, carrying the waveform the rule assumed;
+    its levels come from its expression over the extremes of its inputs.
+    """
+    stage, design, circuit = ctx.stage, ctx.design, ctx.circuit
     control = stage.control
     source = circuit.devices.get(control.source) if control and control.source else None
     element = design.element_of(source.name) if source else None
-    if control is None or source is None or element is None or source.kind != "vsource":
+    if control is None or source is None or element is None:
+        return Declined("the stage's command cannot be traced to a source")
+    if source.kind == "vsource":
+        return source, element, None, design.raw_name(element), source.name
+    from drivelint.stages.behaviour import is_voltage_source
+
+    if not (control.modulated and is_voltage_source(circuit, source)):
         return Declined("the stage's control source is not an independent voltage source")
-    found = partner_source(circuit, stage, ctx.facts.by_net)
+    drive = modulator_drive(circuit, source, control.inverting)
+    if drive is None:
+        return Declined(
+            f"the output levels of the modulator {source.name} cannot be told from its expression"
+        )
+    taken = {n.rsplit(".", 1)[-1] for n in design.circuit.devices}
+    name = f"v_tb_{source.name.rsplit('.', 1)[-1]}"
+    while name in taken:
+        name += "_"
+    return source, element, drive, name.upper(), f"the modulator {source.name}"
+
+
+def stimulus(ctx: BenchContext, schedule: Schedule, why: str) -> Stimulus | Declined:
+    """Edits that make the stage's command (and its bridge partner's) follow ``schedule``;
+    the partner gets the complement with the design's dead time, unless it follows the
+    same command through the design's own dead-time logic."""
+    stage, design = ctx.stage, ctx.design
+    circuit = ctx.circuit
+    control = stage.control
+    command = _command(ctx)
+    if isinstance(command, Declined):
+        return command
+    source, element, given_drive, written_name, what = command
+    assert control is not None
+    low_side = next((r for r in stage.refresh if r.kind == "low-side switch"), None)
+    same_command = (
+        low_side is not None
+        and low_side.command is not None
+        and low_side.command.source == source.name
+    )
+    found = None if same_command else partner_source(circuit, stage, ctx.facts.by_net)
     partner_wave: Waveform | None = found[1].waveform if found else None
-    drive = drive_of(source.waveform, control.inverting, [partner_wave])
+    drive = given_drive or drive_of(source.waveform, control.inverting, [partner_wave])
     if drive is None:
         return Declined(f"the logic levels of {source.name} cannot be told from its waveform")
-    line = _source_line(design, element, waveform_text(schedule, drive))
+    line = _source_line(design, element, waveform_text(schedule, drive), written_name)
     if line is None:
         return Declined(f"{source.name}'s nodes are not plain node names")
-    notes = [f"{source.name}: {describe(schedule)} ({why})"]
+    notes = [f"{written_name.lower()}: {describe(schedule)} ({why})"]
+    if given_drive is not None:
+        notes.append(
+            f"{what} is replaced by the independent source {written_name.lower()} between "
+            f"the same nodes (levels {format_si(drive.off, 'V')} off, "
+            f"{format_si(drive.on, 'V')} on, from its expression): the loop sets the duty "
+            "in the design, the rule assumed this one"
+        )
     shared = design.produced_by(element)
     if len(shared) > 1:
         notes.append(f"{source.name} is one statement for {', '.join(shared)}: all follow it")
-    edits = {element.span: Edit(lines=(line,), note=f"{source.name} drives {why}")}
-    has_partner = any(r.kind == "low-side switch" for r in stage.refresh)
-    if found is not None:
+    edits = {element.span: Edit(lines=(line,), note=f"{what} drives {why}")}
+    if same_command:
+        assert low_side is not None
+        notes.append(
+            f"the bridge partner {low_side.devices[0]} follows the same command through the "
+            "design's own logic (its dead time included)"
+        )
+    elif found is not None:
         partner, partner_source_device, partner_inverting = found
         partner_element = design.element_of(partner_source_device.name)
         partner_drive = drive_of(partner_wave, partner_inverting, [source.waveform])
         if partner_element is None or partner_drive is None:
             return Declined(f"the command of the bridge partner {partner.name} cannot be rewritten")
-        # A one-shot has no period of its own: the design's pulse trains give the dead
-        # time if they can, else a short one (its length hardly matters for one edge).
-        own_period = source.waveform.period() if source.waveform else None
-        period = schedule.period or own_period or ONE_SHOT_PERIOD
-        dead = dead_time(source.waveform, partner_wave, period)
-        if schedule.period is not None:
-            # The partner must get some of the off-time: the dead time takes at most a
-            # quarter of it at each edge.
-            dead = min(dead, (schedule.period - schedule.on_time) / 4)
+        dead = _dead_time(source.waveform, partner_wave, schedule)
         partner_line = _source_line(
             design,
             partner_element,
@@ -263,12 +331,72 @@ def stimulus(ctx: BenchContext, schedule: Schedule, why: str) -> Stimulus | Decl
             f"{partner_source_device.name} commands the bridge partner {partner.name}: on "
             f"whenever {stage.switch} is off, {format_si(dead, 's')} dead time"
         )
-    elif has_partner:
+    elif low_side is not None:
         return Declined(
             "the command of the low-side partner cannot be traced, so the leg cannot be "
             "driven without risking cross-conduction"
         )
     return Stimulus(edits, tuple(notes))
+
+
+def _dead_time(main: Waveform | None, partner: Waveform | None, schedule: Schedule) -> float:
+    """The dead time a rewritten leg keeps between its two commands: the design's own
+    where its pulse trains show it, at most a quarter of the off-time at each edge (the
+    partner must get some of it). A one-shot has no period of its own: the design's pulse
+    trains give it if they can, else a short one (its length hardly matters for one edge)."""
+    own_period = main.period() if main else None
+    period = schedule.period or own_period or ONE_SHOT_PERIOD
+    dead = dead_time(main, partner, period)
+    if schedule.period is not None:
+        dead = min(dead, (schedule.period - schedule.on_time) / 4)
+    return dead
+
+
+def partner_dead_time(ctx: BenchContext, schedule: Schedule) -> float:
+    """The dead time :func:`stimulus` gives the bridge partner for ``schedule`` (0 when
+    the partner is not commanded separately)."""
+    low_side = next((r for r in ctx.stage.refresh if r.kind == "low-side switch"), None)
+    control = ctx.stage.control
+    if low_side is None or control is None:
+        return 0.0
+    if low_side.command is not None and low_side.command.source == control.source:
+        return 0.0
+    found = partner_source(ctx.circuit, ctx.stage, ctx.facts.by_net)
+    source = ctx.circuit.devices.get(control.source) if control.source else None
+    if found is None or source is None:
+        return 0.0
+    return _dead_time(source.waveform, found[1].waveform, schedule)
+
+
+def held_supplies(ctx: BenchContext, stress: bool) -> Held | Declined:
+    """Edits that hold the bus and the auxiliary rail at the levels the rule judged them
+    at: the bus at its highest (every rule takes it there), the auxiliary rail at its
+    highest for a stress figure and its lowest for a hold or headroom figure. A rail given
+    as a waveform (a surge, a dip) is held at that level for the whole run; a rail the
+    rule took from a condition or a tolerance corner is moved to it."""
+    stage, facts = ctx.stage, ctx.facts
+    pairs: dict[str, Value | None] = {}
+    if stage.bus is not None:
+        pairs[stage.bus.net] = facts.v_bus
+    aux = stage.supply.aux
+    if stage.supply.kind in ("bootstrap", "charge-pump") and aux is not None:
+        if aux.net not in (stage.source, stage.supply.boot_net):
+            pairs.setdefault(aux.net, facts.v_aux_max if stress else facts.v_aux)
+    why = (
+        "the level the rule's stress figures use" if stress else "the level the rule's figures use"
+    )
+    held = hold_rails(ctx.design, ctx.circuit, levels_of(pairs), why)
+    if isinstance(held, str):
+        return Declined(held)
+    if stage.supply.kind == "isolated" and stage.supply.source:
+        level = facts.v_boot_max if stress else facts.v_boot0
+        isolated = hold_floating(
+            ctx.design, ctx.circuit, stage.supply.source, stage.supply.boot_net, level, why
+        )
+        if isinstance(isolated, str):
+            return Declined(isolated)
+        held = Held({**held.edits, **isolated.edits}, (*held.notes, *isolated.notes))
+    return held
 
 
 def analysis_step(design: Design, stop: float, shortest: float) -> float:

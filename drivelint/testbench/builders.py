@@ -17,11 +17,15 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping
+from dataclasses import replace
 
 from drivelint.checks.base import Finding
+from drivelint.checks.corners import HOLD, STRESS
 from drivelint.circuit.model import Device
 from drivelint.diagnostics import Span
+from drivelint.netlist.statements import Word
 from drivelint.netlist.values import format_si
+from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
 from drivelint.testbench.bench import (
     MAX_STOP,
@@ -32,15 +36,18 @@ from drivelint.testbench.bench import (
     boot_vector_nets,
     charge_time,
     design_schedule,
+    held_supplies,
     matches,
     periodic_conditions,
     stimulus,
 )
-from drivelint.testbench.design import Edit
+from drivelint.testbench.corners import corner_deck
+from drivelint.testbench.design import Edit, merge_edits
 from drivelint.testbench.measure import (
     Card,
     Claim,
     Limit,
+    Trace,
     at,
     average,
     device_vector,
@@ -51,6 +58,7 @@ from drivelint.testbench.measure import (
     source_current,
     time_to_fall,
     voltage,
+    voltage_trace,
 )
 from drivelint.testbench.stimulus import Schedule, number
 
@@ -64,6 +72,9 @@ SETTLE_AFTER = 5e-6
 # off-time: four e-folds leave 2 % of the start-up difference.
 STEADY_TIME_CONSTANTS = 4
 MIN_CYCLES, MAX_CYCLES = 10, 2000
+# A DC-held stage is run this many claimed hold times: long enough to see the supply fall
+# through V_boot,min even where the simulation holds it a good deal longer than claimed.
+HOLD_RUN = 5
 DIODE_SLOW_CYCLES = 20
 
 
@@ -73,19 +84,34 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "bootstrap-capacitor-small": ("v_boot", "droop_per_cycle", "charge_per_cycle"),
     "bootstrap-capacitor-small/fixed": ("suggested_droop_per_cycle",),
     "bootstrap-diode-slow": ("recovery_charge", "q_per_cycle"),
-    "bootstrap-diode-voltage": ("diode_reverse_voltage",),
+    "bootstrap-diode-voltage": ("diode_reverse_voltage_steady",),
     "bootstrap-no-refresh": ("sustained_boot_voltage", "sustained_boot_peak", "delta_v_per_cycle"),
     "bootstrap-no-refresh/no path": (),
     "dc-hold": ("hold_time", "i_drain"),
     "gate-overvoltage/negative": ("vgs_max_negative", "vgs_pulled_down"),
     "gate-overvoltage/positive": ("vgs_max_positive",),
+    "gate-overvoltage/output short": ("vgs_output_short",),
     "gate-overvoltage/clamp below drive": (
         "vgs_max_positive",
         "clamp_positive_level",
         "clamp_current_bound",
     ),
     "gate-overvoltage/clamp reversed": ("vgs_max_positive", "clamp_positive_level"),
+    "gate-headroom": ("vgs_supply_on", "vgs_on_worst"),
 }
+# Kinds whose figures take the supplies at their highest (stresses); the others take the
+# auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
+# every rule.
+STRESS_KINDS = frozenset(
+    {
+        "bootstrap-diode-voltage",
+        "gate-overvoltage/negative",
+        "gate-overvoltage/positive",
+        "gate-overvoltage/output short",
+        "gate-overvoltage/clamp below drive",
+        "gate-overvoltage/clamp reversed",
+    }
+)
 # Claims that are bounds rather than estimates (the finding says "up to").
 SENSES: Mapping[str, str] = {"clamp_current_bound": "upper bound"}
 
@@ -146,6 +172,29 @@ def _vgs(ctx: BenchContext) -> str:
     return difference(ctx.stage.gate, ctx.stage.source)
 
 
+def capacitor_current(ctx: BenchContext, cap: Device) -> tuple[str, dict[Span, Edit]] | Declined:
+    """The vector of the current into the capacitor's first node, and the edits it needs:
+    ngspice's ``@c[i]`` for a plain capacitor; a behavioural one (C(V)) is expanded by
+    ngspice into other elements, so a 0 V source in series with its first node (an
+    ammeter, changing nothing electrically) carries the current instead."""
+    if cap.behaviour is None:
+        return device_vector(cap.name, "i"), {}
+    element = ctx.design.element_of(cap.name)
+    first = element.fields[0] if element is not None and element.fields else None
+    if element is None or not isinstance(first, Word):
+        return Declined(f"{cap.name}'s first node is not a plain node name")
+    local = cap.name.rsplit(".", 1)[-1]
+    source, node = f"{SENSE_PREFIX}{local}", f"tb_{local}_p"
+    flat = f"{cap.instance}.{source}" if cap.instance else source
+    return source_current(flat), {
+        element.span: Edit(
+            fields=((first, node),),
+            after=(f"{source.upper()} {first.raw} {node} 0",),
+            note=f"a 0 V ammeter in series with {cap.name} (probe only: a C(V) has no @c[i])",
+        )
+    }
+
+
 # ---------------------------------------------------------------- bootstrap-capacitor-small
 
 
@@ -183,7 +232,11 @@ def capacitor_small(ctx: BenchContext) -> Bench | Declined:
     if isinstance(chosen, Declined):
         return chosen
     start, end = chosen
-    current = device_vector(cap.name, "i")
+    probed = capacitor_current(ctx, cap)
+    if isinstance(probed, Declined):
+        return probed
+    current, probe = probed
+    edits = merge_edits(edits, probe)
     cards = [
         at("v_boot", boot, start, "V(boot) - V(sw) at the turn-on command: the recharged supply"),
         at("tb_boot_end", boot, end, "V(boot) - V(sw) at the turn-off command"),
@@ -193,6 +246,7 @@ def capacitor_small(ctx: BenchContext) -> Bench | Declined:
         integral("tb_cap_charge", current, start, end, f"charge into {cap.name} over the on-time"),
         expression("charge_per_cycle", "-tb_cap_charge", f"charge {cap.name} gives in one on-time"),
         extreme("tb_boot_min", "MIN", boot, start, end, "lowest boot supply in the on-time"),
+        expression("tb_droop", "v_boot-tb_boot_end", "the droop over the on-time"),
     ]
     if ctx.fix is not None:
         cards.append(
@@ -211,19 +265,46 @@ def capacitor_small(ctx: BenchContext) -> Bench | Declined:
         step=analysis_step(ctx.design, stop, min(on_time, off) if off > 0 else on_time),
         cards=tuple(cards),
         claims=tuple(claims),
-        limits=(
-            Limit(
-                "tb_boot_min",
-                v_boot_min,
-                ">=",
-                "the boot supply stays at or above V_boot,min through the on-time",
-                "V",
-            ),
-        ),
+        limits=_capacitor_limits(ctx, v_boot_min),
         notes=notes,
-        saves=(current,),
+        saves=(current,) if not probe else (),
         uic=ctx.design.uses_uic(),
     )
+
+
+def _capacitor_limits(ctx: BenchContext, v_boot_min: float) -> tuple[Limit, ...]:
+    """The boot supply stays above V_boot,min, and its droop within the share of the
+    allowed droop the rule's requirement leaves at the deck's corner: a capacitor of the
+    required nominal value, at the corner, droops ΔV_allowed·C_min/(C_req·C_low/C_nom)
+    (C_min = Q_total/ΔV_allowed; the requirement is the larger of the margin at the
+    nominal values and the corner met at face value)."""
+    limits = [
+        Limit(
+            "tb_boot_min",
+            v_boot_min,
+            ">=",
+            "the boot supply stays at or above V_boot,min through the on-time",
+            "V",
+        )
+    ]
+    allowed = ctx.value("delta_v_allowed")
+    c_min, required = ctx.value("minimum_capacitance"), ctx.value("required_capacitance")
+    at_corner = ctx.value("capacitance")
+    nominal = ctx.value("c_hold_nominal") or at_corner
+    if allowed is not None and c_min and required and at_corner and nominal:
+        share = c_min / (required * at_corner / nominal)
+        limits.append(
+            Limit(
+                "tb_droop",
+                allowed * share,
+                "<=",
+                f"the droop per on-time stays within {share:.3g} of the allowed "
+                f"{format_si(allowed, 'V')} (what the required capacitance leaves at this "
+                "corner)",
+                "V",
+            )
+        )
+    return tuple(limits)
 
 
 # ---------------------------------------------------------------- dc-hold
@@ -247,7 +328,7 @@ def dc_hold(ctx: BenchContext) -> Bench | Declined:
     unbounded = not math.isfinite(on_time)
     if unbounded:
         schedule = Schedule.steps((start, True))
-        end = start + min(2.5 * hold, MAX_STOP)
+        end = start + min(HOLD_RUN * hold, MAX_STOP)
         stop = end
         why = "a DC command once the boot supply has charged (the unbounded on-time)"
     else:
@@ -258,8 +339,10 @@ def dc_hold(ctx: BenchContext) -> Bench | Declined:
     made = stimulus(ctx, schedule, why)
     if isinstance(made, Declined):
         return made
-    current = device_vector(cap.name, "i")
-    settled = start + hold / 2
+    probed = capacitor_current(ctx, cap)
+    if isinstance(probed, Declined):
+        return probed
+    current, probe = probed
     cards = [
         at("tb_boot_start", boot, start, "V(boot) - V(sw) at the turn-on command"),
         time_to_fall(
@@ -269,19 +352,14 @@ def dc_hold(ctx: BenchContext) -> Bench | Declined:
             v_boot_min,
             "time from the turn-on command until the boot supply falls through V_boot,min",
         ),
-        average(
-            "tb_cap_current",
-            current,
-            settled,
-            min(start + hold, end),
-            f"mean current into {cap.name} in the second half of the claimed hold time",
+        *_drain_cards(
+            ctx, cap.name, current, boot, start, end if unbounded else min(start + hold, end)
         ),
-        expression("i_drain", "-tb_cap_current", f"mean current drawn from {cap.name} while on"),
         extreme("tb_boot_min", "MIN", boot, start, end, "lowest boot supply while commanded on"),
     ]
     claims = _claims(ctx)
     return Bench(
-        edits=made.edits,
+        edits=merge_edits(made.edits, probe),
         stop=stop,
         step=analysis_step(ctx.design, stop, hold),
         cards=tuple(cards),
@@ -296,9 +374,42 @@ def dc_hold(ctx: BenchContext) -> Bench | Declined:
             ),
         ),
         notes=made.notes,
-        saves=(current,),
+        saves=(current,) if not probe else (),
         uic=ctx.design.uses_uic(),
     )
+
+
+def _drain_cards(
+    ctx: BenchContext, cap: str, current: str, boot: str, start: float, end: float
+) -> list[Card]:
+    """The drain current with the switch on. Held on at DC, the run's last instant (the
+    gate long charged): the capacitor's current there, restated at V_boot,0 with the
+    finding's own slope g (1/r_drain_equivalent: the drains follow the boot voltage) from
+    the boot voltage measured at the same instant. For a finite on-time, the mean current
+    in the second half of the claimed hold time."""
+    v0, r_eq = ctx.value("v_boot"), ctx.value("r_drain_equivalent")
+    if v0 is not None and not math.isfinite(ctx.value("on_time") or math.inf):
+        slope = 1 / r_eq if r_eq and math.isfinite(r_eq) else 0.0
+        return [
+            at("tb_cap_current", current, end, f"current into {cap} at the end of the run"),
+            at("tb_boot_end", boot, end, "V(boot) - V(sw) at the same instant"),
+            expression(
+                "i_drain",
+                f"-tb_cap_current+{number(slope)}*({number(v0)}-tb_boot_end)",
+                f"current drawn from {cap} while on, restated at V_boot,0 = "
+                f"{format_si(v0, 'V')} with the finding's slope ({format_si(slope, 'A')}/V)",
+            ),
+        ]
+    return [
+        average(
+            "tb_cap_current",
+            current,
+            (start + end) / 2,
+            end,
+            f"mean current into {cap} in the second half of the claimed hold time",
+        ),
+        expression("i_drain", "-tb_cap_current", f"mean current drawn from {cap} while on"),
+    ]
 
 
 # ---------------------------------------------------------------- gate-overvoltage
@@ -324,6 +435,8 @@ def _gate_kind(finding: Finding, stage: DriveStage) -> str:
     clamp = next((c for c in stage.clamps if finding.device in (c.devices or (c.device,))), None)
     if "vgs_pulled_down" in values:
         return "negative"
+    if clamp is None and finding.device == stage.switch and _beyond_only_when_shorted(values):
+        return "output short"
     if clamp is None:
         return "positive"
     if "clamp_positive_low" in values:
@@ -335,6 +448,17 @@ def _gate_kind(finding: Finding, stage: DriveStage) -> str:
     if level is not None and drive is not None and level < drive:
         return "clamp below drive"
     return "clamp beyond rating"
+
+
+def _beyond_only_when_shorted(values: Mapping[str, Value]) -> bool:
+    """The positive V_GS is within the limit in normal operation and beyond it only with
+    the source held low (an output short): the finding is the short's."""
+    limit = values.get("vgs_limit_positive")
+    short = values.get("vgs_output_short")
+    normal = values.get("vgs_max_positive")
+    if limit is None or short is None or short.value <= limit.value:
+        return False
+    return normal is None or normal.value <= limit.value
 
 
 NOT_SHOWN = {
@@ -353,6 +477,8 @@ def gate_overvoltage(ctx: BenchContext) -> Bench | Declined:
         return _clamp_in_drive(ctx)
     if kind == "positive":
         return _positive_vgs(ctx)
+    if kind == "output short":
+        return _output_short(ctx)
     return Declined(NOT_SHOWN[kind])
 
 
@@ -361,8 +487,12 @@ def _bench_on_time(ctx: BenchContext) -> float:
     boot supply (the gate is still fully up), else the design's longest on-time."""
     from drivelint.physics import bootstrap as boot_physics
 
+    # The deck holds the stress corner (the capacitor at its highest, the gate charge
+    # typical, the supply high): the hold time of that supply.
     facts = ctx.facts
-    c, dv, qg, i = facts.c_hold, facts.delta_v_allowed, facts.qg, facts.i_drain
+    c, qg, i = facts.c_hold_high, facts.qg_typical, facts.i_drain
+    top = facts.v_boot_max
+    dv = Value(top.value - facts.v_boot_min.value, "V", "computed") if top is not None else None
     candidates: list[float] = []
     if c is not None and dv is not None and i.value > 0:
         hold = boot_physics.hold_time(c.value, dv.value, qg.value if qg else 0.0, i.value)
@@ -418,7 +548,7 @@ def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
 
 def _clamp_current(ctx: BenchContext, start: float, end: float) -> tuple[list[Card], str]:
     """Cards for the clamp's current from gate to source, and the save they need."""
-    device = ctx.design.circuit.devices.get(ctx.finding.device)
+    device = ctx.circuit.devices.get(ctx.finding.device)
     assert device is not None
     vector = device_vector(device.name, "id")
     # Current from gate to source runs forward through a diode whose anode is on the gate.
@@ -520,12 +650,134 @@ def _positive_vgs(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+# Gate charging through a pull-up is followed for this many time constants R·C_g before
+# the V_GS it reaches is read (e^-10: within 0.005 % of the end value).
+SHORT_TIME_CONSTANTS = 10
+SHORT_NAME = "s_tb_short"
+# The output short: a switch from the source to ground, closed once the stage runs. Its
+# on-resistance is far below the switch's own, so the source sits at 0 V as the rule takes
+# it; an independent 0 V source or a milliohm resistor would read as a wire to drivelint
+# (stages.wires) and make the switch's source ground, not a shorted output.
+SHORT_MODEL = "VT=0.5 VH=0.1 RON=1u ROFF=1e6"
+# The short closes over this long: slow enough that the edge does not kick the gate through
+# its capacitances (the finding is about the sustained fault), fast against the gate's R·C.
+SHORT_EDGE = 1e-6
+
+
+def short_edits(ctx: BenchContext, at_time: float) -> dict[Span, Edit] | Declined:
+    """A switch from the switch's source to ground that closes at ``at_time``, added after
+    the switch's statement (in its scope): the output short the finding describes."""
+    stage = ctx.stage
+    switch = ctx.circuit.devices.get(stage.switch)
+    element = ctx.design.element_of(stage.switch)
+    if switch is None or element is None:
+        return Declined(f"{stage.switch}'s statement cannot be found")
+    source = ctx.design.local_net(stage.source, switch.instance)
+    if source is None:
+        return Declined("the source cannot be named where the switch is written")
+    taken = {n.rsplit(".", 1)[-1] for n in ctx.design.circuit.devices}
+    name = SHORT_NAME
+    while name in taken or f"v{name[1:]}" in taken:
+        name += "_"
+    command, model, net = f"v{name[1:]}", f"{name}_model", f"{name}_cmd"
+    edge = SHORT_EDGE
+    return {
+        element.span: Edit(
+            after=(
+                f"{name.upper()} {source} 0 {net} 0 {model}",
+                f"{command.upper()} {net} 0 PWL(0 0 {number(at_time)} 0 "
+                f"{number(at_time + edge)} 1)",
+                f".model {model} SW ({SHORT_MODEL})",
+            ),
+            note=f"the output short: {name} closes from the source {stage.source} to ground "
+            f"at {format_si(at_time, 's')}",
+        )
+    }
+
+
+def _pullup_time_constant(ctx: BenchContext) -> float:
+    """R·C of the gate charging through its rail-fed pull-up: the series resistance of the
+    slowest rail-fed pull-up path and the gate's capacitance at its drive level (C_gs plus
+    C_gd, as the facts take it)."""
+    facts, circuit = ctx.facts, ctx.circuit
+    ohms = 0.0
+    for path in ctx.stage.pullups:
+        if path.returns_to == "boot":
+            continue
+        series = 0.0
+        for name in path.devices:
+            device = circuit.devices.get(name)
+            if device is not None and device.kind == "resistor" and device.value is not None:
+                series += device.value / device.multiplier
+        ohms = max(ohms, series)
+    return ohms * facts.c_gate.value
+
+
+def _output_short(ctx: BenchContext) -> Bench | Declined:
+    """The switch commanded on, then its source shorted to ground: the gate still pulled up
+    from its rail heads for the rail unless a clamp holds it."""
+    limit = ctx.value("vgs_limit_positive")
+    if limit is None:
+        return Declined("the finding gives no positive V_GS limit")
+    start = charge_time(ctx)
+    shorted = short_edits(ctx, start)
+    if isinstance(shorted, Declined):
+        return shorted
+    settle = min(max(SHORT_TIME_CONSTANTS * _pullup_time_constant(ctx), ONE_SHOT_ON), MAX_STOP / 2)
+    stop = start + settle
+    edits: dict[Span, Edit] = {}
+    notes: tuple[str, ...]
+    if ctx.stage.mode == "linear":
+        # A follower's loop is the stage's own command: shorted, it lets go and the pull-up
+        # takes the gate, which is the fault the finding describes.
+        source = ctx.stage.control.source if ctx.stage.control else None
+        notes = (
+            f"the design's own control{f' ({source})' if source else ''}: with the output "
+            "shorted its loop lets the gate go to the pull-up",
+        )
+    else:
+        made = stimulus(ctx, Schedule.steps((0.0, True)), "commanded on throughout")
+        if isinstance(made, Declined):
+            return made
+        edits, notes = dict(made.edits), made.notes
+    cards = [
+        extreme(
+            "vgs_output_short",
+            "MAX",
+            _vgs(ctx),
+            start + settle / 2,
+            stop,
+            "highest V_GS in the second half of the short (the gate has charged; the "
+            "short's own edge is over)",
+        ),
+        extreme("tb_vgs_peak", "MAX", _vgs(ctx), start, stop, "highest V_GS, the edge included"),
+        at("tb_vgs_before_short", _vgs(ctx), start, "V_GS in normal operation, before the short"),
+        at("tb_source_shorted", voltage(ctx.stage.source), stop, "the source, held by the short"),
+    ]
+    return Bench(
+        edits=merge_edits(edits, shorted),
+        stop=stop,
+        step=analysis_step(ctx.design, stop, settle),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(Limit("vgs_output_short", limit, "<=", "V_GS stays within its rating", "V"),),
+        notes=(
+            *notes,
+            f"the source {ctx.stage.source} is shorted to ground at {format_si(start, 's')} (the "
+            "fault the finding describes)",
+            f"{format_si(settle, 's')} are simulated after the short: {SHORT_TIME_CONSTANTS} "
+            "time constants of the gate charging through its pull-up",
+        ),
+        uic=ctx.design.uses_uic(),
+    )
+
+
 # ---------------------------------------------------------------- bootstrap-diode-voltage
 
 
 def diode_voltage(ctx: BenchContext) -> Bench | Declined:
     diode = ctx.facts.diode
-    limit = ctx.value("derated_limit")
+    limit, ringing = ctx.value("derated_limit"), ctx.value("ringing_margin")
     if diode is None or limit is None:
         return Declined("the finding gives no bootstrap diode or derated limit")
     anode, cathode = diode.net("a"), diode.net("k")
@@ -541,15 +793,32 @@ def diode_voltage(ctx: BenchContext) -> Bench | Declined:
     )
     if isinstance(made, Declined):
         return made
+    reverse = difference(cathode, anode)
+    allowance = ringing or 0.0
     cards = [
         extreme(
-            "diode_reverse_voltage",
+            "diode_reverse_voltage_steady",
             "MAX",
-            difference(cathode, anode),
+            reverse,
+            (start + end) / 2,
+            end,
+            f"reverse voltage across {diode.name} in the second half of the on-time (the "
+            "turn-on edge has settled)",
+        ),
+        extreme(
+            "tb_reverse_peak",
+            "MAX",
+            reverse,
             start,
             end,
-            f"highest reverse voltage across {diode.name} while the switch is on",
-        )
+            f"highest reverse voltage across {diode.name}, the turn-on edge included",
+        ),
+        expression(
+            "tb_reverse_with_ringing",
+            f"diode_reverse_voltage_steady+{number(allowance)}",
+            "the settled reverse voltage plus the rule's ringing allowance "
+            f"({format_si(allowance, 'V')})",
+        ),
     ]
     return Bench(
         edits=made.edits,
@@ -559,10 +828,11 @@ def diode_voltage(ctx: BenchContext) -> Bench | Declined:
         claims=tuple(_claims(ctx)),
         limits=(
             Limit(
-                "diode_reverse_voltage",
+                "tb_reverse_with_ringing",
                 limit,
                 "<=",
-                f"{diode.name}'s reverse voltage stays within its derated rating",
+                f"{diode.name}'s reverse voltage, with the rule's ringing allowance, stays "
+                "within its derated rating",
                 "V",
             ),
         ),
@@ -747,7 +1017,10 @@ def diode_slow(ctx: BenchContext) -> Bench | Declined:
     start = windows[cycles - 1][0]
     end = start + period
     current = source_current(sense_names(ctx, diode)[2])
-    cap_current = device_vector(cap.name, "i")
+    probed = capacitor_current(ctx, cap)
+    if isinstance(probed, Declined):
+        return probed
+    cap_current, cap_probe = probed
     cards = [
         integral(
             "recovery_charge",
@@ -791,7 +1064,7 @@ def diode_slow(ctx: BenchContext) -> Bench | Declined:
     )
     stop = end + min(SETTLE_AFTER, period / 10)
     return Bench(
-        edits={**edits, **probe},
+        edits=merge_edits(edits, probe, cap_probe),
         stop=stop,
         # fine enough to resolve the recovery time the rule allows
         step=analysis_step(
@@ -801,8 +1074,156 @@ def diode_slow(ctx: BenchContext) -> Bench | Declined:
         claims=tuple(_claims(ctx)),
         limits=limits,
         notes=(*notes, f"cycle {cycles} is measured, from its turn-on command"),
-        saves=(cap_current,),
+        saves=(cap_current,) if not cap_probe else (),
         uic=ctx.design.uses_uic(),
+    )
+
+
+# ---------------------------------------------------------------- gate-headroom
+
+
+HEADROOM_CYCLES = 20  # switching cycles run before the one measured
+
+
+def gate_headroom(ctx: BenchContext) -> Bench | Declined:
+    """The gate drive while on: the boot supply as the recharge ends (before a dead time's
+    freewheeling boost, which the rule does not count on), and that level less the droop
+    of the on-time that follows."""
+    stage, facts = ctx.stage, ctx.facts
+    kind = stage.supply.kind
+    need = ctx.value("vgs_needed")
+    if need is None:
+        return Declined("the finding gives no V_GS it needs")
+    if kind not in ("bootstrap", "isolated"):
+        return Declined(
+            "without a floating supply (or with a charge pump) the rule's figure is the supply "
+            "against the bus, a level the source never reaches: in a simulation the source "
+            "follows the gate a threshold below it instead"
+        )
+    boot = _boot(ctx)
+    if isinstance(boot, Declined):
+        return boot
+    edits: dict[Span, Edit] = {}
+    notes: tuple[str, ...]
+    if stage.mode == "switching":
+        chosen = _own_or_periodic(ctx, "the duty and frequency the rule used")
+        if isinstance(chosen, Declined):
+            return chosen
+        schedule, edits, notes = chosen
+        window = _window(schedule, HEADROOM_CYCLES - 1)
+    else:
+        start = charge_time(ctx)
+        schedule = Schedule.steps((start, True), (start + ONE_SHOT_ON, False))
+        made = stimulus(ctx, schedule, "one turn-on from a charged supply")
+        if isinstance(made, Declined):
+            return made
+        edits, notes = dict(made.edits), made.notes
+        window = _window(schedule, 0)
+    if isinstance(window, Declined):
+        return window
+    start, end = window
+    dead = facts.dead_time.value if facts.dead_time is not None else 0.0
+    recharged = max(start - dead, 0.0)
+    cards = [
+        at(
+            "vgs_supply_on",
+            boot,
+            recharged,
+            "V(boot) - V(sw) as the recharge ends"
+            + (" (the low side's turn-off command, before the dead time)" if dead else ""),
+        ),
+        at("tb_boot_on", boot, start, "V(boot) - V(sw) at the turn-on command"),
+        at("tb_boot_off", boot, end, "V(boot) - V(sw) at the turn-off command"),
+        expression(
+            "vgs_on_worst",
+            "vgs_supply_on-(tb_boot_on-tb_boot_off)",
+            "the recharged level less the droop over the on-time",
+        ),
+        at("tb_vgs_end", _vgs(ctx), end, "V_GS at the turn-off command"),
+    ]
+    stop = min(end + SETTLE_AFTER, MAX_STOP)
+    shortest = end - start
+    if schedule.period is not None:
+        shortest = min(shortest, schedule.period - schedule.on_time)
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, shortest),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(
+            Limit(
+                "vgs_supply_on",
+                need,
+                ">=",
+                "the gate supply reaches the V_GS the switch (or the driver's lockout) needs",
+                "V",
+            ),
+        ),
+        notes=(*notes, *((f"on-time {HEADROOM_CYCLES} is measured",) if schedule.period else ())),
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def traces_for(ctx: BenchContext, kind: str) -> tuple[Trace, ...]:
+    """The series of the waveform file, the quantity the claims are about first: the boot
+    supply for hold, refresh and headroom findings, V_GS for gate findings, the diode's
+    reverse voltage or its current for the diode's."""
+    stage = ctx.stage
+    vgs = voltage_trace(stage.gate, stage.source, "V_GS")
+    boot = (
+        voltage_trace(stage.supply.boot_net, stage.source, "V(boot)-V(sw)")
+        if stage.supply.boot_net
+        else None
+    )
+    rule = kind.split("/", 1)[0]
+    diode = ctx.facts.diode
+    if rule == "gate-overvoltage":
+        return (vgs,)
+    if rule == "bootstrap-diode-voltage" and diode is not None:
+        anode, cathode = diode.net("a"), diode.net("k")
+        if anode is not None and cathode is not None:
+            return (voltage_trace(cathode, anode, "V_R"),)
+    if rule == "bootstrap-diode-slow" and diode is not None:
+        current = Trace("I_D", "A", source_current(sense_names(ctx, diode)[2]))
+        return (current, *((boot,) if boot else ()))
+    if rule == "gate-headroom" and boot is not None:
+        return (boot, vgs)
+    return (boot,) if boot is not None else (vgs,)
+
+
+def build(ctx: BenchContext) -> Bench | Declined:
+    """The rule's builder, with the supplies held at the levels the rule judged them at.
+
+    On a fixed deck, a supply the fix itself changes keeps the fix's level.
+    """
+    builder = BUILDERS.get(ctx.finding.rule)
+    if builder is None:
+        return Declined(NOT_SIMULATED.get(ctx.finding.rule, "no testbench builder for this rule"))
+    bench = builder(ctx)
+    if isinstance(bench, Declined):
+        return bench
+    kind = finding_kind(ctx.finding, ctx.stage)
+    stress = kind in STRESS_KINDS
+    held = held_supplies(ctx, stress=stress)
+    if isinstance(held, Declined):
+        return held
+    fixed = ctx.fix.edits if ctx.fix is not None else {}
+    supplies = {span: edit for span, edit in held.edits.items() if span not in fixed}
+    # the reverse voltage takes only the bus from the corner (the gate rail cancels)
+    uses = frozenset({"bus"}) if ctx.finding.rule == "bootstrap-diode-voltage" else None
+    corner = corner_deck(ctx, STRESS if stress else HOLD, skip=fixed, uses=uses)
+    if isinstance(corner, Declined):
+        return corner
+    return replace(
+        bench,
+        traces=bench.traces or traces_for(ctx, kind),
+        edits=merge_edits(bench.edits, supplies, corner.edits),
+        notes=(*bench.notes, *(n for n, span in zip(held.notes, held.edits) if span not in fixed)),
+        corner=corner.notes,
+        directives=corner.directives,
+        corner_side=corner.side,
+        corner_values=corner.values,
     )
 
 
@@ -813,6 +1234,7 @@ BUILDERS: Mapping[str, Builder] = {
     "bootstrap-no-refresh": no_refresh,
     "dc-hold": dc_hold,
     "gate-overvoltage": gate_overvoltage,
+    "gate-headroom": gate_headroom,
 }
 
 # Rules whose failure no simulation of the circuit can show, with the reason.

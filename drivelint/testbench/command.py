@@ -32,14 +32,15 @@ from drivelint.ratings.parts import PartsLibrary
 from drivelint.ratings.ratings import Ratings
 from drivelint.ratings.values import Value
 from drivelint.testbench.bench import Bench, BenchContext, Declined, Fix
-from drivelint.testbench.builders import BUILDERS, NOT_SIMULATED
+from drivelint.testbench.builders import BUILDERS, NOT_SIMULATED, build
 from drivelint.testbench.deck import render
 from drivelint.testbench.design import Design, DesignError
 from drivelint.testbench.fixes import APPLIERS
-from drivelint.testbench.measure import Claim, Limit
+from drivelint.testbench.measure import Claim, Limit, Trace
 from drivelint.testbench.ngspice import DEFAULT_TIMEOUT, MAX_OUTPUT, RunResult, run_deck
 
 MAX_NAME = 96  # characters of a file name taken from a device or netlist name
+INDEX_NAME = "testbench.json"  # DIR/testbench.json: the records, as --format json prints them
 
 
 @dataclass(frozen=True, slots=True)
@@ -65,6 +66,10 @@ class WrittenDeck:
     limits: tuple[Limit, ...]
     cards: tuple[str, ...]
     result: RunResult | None = None
+    corner: tuple[str, ...] = ()
+    corner_side: str | None = None
+    corner_values: dict[str, float] = field(default_factory=dict)
+    traces: tuple[Trace, ...] = ()
 
     def measured(self, name: str) -> float | None:
         return self.result.values.get(name) if self.result else None
@@ -87,6 +92,8 @@ class Record:
     fixed: WrittenDeck | None = None
     fix: str | None = None  # what the fixed deck changes
     fixed_reason: str | None = None  # why there is no fixed deck
+    waveform: str | None = None  # the waveform file, relative to the output folder
+    waveform_reason: str | None = None  # why a run wrote none
 
     def sort_key(self) -> tuple[str, int, int, str, str]:
         return self.finding.sort_key()
@@ -103,13 +110,24 @@ class Record:
             "fixed_deck": str(self.fixed.path) if self.fixed else None,
             "claims": {c.key: _json_number(c.value) for c in self.deck.claims} if self.deck else {},
             "fix": self.fix,
+            "waveform": self.waveform,
         }
+        if self.waveform_reason:
+            out["waveform_reason"] = self.waveform_reason
         if self.reason:
             out["reason"] = self.reason
         if self.fixed_reason:
             out["fixed_reason"] = self.fixed_reason
         if self.deck is not None:
             out["limits"] = [_limit_json(limit) for limit in self.deck.limits]
+            if self.deck.corner_side is not None:
+                out["corner"] = {
+                    "side": self.deck.corner_side,
+                    "values": {
+                        k: _json_number(v) for k, v in sorted(self.deck.corner_values.items())
+                    },
+                    "what": list(self.deck.corner),
+                }
             if self.deck.result is not None:
                 out["measured"] = _measured_json(self.deck)
                 out["failure_shown"] = _negate(self.deck.limits_hold())
@@ -319,8 +337,56 @@ def make_testbenches(jobs: Sequence[Job], options: BenchOptions) -> Outcome:
         _one_file(job, options, folders, outcome)
     if options.run:
         _run_all(outcome, options)
+        _waveforms(outcome, options)
     outcome.records.sort(key=Record.sort_key)
+    if outcome.records:
+        write_atomically(options.output, options.output / INDEX_NAME, records_json(outcome))
     return outcome
+
+
+def records_json(outcome: Outcome) -> str:
+    """What ``--format json`` prints, and ``DIR/testbench.json`` holds: one object per
+    finding, sorted by path, line and rule."""
+    import json
+
+    return json.dumps([r.to_json() for r in outcome.records], indent=2, sort_keys=True) + "\n"
+
+
+def _waveforms(outcome: Outcome, options: BenchOptions) -> None:
+    """Run each design deck that ran once more for its waveform file (testbench.waveform)."""
+    from drivelint.testbench.ngspice import run_vectors
+    from drivelint.testbench.waveform import waveform_text
+
+    records = [
+        r
+        for r in outcome.records
+        if r.deck is not None and r.deck.result is not None and r.deck.result.error is None
+    ]
+
+    def run(record: Record) -> dict[str, tuple[float, ...]] | str:
+        assert record.deck is not None
+        vectors = {v for t in record.deck.traces for v in t.vectors}
+        if not vectors:
+            return "the deck names no waveform"
+        return run_vectors(
+            record.deck.path, vectors, options.run_timeout, executable=options.ngspice
+        )
+
+    with ThreadPoolExecutor(max_workers=max(1, options.jobs)) as pool:
+        for record, found in zip(records, pool.map(run, records)):
+            deck = record.deck
+            assert deck is not None
+            if isinstance(found, str):
+                record.waveform_reason = found
+                continue
+            claim = (
+                deck.claims[0].key
+                if deck.claims
+                else (deck.limits[0].measure if deck.limits else None)
+            )
+            path = deck.path.with_name(deck.path.name.removesuffix(".cir") + ".wave.json")
+            write_atomically(options.output, path, waveform_text(deck.traces, found, claim))
+            record.waveform = path.relative_to(options.output).as_posix()
 
 
 def _one_file(job: Job, options: BenchOptions, folders: _Folders, outcome: Outcome) -> None:
@@ -395,7 +461,12 @@ def _decks_for(
         key: Value(value, CONDITION_KEYS[key], origin)
         for key, (value, origin) in config.conditions_for_file(path).items()
     }
-    by_net = devices_by_net(circuit)
+    # The rules see the circuit recognition saw, wires (ammeters, strays, shunts) merged;
+    # the facts must be the rules' own, so they are built on the same one.
+    from drivelint.stages.wires import collapse_wires
+
+    merged = collapse_wires(circuit).circuit
+    by_net = devices_by_net(merged)
     used_names: dict[str, int] = {}
     for finding in findings:
         stage = next((s for s in result.stages if s.switch == finding.switch), None)
@@ -404,7 +475,7 @@ def _decks_for(
         if stage is None:
             record.reason = "the finding's stage was not recognised again"
             continue
-        facts = StageFacts(stage, circuit, ratings, directives, conditions, by_net)
+        facts = StageFacts(stage, merged, ratings, directives, conditions, by_net)
         setting = config.rules.get(finding.rule, RuleSetting())
         rule = rules.get(finding.rule)
         rule_options = rule.option_values(setting.options) if rule else {}
@@ -441,12 +512,11 @@ def _build(
     options: BenchOptions,
     conditions: dict[str, Value],
 ) -> None:
-    builder = BUILDERS.get(ctx.finding.rule)
-    if builder is None:
+    if ctx.finding.rule not in BUILDERS:
         record.reason = NOT_SIMULATED.get(ctx.finding.rule, "no testbench builder for this rule")
         return
     try:
-        bench = builder(ctx)
+        bench = build(ctx)
         fix: Fix | Declined = (
             APPLIERS[ctx.finding.rule](ctx)
             if ctx.finding.rule in APPLIERS
@@ -454,7 +524,7 @@ def _build(
         )
         fixed_bench: Bench | Declined | None = None
         if isinstance(bench, Bench) and isinstance(fix, Fix):
-            fixed_bench = builder(replace(ctx, fix=fix))
+            fixed_bench = build(replace(ctx, fix=fix))
             if isinstance(fixed_bench, Bench) and fix.bounds:
                 moved = tuple(
                     replace(limit, bound=fix.bounds.get(limit.measure, limit.bound))
@@ -501,7 +571,14 @@ def _build(
         return
     write_atomically(options.output, deck_path, text)
     record.deck = WrittenDeck(
-        deck_path, bench.claims, bench.limits, tuple(c.name for c in bench.cards)
+        deck_path,
+        bench.claims,
+        bench.limits,
+        tuple(c.name for c in bench.cards),
+        corner=bench.corner,
+        corner_side=bench.corner_side,
+        corner_values=dict(bench.corner_values),
+        traces=bench.traces,
     )
     if fixed_text is not None and isinstance(fix, Fix) and isinstance(fixed_bench, Bench):
         write_atomically(options.output, fixed_path, fixed_text)
@@ -511,6 +588,9 @@ def _build(
             fixed_bench.claims,
             fixed_bench.limits,
             tuple(c.name for c in fixed_bench.cards),
+            corner=fixed_bench.corner,
+            corner_side=fixed_bench.corner_side,
+            corner_values=dict(fixed_bench.corner_values),
         )
 
 

@@ -109,6 +109,13 @@ def render(
         )
     for note in bench.notes:
         head += _comment(f"stimulus: {note}")
+    for note in bench.corner:
+        head += _comment(f"corner: {note}")
+    if bench.directives:
+        head += _comment(
+            "corner: the deck holds the corner's values; its 'conditions as_corner=1' directive "
+            "makes drivelint judge them as written"
+        )
     if fix is not None:
         head += _comment(f"fix: {fix.description}")
     elif fixed_file is not None:
@@ -125,10 +132,13 @@ def render(
     head += _comment(CAUTION)
     head.append("* " + "-" * (WIDTH - 2))
     head += list(_directives(design, conditions, fix))
+    head += [f"* drivelint: {text}" for text in bench.directives]
     body = design.render(merge_edits(bench.edits, fix.edits if fix else {}))
     tail = ["", "* ---- testbench analysis (written by drivelint)"]
-    if bench.saves:
-        tail.append(".save " + " ".join(_saved(bench)))
+
+    saved = _saved(bench)
+    if saved:
+        tail.append(".save " + " ".join(saved))
     tail.append(
         f".tran {number(bench.step)} {number(bench.stop)} 0 {number(bench.step)}"
         + (" uic" if bench.uic else "")
@@ -144,13 +154,15 @@ _VECTOR = re.compile(r"\b([vi])\(([^()']+)\)")
 
 
 def _saved(bench: Bench) -> list[str]:
-    """Every vector the cards use. Device currents (``@c1[i]``) are kept only when asked
-    for; once one is, ngspice keeps only what ``.save`` names (with ``all`` as well, it
-    warns about the vectors behind ``par()``), so the node voltages and source currents the
-    cards read are named too."""
+    """Every vector the cards and the waveform file use. ngspice then keeps only what
+    ``.save`` names (with ``all`` as well, it warns about the vectors behind ``par()``), so
+    the node voltages and source currents the cards read are named, and device currents
+    (``@c1[i]``) where a card asks for them."""
     found = set(bench.saves)
     for card in bench.cards:
         found.update(f"{kind}({name})" for kind, name in _VECTOR.findall(card.text))
+    for trace in bench.traces:
+        found.update(trace.vectors)
     return sorted(found)
 
 

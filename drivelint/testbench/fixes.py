@@ -15,15 +15,19 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping
 
-from drivelint.circuit.model import Device
-from drivelint.diagnostics import Span
-from drivelint.netlist.statements import Element, Expr, Field, Word
+from drivelint.checks.corners import HOLD, aux_low, nominal_for
+from drivelint.netlist.statements import Element, Word
 from drivelint.netlist.values import format_si
-from drivelint.physics.preferred import next_preferred
-from drivelint.testbench.bench import BenchContext, Declined, Fix
+from drivelint.physics.preferred import next_preferred, preferred_values
+from drivelint.ratings.values import Value
+from drivelint.testbench.bench import BenchContext, Declined, Fix, partner_dead_time
 from drivelint.testbench.builders import gate_kind
+from drivelint.testbench.corners import capacitance_text
 from drivelint.testbench.design import Edit, merge_edits
-from drivelint.testbench.stimulus import number
+from drivelint.testbench.edits import element as _element
+from drivelint.testbench.edits import model_copy
+from drivelint.testbench.stimulus import Schedule, number
+from drivelint.testbench.supplies import Level, hold_rails
 
 Applier = Callable[[BenchContext], Fix | Declined]
 
@@ -43,72 +47,33 @@ CLAMP_MODEL = "IS=1n N=1.2 RS=2 IBV=5m CJO=100p"
 # -- helpers ---------------------------------------------------------------------------------
 
 
-def _element(ctx: BenchContext, name: str) -> Element | Declined:
-    element = ctx.design.element_of(name)
-    return element if element is not None else Declined(f"{name}'s statement cannot be found")
-
-
 def _shared(ctx: BenchContext, element: Element) -> str:
     devices = ctx.design.produced_by(element)
     return f" (one statement for {', '.join(devices)})" if len(devices) > 1 else ""
 
 
 def _set_capacitance(ctx: BenchContext, name: str, farads: float, why: str) -> Fix | Declined:
-    device = ctx.design.circuit.devices.get(name)
+    """The capacitor's nominal value set to ``farads``; the deck holds it at the hold
+    corner the finding was judged at (testbench.corners)."""
+    device = ctx.circuit.devices.get(name)
     element = _element(ctx, name)
     if isinstance(element, Declined) or device is None:
         return Declined(f"capacitor {name} cannot be found")
-    if len(element.fields) < 3 or not isinstance(element.fields[2], (Word, Expr)):
-        return Declined(f"{name}'s value is not written as a plain field")
+    made = capacitance_text(ctx, device, farads, HOLD)
+    if isinstance(made, Declined):
+        return made
+    value_field, text, simulated = made
     old = (device.value or 0.0) * device.multiplier
-    text = number(farads / device.multiplier)
+    corner = (
+        f", simulated at its low corner, {format_si(simulated, 'F')}"
+        if abs(simulated - farads) > 1e-12 * farads
+        else ""
+    )
     return Fix(
-        f"{name}: {format_si(old, 'F')} -> {format_si(farads, 'F')} ({why})"
+        f"{name}: {format_si(old, 'F')} -> {format_si(farads, 'F')} ({why}){corner}"
         + _shared(ctx, element),
-        {element.span: Edit(fields=((element.fields[2], text),), note=f"fix: {name} = {text}")},
+        {element.span: Edit(fields=((value_field, text),), note=f"fix: {name} = {text}")},
     )
-
-
-def _model_field(element: Element, device: Device) -> Field | None:
-    wanted = (device.model_name or "").lower()
-    return next(
-        (f for f in element.fields if isinstance(f, Word) and f.text == wanted and wanted), None
-    )
-
-
-def _model_copy(
-    ctx: BenchContext, device: Device, changes: Mapping[str, float], suffix: str
-) -> tuple[str, dict[Span, Edit]] | Declined:
-    """A copy of the device's model card with ``changes``, named ``<model>_<suffix>``,
-    written right after the original (in its scope); the device is pointed at it."""
-    element = _element(ctx, device.name)
-    model = device.model
-    if isinstance(element, Declined):
-        return element
-    card = ctx.design.model_card(model.name, element.span) if model else None
-    field = _model_field(element, device)
-    if model is None or card is None or field is None:
-        return Declined(f"{device.name}'s model card cannot be found where it is used")
-    name = f"{model.name}_{suffix}"
-    while ctx.design.model_card(name, element.span) is not None:
-        name += "_"
-    keys = [a.key for a in card.params]
-    keys += sorted(set(model.params) - set(keys))
-    values = {**model.params, **changes}
-    keys += [k for k in changes if k not in keys]
-    items = [k if k in ("pchan", "nchan") else f"{k}={number(values[k])}" for k in keys]
-    line = f".model {name} {card.type} ({' '.join(items)})"
-    edits = {
-        card.span: Edit(
-            after=(line,), note=f"fix: a copy of {model.name} with {_changes(changes)}"
-        ),
-        element.span: Edit(fields=((field, name),), note=f"fix: {device.name} uses {name}"),
-    }
-    return name, edits
-
-
-def _changes(changes: Mapping[str, float]) -> str:
-    return ", ".join(f"{k.upper()}={number(v)}" for k, v in changes.items())
 
 
 def _part_directives(
@@ -118,7 +83,7 @@ def _part_directives(
     ``keys`` it had from the parts library or a directive (a model card's go with it)."""
     out = []
     for name in ctx.design.produced_by(element):
-        device = ctx.design.circuit.devices.get(name)
+        device = ctx.circuit.devices.get(name)
         items: dict[str, float] = {}
         for key in keys:
             if key in given:
@@ -152,12 +117,40 @@ def _swap_nodes(ctx: BenchContext, name: str, why: str) -> Fix | Declined:
 
 
 def zener_choice(drive: float | None, limit: float, tolerance: float) -> float | None:
-    """The lowest standard Zener that stays off at the drive level (with its tolerance)
-    and clamps within the limit: what gate-overvoltage's fix text names."""
-    if drive is None or drive <= 0 or not 0 <= tolerance < 1:
+    """The lowest standard Zener that stays off at the drive level and clamps strictly
+    within the limit, both with its tolerance: what gate-overvoltage's fix text names.
+    With no drive level (a gate pulled up from a rail, no floating supply), the highest
+    one that clamps within the limit."""
+    if not 0 <= tolerance < 1:
         return None
-    choice = next_preferred(drive / (1.0 - tolerance), ZENER_SERIES)
-    return choice if choice <= limit else None
+    if drive is None or drive <= 0:
+        ceiling = limit / (1.0 + tolerance) * (1 - 1e-9)
+        below = [v for v in _zener_values(ceiling) if v <= ceiling * (1 + 1e-9)]
+        choice = max(below, default=None)
+        return choice if choice is not None and choice * (1.0 + tolerance) < limit else None
+    choice = next_preferred(drive / (1.0 - tolerance) * (1 + 1e-9), ZENER_SERIES)
+    return choice if choice * (1.0 + tolerance) < limit else None
+
+
+def _zener_values(near: float) -> list[float]:
+    """E24 values in the decades around ``near``."""
+    if not (near > 0 and math.isfinite(near)):
+        return []
+    decade = math.floor(math.log10(near))
+    return [
+        float(f"{step!r}e{power}")
+        for power in (decade - 1, decade, decade + 1)
+        for step in preferred_values(ZENER_SERIES)
+    ]
+
+
+def clamp_drive(ctx: BenchContext) -> float | None:
+    """The on-state drive a gate–source Zener must stay off at, as gate-overvoltage takes
+    it: the floating supply's pull-up after charge sharing, or none for a rail-fed gate."""
+    from drivelint.checks.gate import gate_extremes
+
+    found = gate_extremes(ctx.stage, ctx.facts, ctx.options)
+    return found.boot_drive.on_level if found.boot_drive is not None else None
 
 
 # -- per rule ----------------------------------------------------------------------------------
@@ -196,7 +189,7 @@ def diode_slow(ctx: BenchContext) -> Fix | Declined:
     element = _element(ctx, diode.name)
     if isinstance(element, Declined):
         return element
-    copied = _model_copy(ctx, diode, {"tt": tt}, "fast")
+    copied = model_copy(ctx, diode, {"tt": tt}, "fast")
     if isinstance(copied, Declined):
         return copied
     name, edits = copied
@@ -223,7 +216,7 @@ def diode_voltage(ctx: BenchContext) -> Fix | Declined:
         return element
     model = diode.model
     old_bv = model.params.get("bv", 0.0) if model else 0.0
-    copied = _model_copy(ctx, diode, {"bv": max(old_bv, rating)}, f"{number(rating)}v")
+    copied = model_copy(ctx, diode, {"bv": max(old_bv, rating)}, f"{number(rating)}v")
     if isinstance(copied, Declined):
         return copied
     name, edits = copied
@@ -234,7 +227,7 @@ def diode_voltage(ctx: BenchContext) -> Fix | Declined:
         + _shared(ctx, element),
         edits,
         directives,
-        bounds={"diode_reverse_voltage": rating * derating},
+        bounds={"tb_reverse_with_ringing": rating * derating},
     )
 
 
@@ -249,28 +242,42 @@ def no_refresh(ctx: BenchContext) -> Fix | Declined:
             "or freewheel diode) or an isolated supply, a different circuit rather than a "
             "value or a part"
         )
+    fsw, min_off = ctx.value("fsw"), ctx.value("min_off_time")
+    why = "the finding's max_duty"
+    if fsw and min_off is not None:
+        # The deck's commands keep a dead time on each side of the off-time; where the
+        # finding saw none, they take it out of the refresh window, so it is left over.
+        period = 1 / fsw
+        dead = partner_dead_time(ctx, Schedule.periodic(period, max_duty * period, 0.0))
+        kept = 1.0 - (min_off + 2 * dead) * fsw
+        if kept < max_duty:
+            max_duty = kept
+            why = (
+                f"the finding's min_off_time plus the {format_si(dead, 's')} dead time the "
+                "deck's commands keep at each edge"
+            )
     duty = math.floor(max_duty * 1000) / 1000
     if duty <= 0:
         return Declined("the finding leaves no duty that sustains the boot supply")
-    return Fix(f"control duty limited to {duty:.1%} (the finding's max_duty)", duty=duty)
+    return Fix(f"control duty limited to {duty:.1%} ({why})", duty=duty)
 
 
 def gate_overvoltage(ctx: BenchContext) -> Fix | Declined:
     kind = gate_kind(ctx)
     tolerance = ctx.options.get("zener_tolerance", 0.05)
     limit = ctx.value("vgs_limit_positive")
-    drive = ctx.value("vgs_drive")
+    drive = clamp_drive(ctx)
     if kind == "clamp reversed":
         return _turn_clamp_round(ctx, drive, limit, tolerance)
     if kind == "clamp below drive":
         zener = zener_choice(drive, limit, tolerance) if limit is not None else None
-        device = ctx.design.circuit.devices.get(ctx.finding.device)
+        device = ctx.circuit.devices.get(ctx.finding.device)
         if zener is None or device is None:
             return Declined("no standard Zener stays off at the drive level within the rating")
         element = _element(ctx, device.name)
         if isinstance(element, Declined):
             return element
-        copied = _model_copy(ctx, device, {"bv": zener}, f"{number(zener)}v")
+        copied = model_copy(ctx, device, {"bv": zener}, f"{number(zener)}v")
         if isinstance(copied, Declined):
             return copied
         name, edits = copied
@@ -282,7 +289,7 @@ def gate_overvoltage(ctx: BenchContext) -> Fix | Declined:
             edits,
             _part_directives(ctx, element, ("ir_leak", "vf"), {"vz": zener}),
         )
-    if kind == "negative":
+    if kind in ("negative", "output short"):
         return _added_clamp(ctx, drive, limit, tolerance)
     if kind == "positive":
         return Declined(
@@ -298,7 +305,7 @@ def _turn_clamp_round(
     """Turn the clamp round; a Zener that would then conduct within its tolerance at the
     drive level is also replaced by the one the finding names ("clamps both ways")."""
     turned = _swap_nodes(ctx, ctx.finding.device, "the finding's fix: turn it round")
-    device = ctx.design.circuit.devices.get(ctx.finding.device)
+    device = ctx.circuit.devices.get(ctx.finding.device)
     vz = ctx.value(f"{ctx.finding.device}_vz")
     if isinstance(turned, Declined) or device is None or vz is None or drive is None:
         return turned
@@ -307,7 +314,7 @@ def _turn_clamp_round(
     zener = zener_choice(drive, limit, tolerance) if limit is not None else None
     if zener is None:
         return turned
-    copied = _model_copy(ctx, device, {"bv": zener}, f"{number(zener)}v")
+    copied = model_copy(ctx, device, {"bv": zener}, f"{number(zener)}v")
     element = _element(ctx, device.name)
     if isinstance(copied, Declined) or isinstance(element, Declined):
         return turned
@@ -326,7 +333,7 @@ def _added_clamp(
 ) -> Fix | Declined:
     """A Zener (or, with no drive level known, a plain diode) from source to gate."""
     stage = ctx.stage
-    switch = ctx.design.circuit.devices.get(stage.switch)
+    switch = ctx.circuit.devices.get(stage.switch)
     element = _element(ctx, stage.switch)
     if switch is None or isinstance(element, Declined):
         return Declined(f"{stage.switch}'s statement cannot be found")
@@ -348,10 +355,15 @@ def _added_clamp(
     )
     devices = [f"{p}.{name}" if p else name for p in _instances_of(ctx, element)]
     what = f"a {format_si(zener, 'V')} Zener" if zener else "a diode"
+    role = (
+        "the finding's suggested clamp (the existing pull-up is its series resistor)"
+        if gate_kind(ctx) == "output short"
+        else "the finding's suggested clamp"
+    )
     directives = tuple(f"part {d} vz={number(zener)}" for d in devices) if zener else ()
     return Fix(
         f"{what} {name} added from the source {stage.source} (anode) to the gate {stage.gate} "
-        "(cathode), the finding's suggested clamp" + _shared(ctx, element),
+        f"(cathode), {role}" + _shared(ctx, element),
         {element.span: Edit(after=lines, note=f"fix: {what} clamp from source to gate")},
         directives,
     )
@@ -361,9 +373,90 @@ def _instances_of(ctx: BenchContext, element: Element) -> list[str]:
     """The instance prefix of every device the statement produced ("" at the top level)."""
     out = []
     for name in ctx.design.produced_by(element):
-        device = ctx.design.circuit.devices.get(name)
+        device = ctx.circuit.devices.get(name)
         out.append(device.instance if device else "")
     return out
+
+
+# A raised gate rail clears the shortfall by this much, rounded up to the next step: the
+# fix must not land on the boundary the rule compares with.
+RAIL_ROOM = 0.05  # V
+RAIL_STEP = 0.1  # V
+
+
+def raised_rail(present: float, shortfall: float) -> float:
+    """The rail ``shortfall`` higher, with ``RAIL_ROOM`` to spare, rounded up to a step."""
+    steps = math.ceil((present + max(shortfall, 0.0) + RAIL_ROOM) / RAIL_STEP - 1e-9)
+    return round(steps * RAIL_STEP, 6)
+
+
+def gate_headroom(ctx: BenchContext) -> Fix | Declined:
+    """The finding's first fix: the gate supply raised by the shortfall (the auxiliary rail
+    of a bootstrap, the isolated source's level), as a nominal value whose low corner
+    clears the need; the deck holds that corner."""
+    stage, facts = ctx.stage, ctx.facts
+    supply = stage.supply
+    level, need = ctx.value("vgs_supply_on"), ctx.value("vgs_needed")
+    if level is None or need is None:
+        return Declined("the finding gives no drive level and need")
+    shortfall = need - level
+    if supply.kind == "bootstrap" and supply.aux is not None:
+        present = ctx.value("v_aux")
+        nominal = facts.v_aux_nominal.value if facts.v_aux_nominal else present
+        if present is None or nominal is None:
+            return Declined("the finding gives no auxiliary rail level")
+        target = raised_rail(nominal, nominal_for(facts, present + shortfall) - nominal)
+        at_corner = aux_low(facts, target)
+        held = hold_rails(
+            ctx.design,
+            ctx.circuit,
+            [Level(supply.aux.net, Value(at_corner, "V", "the fix, at its low corner"))],
+            "the finding's fix",
+        )
+        if isinstance(held, str):
+            return Declined(f"the auxiliary rail cannot be raised: {held}")
+        return Fix(
+            f"auxiliary rail {supply.aux.net} raised from {format_si(nominal, 'V')} to "
+            f"{format_si(target, 'V')} (the finding's fix: its low corner at least "
+            f"{format_si(shortfall, 'V')} higher; {format_si(RAIL_ROOM, 'V')} more, rounded "
+            f"up to the next {format_si(RAIL_STEP, 'V')}); the deck holds its low corner, "
+            f"{format_si(at_corner, 'V')}",
+            held.edits,
+        )
+    if supply.kind == "isolated" and supply.source:
+        return _raised_isolated(ctx, supply.source, level, shortfall)
+    return Declined(
+        "the fix is a floating gate supply, a pump fed from the bus or a different switch: a "
+        "different circuit rather than a value or a part"
+    )
+
+
+def _raised_isolated(
+    ctx: BenchContext, name: str, level: float, shortfall: float
+) -> Fix | Declined:
+    device = ctx.circuit.devices.get(name)
+    element = _element(ctx, name)
+    if isinstance(element, Declined) or device is None or device.kind != "vsource":
+        return Declined(f"the isolated supply {name} is not an independent source to raise")
+    nodes = element.fields[:2]
+    wave = device.waveform
+    if wave is None or wave.kind != "dc" or not all(isinstance(n, Word) for n in nodes):
+        return Declined(f"{name} is not a DC source written with plain nodes")
+    first, second = nodes
+    assert isinstance(first, Word) and isinstance(second, Word)
+    spread = ctx.facts.corners.supply_tolerance.value
+    nominal = abs(wave.dc_level())
+    target = raised_rail(nominal, (level + shortfall) / (1 - spread) - nominal)
+    at_corner = target * (1 - spread)
+    positive = device.net("p") == ctx.stage.supply.boot_net
+    value = at_corner if positive else -at_corner
+    line = f"{ctx.design.raw_name(element)} {first.raw} {second.raw} DC {number(value)}"
+    return Fix(
+        f"{name} raised from {format_si(nominal, 'V')} to {format_si(target, 'V')} (the "
+        f"finding's fix: its low corner at least {format_si(shortfall, 'V')} higher); the deck "
+        f"holds its low corner, {format_si(at_corner, 'V')}",
+        {element.span: Edit(lines=(line,), note=f"fix: {name} at {format_si(at_corner, 'V')}")},
+    )
 
 
 APPLIERS: Mapping[str, Applier] = {
@@ -373,4 +466,5 @@ APPLIERS: Mapping[str, Applier] = {
     "bootstrap-no-refresh": no_refresh,
     "dc-hold": dc_hold,
     "gate-overvoltage": gate_overvoltage,
+    "gate-headroom": gate_headroom,
 }

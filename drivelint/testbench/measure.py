@@ -132,3 +132,25 @@ def time_to_fall(
         f"TARG {vector} VAL={number(level)} TD={number(start)} {edge}",
         what,
     )
+
+
+@dataclass(frozen=True, slots=True)
+class Trace:
+    """One series of a deck's waveform file: a node voltage, a difference of two, or a
+    source's current (``scale`` −1 turns it round), as ngspice names the vectors."""
+
+    name: str  # what the series is called in the file, e.g. "V(boot)-V(sw)"
+    unit: str
+    plus: str  # a vector: "v(boot)", "i(v_tb_d1)"
+    minus: str | None = None
+    scale: float = 1.0
+
+    @property
+    def vectors(self) -> tuple[str, ...]:
+        return (self.plus,) if self.minus is None else (self.plus, self.minus)
+
+
+def voltage_trace(high: str, low: str = GROUND, name: str | None = None) -> Trace:
+    """V(high) − V(low) as a trace."""
+    label = name or (f"V({high})" if low == GROUND else f"V({high})-V({low})")
+    return Trace(label, "V", voltage(high), None if low == GROUND else voltage(low))

@@ -20,6 +20,7 @@ from pathlib import Path
 
 DEFAULT_TIMEOUT = 120.0  # seconds per deck
 MAX_OUTPUT = 4 * 1024 * 1024  # bytes of ngspice output kept
+MAX_RAW_BYTES = 256 * 1024 * 1024  # bytes of a waveform run's raw file read back
 _RESULT = re.compile(
     r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)(?=\s|$)"
 )
@@ -38,6 +39,11 @@ def find_ngspice() -> str | None:
 
 # Lines of ngspice's output that mean the run may not be what the deck says.
 _TROUBLE = re.compile(r"error|warning|fatal|timestep too small|unrecognized|unknown", re.I)
+# The steps of a gmin or source stepping that found the operating point: ngspice's own
+# convergence aid, reported step by step ("Trying gmin = … Warning: Further gmin
+# increment"); once it says the stepping completed, those steps are not trouble.
+_STEPPING = re.compile(r"^\s*Trying (?:gmin|source)", re.I)
+_STEPPING_DONE = re.compile(r"(?:gmin|source) stepping completed", re.I)
 MAX_TROUBLE = 20
 
 
@@ -76,29 +82,34 @@ def parse_results(text: str, names: Iterable[str]) -> tuple[dict[str, float], tu
     return values, tuple(sorted(failed - set(values)))
 
 
-def run_deck(
-    deck: Path,
-    names: Iterable[str],
-    timeout: float = DEFAULT_TIMEOUT,
-    max_output: int = MAX_OUTPUT,
-    executable: str | None = None,
-) -> RunResult:
-    """Run one deck; never raises for anything ngspice does."""
-    program = executable or find_ngspice()
-    if program is None:
-        return RunResult(error="ngspice is not on the PATH")
+@dataclass(frozen=True, slots=True)
+class _Finished:
+    code: int
+    text: str
+    truncated: bool
+
+
+def _run(
+    arguments: list[str],
+    cwd: Path,
+    timeout: float,
+    max_output: int,
+    extra_env: dict[str, str] | None = None,
+) -> _Finished | str:
+    """Run ngspice with ``arguments`` in ``cwd``: its exit code and output (bounded), or
+    why it did not finish. Never raises for anything ngspice does."""
     try:
         process = subprocess.Popen(
-            [program, "-b", deck.name],
-            cwd=deck.parent,
+            arguments,
+            cwd=cwd,
             stdin=subprocess.DEVNULL,
             stdout=subprocess.PIPE,
             stderr=subprocess.STDOUT,
-            env={**os.environ, "LC_ALL": "C"},
+            env={**os.environ, "LC_ALL": "C", **(extra_env or {})},
             start_new_session=True,  # its own process group, so a stop ends all of it
         )
     except OSError as exc:
-        return RunResult(error=f"cannot start ngspice: {exc.strerror or exc}")
+        return f"cannot start ngspice: {exc.strerror or exc}"
     kept = bytearray()
     truncated = [False]
 
@@ -118,20 +129,80 @@ def run_deck(
     except subprocess.TimeoutExpired:
         _stop(process)
         reader.join(timeout=5)
-        return RunResult(error=f"ngspice ran longer than {timeout:g} s and was stopped")
+        return f"ngspice ran longer than {timeout:g} s and was stopped"
     reader.join(timeout=5)
-    text = kept.decode("utf-8", "replace")
+    return _Finished(code, kept.decode("utf-8", "replace"), truncated[0])
+
+
+def run_deck(
+    deck: Path,
+    names: Iterable[str],
+    timeout: float = DEFAULT_TIMEOUT,
+    max_output: int = MAX_OUTPUT,
+    executable: str | None = None,
+) -> RunResult:
+    """Run one deck; never raises for anything ngspice does."""
+    program = executable or find_ngspice()
+    if program is None:
+        return RunResult(error="ngspice is not on the PATH")
+    finished = _run([program, "-b", deck.name], deck.parent, timeout, max_output)
+    if isinstance(finished, str):
+        return RunResult(error=finished)
+    text = finished.text
     values, failed = parse_results(text, names)
     lines = text.splitlines()
     tail = "\n".join(lines[-20:])
     # A card that cannot be evaluated is in ``failed``; everything else ngspice warns about
     # is kept as it says it.
+    stepped = any(_STEPPING_DONE.search(line) for line in lines)
     trouble = tuple(
-        line.strip() for line in lines if _TROUBLE.search(line) and not _FAILED.search(line)
+        line.strip()
+        for line in lines
+        if _TROUBLE.search(line)
+        and not _FAILED.search(line)
+        and not (stepped and _STEPPING.match(line))
     )[:MAX_TROUBLE]
     error: str | None = None
-    if code != 0:
-        error = f"ngspice exited with status {code}"
-    elif truncated[0] and not values:
+    if finished.code != 0:
+        error = f"ngspice exited with status {finished.code}"
+    elif finished.truncated and not values:
         error = f"ngspice wrote more than {max_output} bytes"
     return RunResult(values, failed, error, tail, trouble)
+
+
+def run_vectors(
+    deck: Path,
+    vectors: Iterable[str],
+    timeout: float = DEFAULT_TIMEOUT,
+    max_raw_bytes: int = MAX_RAW_BYTES,
+    executable: str | None = None,
+) -> dict[str, tuple[float, ...]] | str:
+    """Run the deck once more for its saved vectors (the waveform file): ngspice writes
+    them to an ASCII raw file in a private temporary folder, read back within a bound and
+    then removed; nothing is written beside the deck. (ngspice evaluates no ``.meas`` card
+    in a run that writes a raw file, so this is a second run.) The time vector is
+    ``"time"``. Returns why it could not when it could not."""
+    import tempfile
+
+    from drivelint.testbench.waveform import RawError, read_ascii_raw
+
+    program = executable or find_ngspice()
+    if program is None:
+        return "ngspice is not on the PATH"
+    with tempfile.TemporaryDirectory(prefix="drivelint-wave-") as folder:
+        raw = Path(folder) / "wave.raw"
+        finished = _run(
+            [program, "-b", "-r", str(raw), deck.name],
+            deck.parent,
+            timeout,
+            MAX_OUTPUT,
+            {"SPICE_ASCIIRAWFILE": "1"},
+        )
+        if isinstance(finished, str):
+            return finished
+        if finished.code != 0 or not raw.is_file():
+            return f"ngspice exited with status {finished.code} and wrote no vectors"
+        try:
+            return read_ascii_raw(raw, {"time", *(v.lower() for v in vectors)}, max_raw_bytes)
+        except RawError as exc:
+            return str(exc)

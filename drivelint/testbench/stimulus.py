@@ -121,8 +121,11 @@ def waveform_text(schedule: Schedule, drive: Drive, initially_on: bool = False) 
             fields = (drive.off, drive.on, td, rise, fall, pw, schedule.period)
         return "PULSE(" + " ".join(number(x) for x in fields) + ")"
     level = drive.on if initially_on else drive.off
+    edges = list(schedule.edges)
+    while edges and edges[0][0] <= 0:  # a state from the start, not an edge
+        level = drive.on if edges.pop(0)[1] else drive.off
     points: list[tuple[float, float]] = [(0.0, level)]
-    for time, on in schedule.edges:
+    for time, on in edges:
         edge = rise if on else fall
         target = drive.on if on else drive.off
         start = max(time - edge / 2, points[-1][0])
@@ -287,3 +290,48 @@ def dead_time(main: Waveform | None, partner: Waveform | None, period: float) ->
     trail = (part_end - main_end) % per
     gap = min(lead, trail)
     return gap if 0 < gap < 0.25 * per else default
+
+
+# -- a modulator's output ------------------------------------------------------------------------
+
+# Levels each net a modulator reads is tried at, as multiples of the circuit's largest rail:
+# the extremes of any input a comparator or an error amplifier could see, and zero.
+PROBE_SCALES = (-2.0, -0.5, 0.0, 0.5, 2.0)
+MAX_PROBED_NETS = 3  # nets varied together (5³ evaluations at most)
+
+
+def modulator_levels(circuit: Circuit, device: Device) -> tuple[float, float] | None:
+    """(lowest, highest) output of a behavioural modulator over the extremes of its inputs.
+
+    A comparator's expression gives its two logic levels; an error amplifier with output
+    limits gives those limits. Each net the expression reads is set to a few levels
+    spanning the circuit's rails, all combinations tried (pure evaluation by drivelint's
+    own expression grammar). None when it reads too many nets, cannot be evaluated, or
+    never changes.
+    """
+    from itertools import product
+
+    from drivelint.stages import behaviour
+
+    nets = behaviour.referenced_nets(circuit, device)
+    if not nets or len(nets) > MAX_PROBED_NETS:
+        return None
+    scale = max([abs(v) for v in circuit.rails.values()] + [1.0])
+    levels = [s * scale for s in PROBE_SCALES]
+    outputs = []
+    for combination in product(levels, repeat=len(nets)):
+        out = behaviour.value(circuit, device, dict(zip(nets, combination)))
+        if out is not None and math.isfinite(out):
+            outputs.append(out)
+    if not outputs or max(outputs) == min(outputs):
+        return None
+    return min(outputs), max(outputs)
+
+
+def modulator_drive(circuit: Circuit, device: Device, inverting: bool) -> Drive | None:
+    """The levels a modulator's output commands the switch with, from its expression."""
+    found = modulator_levels(circuit, device)
+    if found is None:
+        return None
+    low, high = found
+    return Drive(on=low, off=high) if inverting else Drive(on=high, off=low)

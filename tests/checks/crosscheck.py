@@ -27,7 +27,12 @@ from simulator import Waves, run_transient
 
 from drivelint.checks.facts import StageFacts
 from drivelint.pipeline import check_path
+from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
+
+# ngspice runs the netlist as written: the facts it is compared with are taken at the
+# nominal corner (checks/corners.py), not at the tolerance corners the rules judge.
+NOMINAL = {"corners": Value(0.0, "1", "nominal corner: the simulation runs the netlist as written")}
 
 
 def device_current(name: str, quantity: str = "id") -> str:
@@ -284,7 +289,7 @@ def facts_of(deck: Path, switch: str) -> tuple[DriveStage, StageFacts]:
         circuit,
         Ratings(parts_for(deck), directives),
         directives,
-        None,
+        dict(NOMINAL),
         devices_by_net(circuit),
     )
     return stage, facts

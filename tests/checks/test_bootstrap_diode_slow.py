@@ -6,6 +6,7 @@ import shutil
 from pathlib import Path
 
 import pytest
+from nominal import at_nominal, check_nominal
 from simulator import run_transient
 
 from drivelint.checks.base import Finding
@@ -55,7 +56,7 @@ def lint(
 ) -> list[Finding]:
     text = STAGE.format(fsw=fsw, duty=duty, ton=ton, tt=tt, diode_directive=diode_directive)
     settings = {RULE: RuleSetting(options=options)} if options else None
-    result = check_text(text, parts=parts, settings=settings)
+    result = check_text(at_nominal(text), parts=parts, settings=settings)
     assert not [d for d in result.diagnostics if d.severity.label == "error"], result.diagnostics
     return [f for f in result.findings if f.rule == RULE]
 
@@ -145,14 +146,14 @@ def test_stages_that_do_not_switch_or_have_no_bootstrap_diode_are_quiet() -> Non
     static = STAGE.format(fsw="100k", duty="0.6", ton="6u", tt="TT=2u", diode_directive="")
     static = static.replace("* drivelint: conditions fsw=100k duty_max=0.6 on_time_max=6u\n", "")
     static = static.replace("VIN in 0 PULSE(0 5 0 10n 10n 5u 10u)", "VIN in 0 DC 0")
-    result = check_text(static)
+    result = check_text(at_nominal(static))
     assert [s.mode for s in result.stages if s.floating] == ["static"]
     assert [f for f in result.findings if f.rule == RULE] == []
     # Reversed diode: bootstrap-no-refresh reports it; recovery is moot.
     reversed_diode = STAGE.format(
         fsw="100k", duty="0.6", ton="6u", tt="TT=2u", diode_directive=""
     ).replace("D1 aux boot dboot", "D1 boot aux dboot")
-    result = check_text(reversed_diode)
+    result = check_text(at_nominal(reversed_diode))
     assert [s.supply.diode_orientation for s in result.stages if s.floating] == ["reversed"]
     assert [f for f in result.findings if f.rule == RULE] == []
 
@@ -163,7 +164,7 @@ def test_stages_that_do_not_switch_or_have_no_bootstrap_diode_are_quiet() -> Non
 def test_example_buck_rectifier_as_boot_diode() -> None:
     # examples/README.md: D_BST is DGP_400 (t_rr 3 µs in parts.toml, TT 4 µs in its model
     # card) at 400 kHz, 43 % duty.
-    result = check_path(EXAMPLES / "buck12v_5v_400k_sync.cir")
+    result = check_nominal(EXAMPLES / "buck12v_5v_400k_sync.cir")
     (finding,) = [f for f in result.findings if f.rule == RULE]
     values = finding.values
     assert finding.device == "d_bst" and finding.span.line == 26
@@ -231,7 +232,7 @@ def test_recovery_charge_is_not_overstated_against_ngspice(tmp_path: Path) -> No
     if shutil.which("ngspice") is None:
         pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot simulate")
     text = (EXAMPLES / "buck12v_5v_400k_sync.cir").read_text(encoding="utf-8")
-    result = check_path(EXAMPLES / "buck12v_5v_400k_sync.cir")
+    result = check_nominal(EXAMPLES / "buck12v_5v_400k_sync.cir")
     (finding,) = [f for f in result.findings if f.rule == RULE]
     estimate = finding.values["recovery_charge"].value
     (tmp_path / "slow").mkdir()

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import pytest
+from nominal import at_nominal
 
 from drivelint.pipeline import check_path, check_text
 from drivelint.ratings.parts import Part, PartsLibrary
@@ -31,7 +32,7 @@ def findings(bv: float, **parts: str):
         if parts
         else None
     )
-    result = check_text(STAGE.replace("{bv}", str(bv)), parts=library)
+    result = check_text(at_nominal(STAGE).replace("{bv}", str(bv)), parts=library)
     return [f for f in result.findings if f.rule == "bootstrap-diode-voltage"]
 
 

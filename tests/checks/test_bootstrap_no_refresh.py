@@ -9,6 +9,7 @@ import subprocess
 from pathlib import Path
 
 import pytest
+from nominal import at_nominal, check_nominal
 
 from drivelint.checks.base import Finding
 from drivelint.pipeline import check_path, check_text
@@ -60,7 +61,7 @@ def leg(duty: float = 0.95, r_bt: str = "47", c_bt: str = "47n") -> str:
 
 
 def lint(text: str, parts: PartsLibrary | None = PARTS) -> list[Finding]:
-    result = check_text(text, parts=parts)
+    result = check_text(at_nominal(text), parts=parts)
     assert not [d for d in result.diagnostics if d.severity.label == "error"], result.diagnostics
     return [f for f in result.findings if f.rule == RULE]
 
@@ -218,7 +219,7 @@ def test_isolated_and_static_stages_are_not_checked_for_refresh() -> None:
         .replace("M_LO sw lo 0 0 nlin W=1 L=1u\n", "")
         .replace("R_LOAD sw 0 24\n", "C_HOLD sw 0 100u\n")
     )
-    result = check_text(isolated, parts=PARTS)
+    result = check_text(at_nominal(isolated), parts=PARTS)
     assert [s.supply.kind for s in result.stages if s.floating] == ["isolated"]
     assert [f for f in result.findings if f.rule == RULE] == []
     # A DC command: no periodic off-time to judge (dc-hold's subject); the path exists.
@@ -252,7 +253,7 @@ def test_unknown_charge_is_quiet() -> None:
 def test_example_mower_leg_a_near_full_duty() -> None:
     # examples/README.md: leg A at 99.2 % duty, 20 kHz (0.4 µs off-time); τ = 22 Ω × 470 nF
     # ≈ 10 µs (plus the DSCH_50 card's RS = 0.1 Ω and NFET_100V_W's 6 mΩ in parts.toml).
-    result = check_path(EXAMPLES / "mower48v_hbridge_wrapped_fets.cir")
+    result = check_nominal(EXAMPLES / "mower48v_hbridge_wrapped_fets.cir")
     found = [f for f in result.findings if f.rule == RULE]
     (finding,) = found  # leg B is DC-commanded (its high side stays off): not judged
     values = finding.values

@@ -29,6 +29,8 @@ EXPECTED = {
     ("classd45v_split_rail_amp.cir", "bootstrap-diode-voltage", "d_bs", 25),
     # the load dump, given as PWL, over the 60 V Schottky's derated rating
     ("winch36v_shunt_load_dump.cir", "bootstrap-diode-voltage", "d_bs", 25),
+    # at the worst corner (checks/corners.py) the 60 V Schottky's 100 uA leaks 6.4 mA at
+    # 85 °C, and 470 nF less its tolerance no longer holds the rule's 2x margin
     # no gate–source Zener on a pass device pulled up from 60 V: an output short breaks
     # the gate, and so does the output held up while the error amplifier pulls it down
     ("linreg48v_pass_follower.cir", "gate-overvoltage", "m_pass", 18),

@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from nominal import at_nominal, check_nominal
 
 from drivelint.checks.base import Finding
 from drivelint.checks.registry import registry
@@ -21,7 +22,7 @@ CARD = registry()[RULE]
 
 
 def lint(text: str, parts: PartsLibrary | None = None) -> list[Finding]:
-    result = check_text(text, parts=parts)
+    result = check_text(at_nominal(text), parts=parts)
     assert not [d for d in result.diagnostics if d.severity.label == "error"], result.diagnostics
     return [f for f in result.findings if f.rule == RULE]
 
@@ -117,7 +118,9 @@ def test_a_ground_referenced_pump_below_the_bus() -> None:
     # The pump doubles the 12 V rail (two diode drops at a milliampere, Shockley law on the
     # D_SIG card) but the bus is 24 V: the switch's source follows its gate instead.
     (finding,) = [
-        f for f in check_path(OUTSIDE / "o05_pump_ground_reservoir.cir").findings if f.rule == RULE
+        f
+        for f in check_nominal(OUTSIDE / "o05_pump_ground_reservoir.cir").findings
+        if f.rule == RULE
     ]
     drop = diode_physics.diode_drop(1e-3, 4e-9, 1.8, 0.6)
     assert finding.values["vgs_supply_on"].value == pytest.approx(12 + 12 - 2 * drop - 24)
@@ -127,7 +130,7 @@ def test_a_ground_referenced_pump_below_the_bus() -> None:
 def test_example_buck_five_volt_drive_through_a_rectifier() -> None:
     # A 5 V driver rail and a silicon rectifier as boot diode on a part rated at 4.5 V
     # (parts.toml: R_DS(on) at 4.5 V, gate charge tested there): short of it.
-    result = check_path(EXAMPLES / "buck12v_5v_400k_sync.cir")
+    result = check_nominal(EXAMPLES / "buck12v_5v_400k_sync.cir")
     (finding,) = [f for f in result.findings if f.rule == RULE]
     assert finding.severity is Severity.WARNING and finding.device == "d_bst"
     assert finding.values["vgs_needed"].value == pytest.approx(4.5)

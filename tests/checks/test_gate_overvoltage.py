@@ -12,6 +12,7 @@ import subprocess
 from pathlib import Path
 
 import pytest
+from nominal import at_nominal, check_nominal
 
 from drivelint.checks.base import Finding
 from drivelint.checks.registry import registry
@@ -34,7 +35,7 @@ V_F = 0.7
 def lint(text: str, **options: float) -> list[Finding]:
     """This rule's findings on a netlist, with card options overridden."""
     settings = {RULE: RuleSetting(options=options)} if options else None
-    result = check_text(text, path="deck.cir", settings=settings)
+    result = check_text(at_nominal(text), path="deck.cir", settings=settings)
     errors = [d for d in result.diagnostics if d.severity is Severity.ERROR]
     assert not errors, [d.message for d in errors]
     return [f for f in result.findings if f.rule == RULE]
@@ -366,10 +367,10 @@ def test_unknown_inputs_stay_quiet(tmp_path: Path) -> None:
     library = tmp_path / "parts.toml"
     library.write_text('[part.dzx]\nkind = "zener"\n', encoding="utf-8")
     parts = load_libraries([library])
-    found = check_text(over, path="deck.cir", parts=parts).findings
+    found = check_text(at_nominal(over), path="deck.cir", parts=parts).findings
     assert [f.device for f in found if f.rule == RULE] == []
     bare = over.replace("DZ out g dzx\n", "")
-    found = check_text(bare, path="deck.cir", parts=parts).findings
+    found = check_text(at_nominal(bare), path="deck.cir", parts=parts).findings
     assert sorted(f.device for f in found if f.rule == RULE) == ["m1", "q1"]
 
 
@@ -379,7 +380,7 @@ def test_unknown_inputs_stay_quiet(tmp_path: Path) -> None:
 def test_example_loadswitch_pull_down_to_ground() -> None:
     # examples/README.md: Q4 pulls the gate to ground while C_OUT (47 µF) holds the source
     # at 24 V, so V_GS reaches about −24 V against ±20 V.
-    result = check_path(EXAMPLES / "loadswitch24v_dc_enable.cir")
+    result = check_nominal(EXAMPLES / "loadswitch24v_dc_enable.cir")
     (finding,) = [f for f in result.findings if f.rule == RULE]
     text = (EXAMPLES / "loadswitch24v_dc_enable.cir").read_text(encoding="utf-8")
     assert finding.device == "q4" and finding.span.line == line_of(text, "Q4")
@@ -393,7 +394,7 @@ def test_example_loadswitch_pull_down_to_ground() -> None:
 
 def test_example_heater_zener_below_drive() -> None:
     # examples/README.md: D_Z (12 V) across gate–source below the 15 V isolated drive.
-    result = check_path(EXAMPLES / "heater96v_isolated_supply.cir")
+    result = check_nominal(EXAMPLES / "heater96v_isolated_supply.cir")
     (finding,) = [f for f in result.findings if f.rule == RULE]
     text = (EXAMPLES / "heater96v_isolated_supply.cir").read_text(encoding="utf-8")
     assert finding.device == "d_z" and finding.span.line == line_of(text, "D_Z")
@@ -425,7 +426,7 @@ def test_linear_regulator_example_warns_for_the_output_short() -> None:
     # normal operation the source follows the gate (V_GS a few volts, ngspice in
     # tests/test_examples_simulate.py); with the output shorted V_GS heads for 60 V, and
     # with the output held up by C_OUT while Q_EA pulls the gate down, for −48 V.
-    result = check_path(EXAMPLES / "linreg48v_pass_follower.cir")
+    result = check_nominal(EXAMPLES / "linreg48v_pass_follower.cir")
     found = {f.device: f for f in result.findings if f.rule == RULE}
     assert set(found) == {"m_pass", "q_ea"}
     assert all(f.severity is Severity.WARNING for f in found.values())

@@ -54,12 +54,15 @@ EXPECTED: dict[str, set[tuple[str, str, str]]] = {
     # a bootstrap enabled for 150 ms that holds about 10 ms (ngspice: 10.3 ms): one finding
     # for the one cause, dc-hold's (never bootstrap-capacitor-small's as well)
     "o19_heater24v_long_enable.cir": {("dc-hold", "ven", "error")},
+    # clean at the nominal corner; at the worst corner (checks/corners.py) its 5 V rail
+    # less 5 % and the Schottky's drop leaves 56 mV above the logic-level 4.5 V, which one
+    # on-time's droop on 100 nF less its tolerance uses up
+    "o06_closed_loop_buck.cir": {("bootstrap-capacitor-small", "c_bst", "error")},
 }
 CLEAN = [
     "o01_sync_buck_ammeters.cir",
     "o02_motor_leg_shunts.cir",
     "o04_pump_loadswitch.cir",
-    "o06_closed_loop_buck.cir",
     "o07_audio_follower_stage.cir",
     "o10_hbridge_leg_held_off.cir",
     "o12_behavioural_gate_drive.cir",

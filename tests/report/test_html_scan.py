@@ -3,9 +3,9 @@ in the HTML report, rendered for real in headless Chromium where a browser decid
 
 References:
 - examples/README.md: which example has which planted mistake, and which are clean.
-- The hold time of the load-switch example's dc-hold finding, 656 µs (the finding's own
-  value, computed by physics.bootstrap.hold_time_linear): the plot must cross V_boot,min
-  there, since it draws the same law.
+- The hold time of the load-switch example's dc-hold finding (the finding's own value, at
+  its worst corner, computed by physics.bootstrap.hold_time_linear): the plot must cross
+  V_boot,min there, since it draws the same law.
 - Chromium (Debian package) as an independent HTML/CSS/JS engine.
 """
 
@@ -27,6 +27,7 @@ from drivelint.checks.base import Waiver
 from drivelint.checks.runner import CheckResult
 from drivelint.cli import main
 from drivelint.diagnostics import Span
+from drivelint.netlist.values import format_si
 from drivelint.pipeline import check_path, check_text
 from drivelint.report.formats import ReportOptions
 from drivelint.report.html import boot_droop, format_html, stage_svg
@@ -180,6 +181,7 @@ def test_report_file_follows_the_umask(tmp_path: Path) -> None:
 
 def _bench_folder(tmp_path: Path, result: CheckResult) -> Path:
     """A testbench folder in the format `drivelint testbench` writes, with hostile parts."""
+    hold = next(f for f in result.findings if f.rule == "dc-hold").values["hold_time"].value
     folder = tmp_path / "tb"
     (folder / "loadswitch").mkdir(parents=True)
     deck = folder / "loadswitch" / "dc-hold__ven.cir"
@@ -207,8 +209,8 @@ def _bench_folder(tmp_path: Path, result: CheckResult) -> Path:
             "deck": "loadswitch/dc-hold__ven.cir",
             # as the testbench command prints it, with the folder in front
             "fixed_deck": "tb/loadswitch/dc-hold__ven.fixed.cir",
-            "claims": {"hold_time": 656e-6, "i_drain": 868e-6},
-            "measured": {"hold_time": {"measured": 640e-6, "status": "confirmed"}},
+            "claims": {"hold_time": hold, "i_drain": 868e-6},
+            "measured": {"hold_time": {"measured": 0.98 * hold, "status": "confirmed"}},
             "waveform": "loadswitch/dc-hold__ven.wave.json",
         },
         {
@@ -241,9 +243,10 @@ def test_testbench_links_decks_and_draws_the_simulated_waveform(
     # Links relative to the report file, into the folder only.
     assert 'href="../tb/loadswitch/dc-hold__ven.cir"' in held
     assert 'href="../tb/loadswitch/dc-hold__ven.fixed.cir"' in held
-    assert "640 us" in held and "0.98×" in held and "confirmed" in held
+    hold = next(f for f in result.findings if f.rule == "dc-hold").values["hold_time"].value
+    assert format_si(0.98 * hold, "s") in held and "0.98×" in held and "confirmed" in held
     assert '<svg class="plot sim"' in held and '<svg class="plot"' in held
-    assert "claimed 656 us" in held
+    assert f"claimed {format_si(hold, 's')}" in held
     over = card(html, next(f for f in result.findings if f.rule == "gate-overvoltage").message)
     assert "outside.cir" not in html and "/etc/passwd" not in html
     assert "deck not linked" in over and "fixed deck not linked" in over

@@ -14,6 +14,7 @@ numbers, so that it flips when the physics is corrected.
 
 from __future__ import annotations
 
+import json
 import re
 from pathlib import Path
 
@@ -42,39 +43,56 @@ def _id(finding: Finding) -> str:
 # Claims the simulation does not confirm because of what the rule's physics leaves out.
 # Each deck was checked to run at the rule's own operating point first (see the reasons).
 PHYSICS_GAPS: dict[tuple[str, str, str, str], str] = {
-    ("tool36_leg_totem_pole", "bootstrap-capacitor-small", "c1", "droop_per_cycle"): (
-        "bootstrap-capacitor-small droop_per_cycle: claimed 11.2 V, measured 5.6 V — physics "
-        "gap: Q/C is linear beyond its range; 10 nF shares its charge with the gate, which "
-        "stops at ~6.6 V instead of taking its 95 nC"
-    ),
     ("tool36_leg_totem_pole", "bootstrap-capacitor-small", "c1", "charge_per_cycle"): (
-        "bootstrap-capacitor-small charge_per_cycle: claimed 112 nC, measured 57 nC — physics "
-        "gap: the gate takes only what charge sharing with 10 nF leaves it"
+        "bootstrap-capacitor-small charge_per_cycle: claimed 140 nC, measured 49.1 nC — "
+        "physics gap: the budget is the charge the gate would take at the full 11 V drive; "
+        "7.65 nF (10 nF at its low corner) shares its charge with the gate, which stops at "
+        "~5 V and takes what is left (the droop, computed with that sharing, is confirmed: "
+        "6.3 V against 6.43 V)"
     ),
     ("buck12v_5v_400k_sync", "bootstrap-diode-slow", "d_bst", "recovery_charge"): (
-        "bootstrap-diode-slow recovery_charge: claimed 24 nC, measured 128 nC — physics gap: "
-        "the diode carries amps in the dead time and recovers when the low side turns on "
-        "(then conducts backwards for ~1.4 us), not at the mean recharge current"
+        "bootstrap-diode-slow recovery_charge: claimed 72.5 nC, measured 112 nC — physics "
+        "gap: the rectifier carries amps in the dead time and recovers when the low side "
+        "turns on (then conducts backwards for ~1.4 us), more than TT times the current the "
+        "rule takes as the recharge ends"
     ),
     ("loadswitch24v_dc_enable", "dc-hold", "ven", "hold_time"): (
-        "dc-hold hold_time: claimed 499 us, measured 773 us — physics gap: the boot supply "
-        "rests at 12.0 V (no current, no diode drop) not 11.73 V, and the aux rail supplies "
-        "the gate charge until the source lifts"
+        "dc-hold hold_time: claimed 74.6 us, measured 226 us — physics gap: at the worst "
+        "corner C·ΔV_allowed (360 nF × 1.24 V) is only 15 % above the gate's 388 nC (most of "
+        "it C_SLEW's), and in ngspice the aux rail supplies part of that charge through the "
+        "boot diode while the source is still low: the same ~0.1 uC the nominal deck shows "
+        "(656 us claimed against 773 us there) is three times the short hold time here"
     ),
     ("mower48v_hbridge_wrapped_fets", "bootstrap-no-refresh", "vhia", "sustained_boot_voltage"): (
-        "bootstrap-no-refresh sustained_boot_voltage: claimed 5.18 V, measured 7.06 V "
-        "(unchanged from 110 to 300 cycles) — physics gap: the drains are taken at the full "
-        "boot voltage, but they fall with it"
+        "bootstrap-no-refresh sustained_boot_voltage: claimed 335 mV, measured 6.49 V — "
+        "physics gap: the rule refreshes only in the low side's 190 ns on-time; in ngspice "
+        "the motor current holds the node a diode drop below ground through the dead times "
+        "too, and the charge each cycle takes at low boot voltages is less than the linear "
+        "slope gives"
     ),
     ("mower48v_hbridge_wrapped_fets", "bootstrap-no-refresh", "vhia", "sustained_boot_peak"): (
-        "bootstrap-no-refresh sustained_boot_peak: claimed 5.42 V, measured 7.18 V — physics "
-        "gap: drains at the full boot voltage"
+        "bootstrap-no-refresh sustained_boot_peak: claimed 586 mV, measured 6.66 V — physics "
+        "gap: the refresh window, as for the valley"
     ),
     ("mower48v_hbridge_wrapped_fets", "bootstrap-no-refresh", "vhia", "delta_v_per_cycle"): (
-        "bootstrap-no-refresh delta_v_per_cycle: claimed 235 mV, measured 118 mV — physics "
-        "gap: gate charge and drains at 7 V are about half those at 11.55 V"
+        "bootstrap-no-refresh delta_v_per_cycle: claimed 508 mV, measured 173 mV — physics "
+        "gap: Q_cycle/C is taken at V_target (11 V); at the 6.5 V ngspice settles at, the "
+        "gate charge and the resistive drains are about half"
     ),
 }
+# Fixed decks that do not remove the finding in drivelint because of the rule's physics
+# (none at present: the corner decks are judged with as_corner = 1, so the suggestion's
+# own V_F shift is within what the nominal margin leaves).
+FIX_GAPS: dict[tuple[str, str, str], str] = {}
+
+
+def _fix_params() -> list[object]:
+    params = []
+    for finding in FINDINGS:
+        gap = FIX_GAPS.get((Path(finding.span.path).stem, finding.rule, finding.device))
+        marks = [pytest.mark.xfail(strict=True, reason=gap)] if gap else []
+        params.append(pytest.param(finding, marks=marks, id=_id(finding)))
+    return params
 
 
 def _claim_params() -> list[object]:
@@ -112,13 +130,14 @@ def _simulated(record: Record) -> None:
 
 
 def test_the_examples_have_findings_to_prove() -> None:
-    # The bundled examples plant seven mistakes (examples/README.md); each shows up.
+    # The bundled examples plant their mistakes (examples/README.md); each shows up.
     assert {f.rule for f in FINDINGS} == {
         "bootstrap-capacitor-small",
         "bootstrap-diode-slow",
         "bootstrap-diode-voltage",
         "bootstrap-no-refresh",
         "dc-hold",
+        "gate-headroom",
         "gate-overvoltage",
     }
 
@@ -173,7 +192,7 @@ def test_every_card_prints_and_the_failure_shows(built: Outcome, finding: Findin
     assert record.deck.limits and record.deck.limits_hold() is False
 
 
-@pytest.mark.parametrize("finding", FINDINGS, ids=_id)
+@pytest.mark.parametrize("finding", _fix_params())
 def test_fixed_deck_removes_the_finding(built: Outcome, finding: Finding) -> None:
     record = _record(built, finding)
     if record.fixed is None:
@@ -201,7 +220,8 @@ def test_deck_reproduces_the_finding_in_drivelint(built: Outcome, finding: Findi
     again = [f for f in result.findings if (f.rule, f.device) == (finding.rule, finding.device)]
     assert len(again) == 1
     for claim in record.deck.claims:
-        assert again[0].values[claim.key].value == pytest.approx(claim.value, rel=1e-3)
+        # 1 %: a rewritten command's dead time moves the dead-time boost by tens of mV
+        assert again[0].values[claim.key].value == pytest.approx(claim.value, rel=1e-2)
 
 
 def test_decks_are_the_same_bytes_when_written_again(built: Outcome, tmp_path: Path) -> None:
@@ -209,8 +229,38 @@ def test_decks_are_the_same_bytes_when_written_again(built: Outcome, tmp_path: P
     again = build(NETLISTS, tmp_path)
 
     def files(root: Path) -> dict[str, bytes]:
+        # the decks and their parts (the index and waveform files hold what a run measured;
+        # their own determinism is tested on a run of its own)
         return {
-            str(p.relative_to(root)): p.read_bytes() for p in sorted(root.rglob("*")) if p.is_file()
+            str(p.relative_to(root)): p.read_bytes()
+            for p in sorted(root.rglob("*"))
+            if p.is_file() and p.suffix in (".cir", ".toml")
         }
 
     assert again.records and files(first) == files(tmp_path)
+
+
+@pytest.mark.parametrize("finding", FINDINGS, ids=_id)
+def test_every_run_deck_has_its_waveform(built: Outcome, finding: Finding) -> None:
+    record = _record(built, finding)
+    _simulated(record)
+    assert record.deck is not None and record.waveform is not None, record.waveform_reason
+    root = record.deck.path.parents[1]
+    payload = json.loads((root / record.waveform).read_text(encoding="utf-8"))
+    assert set(payload) == {"time", "series", "units", "claim"}
+    assert payload["claim"] == record.deck.claims[0].key
+    assert set(payload["units"]) == set(payload["series"])
+    assert 2 <= len(payload["time"]) <= 2000
+    assert json.loads((root / "testbench.json").read_text(encoding="utf-8")) == [
+        r.to_json() for r in built.records
+    ]
+
+
+@pytest.mark.parametrize(
+    "finding", [f for f in FINDINGS if re.search(r"Zener of \d+ V", f.fix)], ids=_id
+)
+def test_a_fixed_zener_is_the_one_the_finding_names(built: Outcome, finding: Finding) -> None:
+    record = _record(built, finding)
+    named = re.search(r"Zener of (\d+) V", finding.fix)
+    assert named is not None and record.fix is not None
+    assert f"a {named.group(1)} V Zener" in record.fix

@@ -82,14 +82,21 @@ def test_only_the_output_folder_is_written(tmp_path: Path) -> None:
     assert _tree(project) == before
     written = {p.relative_to(tmp_path) for p in tmp_path.rglob("*") if p.is_file()}
     assert all(p.parts[0] in ("project", "out") for p in written)
-    # in DIR: the decks and the parts they are checked with, nothing ngspice left behind
+    # in DIR: the decks, the parts they are checked with, the index and (with --run) the
+    # waveform files; nothing ngspice left behind (its raw file goes to a private
+    # temporary folder that is removed)
     names = sorted(p.name for p in (tmp_path / "out").rglob("*") if p.is_file())
-    assert names == [
-        "dc-hold__ven.cir",
-        "gate-overvoltage__q4.cir",
-        "gate-overvoltage__q4.fixed.cir",
-        "parts.toml",
-    ]
+    waves = ["dc-hold__ven.wave.json", "gate-overvoltage__q4.wave.json"] if NGSPICE else []
+    assert names == sorted(
+        [
+            "dc-hold__ven.cir",
+            "gate-overvoltage__q4.cir",
+            "gate-overvoltage__q4.fixed.cir",
+            "parts.toml",
+            "testbench.json",
+            *waves,
+        ]
+    )
 
 
 def test_netlists_with_one_stem_get_folders_of_their_own(tmp_path: Path) -> None:
