@@ -504,6 +504,20 @@ def _decks_for(
         write_atomically(options.output, folder / "parts.toml", parts)
 
 
+def _written(path: Path, bench: Bench, traces: tuple[Trace, ...] = ()) -> WrittenDeck:
+    """The record of a deck written from ``bench`` (the fixed deck draws no waveform)."""
+    return WrittenDeck(
+        path,
+        bench.claims,
+        bench.limits,
+        tuple(c.name for c in bench.cards),
+        corner=bench.corner,
+        corner_side=bench.corner_side,
+        corner_values=dict(bench.corner_values),
+        traces=traces,
+    )
+
+
 def _build(
     ctx: BenchContext,
     record: Record,
@@ -570,28 +584,11 @@ def _build(
         record.reason = f"the design cannot be edited: {exc}"
         return
     write_atomically(options.output, deck_path, text)
-    record.deck = WrittenDeck(
-        deck_path,
-        bench.claims,
-        bench.limits,
-        tuple(c.name for c in bench.cards),
-        corner=bench.corner,
-        corner_side=bench.corner_side,
-        corner_values=dict(bench.corner_values),
-        traces=bench.traces,
-    )
+    record.deck = _written(deck_path, bench, traces=bench.traces)
     if fixed_text is not None and isinstance(fix, Fix) and isinstance(fixed_bench, Bench):
         write_atomically(options.output, fixed_path, fixed_text)
         record.fix = fix.description
-        record.fixed = WrittenDeck(
-            fixed_path,
-            fixed_bench.claims,
-            fixed_bench.limits,
-            tuple(c.name for c in fixed_bench.cards),
-            corner=fixed_bench.corner,
-            corner_side=fixed_bench.corner_side,
-            corner_values=dict(fixed_bench.corner_values),
-        )
+        record.fixed = _written(fixed_path, fixed_bench)
 
 
 def _run_all(outcome: Outcome, options: BenchOptions) -> None:
