@@ -524,7 +524,10 @@ class StageFacts:
                 return True
             if device.kind == "resistor" and device.value is not None:
                 far = next((n for n in device.nets if n != stage.source), None)
-                if far and any(d.kind == "inductor" for d in self.by_net.get(far, ())):
+                # a resistor to ground or a rail is a load, not a lead to an inductor
+                if not far or far == GROUND or far in self.circuit.rails:
+                    continue
+                if any(d.kind == "inductor" for d in self.by_net.get(far, ())):
                     return True
         return False
 

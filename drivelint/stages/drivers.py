@@ -57,8 +57,11 @@ def find_drivers(circuit: Circuit, parts: PartsLibrary) -> dict[str, DriverInfo]
         pins = {role: nets[port] for port, role in roles.items()}
         drivers[instance.name] = DriverInfo(instance.name, instance.subckt, pins, origin)
     # An instance inside a driver (a driver built from sub-blocks) is part of that driver.
-    return {
-        name: info
-        for name, info in drivers.items()
-        if not any(name.startswith(other + ".") for other in drivers if other != name)
-    }
+    return {name: info for name, info in drivers.items() if not _inside_another(name, drivers)}
+
+
+def _inside_another(name: str, drivers: Mapping[str, object]) -> bool:
+    """True when an enclosing instance of ``name`` (``x1`` of ``x1.xu``) is a driver too:
+    a lookup of each enclosing name, not a scan of every driver."""
+    parts = name.split(".")
+    return any(".".join(parts[:depth]) in drivers for depth in range(1, len(parts)))

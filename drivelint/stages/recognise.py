@@ -113,6 +113,15 @@ class _View:
         for info in self.drivers.values():
             for role, net in info.pins.items():
                 self._terminals.setdefault(net, []).append((info.device, role))
+        # Driver outputs by net, in the drivers' order (high before low within a driver):
+        # a switch's driver is looked up from the nets near its gate, never searched for
+        # across every driver of the circuit.
+        self.driver_outputs: dict[str, list[tuple[int, int, DriverInfo, str]]] = {}
+        for order, info in enumerate(self.drivers.values()):
+            for rank, role in enumerate(("high_out", "low_out")):
+                out_net = info.pins.get(role)
+                if out_net is not None:
+                    self.driver_outputs.setdefault(out_net, []).append((order, rank, info, role))
         self.coupled_inductors = frozenset(
             name for d in self.devices.values() if d.kind == "coupling" for name in d.controls
         )
@@ -323,24 +332,33 @@ class _StageBuilder:
 
     def driver(self) -> tuple[DriverInfo, str] | None:
         """The driver IC whose high (or low) output reaches this gate."""
-        for info in self.view.drivers.values():
-            for out_role in ("high_out", "low_out"):
-                out = info.pins.get(out_role)
-                if out is None:
-                    continue
-                if out == self.gate or self.through_series(self.gate, out):
-                    return info, out_role
-        return None
+        return self.driver_output(self.gate, ("high_out", "low_out"))
 
-    def through_series(self, start: str, goal: str, limit: int = 2) -> bool:
-        """True when ``goal`` is reached from ``start`` through series resistors or diodes."""
+    def driver_output(self, gate: str, roles: tuple[str, ...]) -> tuple[DriverInfo, str] | None:
+        """The first driver (in the drivers' order) with an output of ``roles`` on ``gate``
+        or a net one or two series resistors or diodes away: a lookup in the view's index
+        of driver outputs for each net near the gate."""
+        found = [
+            entry
+            for net in self.series_reach(gate)
+            for entry in self.view.driver_outputs.get(net, ())
+            if entry[3] in roles
+        ]
+        if not found:
+            return None
+        _, _, info, role = min(found, key=lambda entry: (entry[0], entry[1]))
+        return info, role
+
+    def series_reach(self, start: str, limit: int = 2) -> set[str]:
+        """The nets reached from ``start`` through up to ``limit`` series resistors or
+        diodes (never through the switch's source), ``start`` included."""
         frontier = [(start, 0)]
         seen = {start}
         while frontier:
             net, steps = frontier.pop()
-            if net == goal:
-                return True
-            if steps >= limit:
+            # Ground and the rails are where series paths end: a resistor to ground is a
+            # pull-down, not a way to a driver output (and every device meets there).
+            if steps >= limit or (net != start and (net == GROUND or self.view.is_rail(net))):
                 continue
             for name, _ in self.view.at(net):
                 device = self.view.device(name)
@@ -350,7 +368,7 @@ class _StageBuilder:
                 if far is not None and far not in seen and far != self.source:
                     seen.add(far)
                     frontier.append((far, steps + 1))
-        return False
+        return seen
 
     def boot_candidates(self) -> list[tuple[str, str]]:
         """(boot net, device) for capacitors and sources between the switch node and a net."""
@@ -874,14 +892,14 @@ class _StageBuilder:
         gate = device.net("g")
         if gate is None:
             return None
-        for info in self.view.drivers.values():
-            out = info.pins.get("low_out")
-            if out is not None and (out == gate or self.through_series(gate, out)):
-                net = info.pins.get("low_in")
-                if net is None:
-                    return None
-                traced = self.trace_source(net, inverting=False, path=[info.device])
-                return traced if traced.waveform is not None else None
+        found = self.driver_output(gate, ("low_out",))
+        if found is not None:
+            info = found[0]
+            net = info.pins.get("low_in")
+            if net is None:
+                return None
+            traced = self.trace_source(net, inverting=False, path=[info.device])
+            return traced if traced.waveform is not None else None
         traced = self.trace_source(gate, inverting=False, path=[])
         return traced if traced.waveform is not None else None
 
