@@ -1,3 +1,3 @@
 """drivelint: checks the floating gate drives of switching power stages in SPICE netlists."""
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
