@@ -109,7 +109,7 @@ def test_tagged_form_as_the_readme_writes_it(tmp_path: Path, head: str) -> None:
     mirror = tmp_path / "mirror"
     _git(tmp_path, "clone", "-q", str(ROOT), str(mirror))
     _git(mirror, "checkout", "-q", head)
-    _git(mirror, "tag", rev.group(1))  # a tag in this clone only, as a release would have
+    _git(mirror, "tag", "-f", rev.group(1))  # at the checkout under test (a release tag may exist)
     config = re.sub(r"repo: \S+", f"repo: {mirror}", tagged, count=1)
     repo, env = designs_repo(tmp_path, config)
     refuses_then_passes(repo, env)
