@@ -1052,6 +1052,22 @@ class StageFacts:
         how = f"computed: capacitors on the gate ({', '.join(names)})" if names else "none"
         return Value(total, "C", how)
 
+    def gate_charge_at(self, drive: float) -> Value | None:
+        """The charge the gate takes at a drive level ``drive`` (switch at the top of its
+        spread, plus capacitors on the gate): what the drive moves at each edge."""
+        own = self._qg_at(drive)
+        if own is None:
+            return None
+        external, names = self._external_at(drive)
+        if not external:
+            return own
+        return Value(
+            own.value + external,
+            "C",
+            f"{own.origin}; plus {format_si(external, 'C')} in capacitors on the gate "
+            f"({', '.join(names)})",
+        )
+
     def q_cycle_at(self, drive: float) -> float | None:
         """The charge per on-time with the supply at ``drive``: gate, level shifter, drains
         (which follow the boot voltage) and recovery. None when the gate charge is unknown."""

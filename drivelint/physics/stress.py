@@ -150,3 +150,15 @@ def junction_temperature_limit(
     cap = _coerce(rule.cap, rule.cap, "K", t_max)
     margin = _coerce(rule.margin, rule.margin, "K", t_max)
     return min(cap, t_max - margin)
+
+
+def off_state_voltage(v_high: float, v_low: float, ringing: Ratio) -> float:
+    """The voltage a switch of a leg blocks while off, with the allowance for ringing:
+    (V_high − V_low)·(1 + k_ring) [V].
+
+    v_high: the rail the leg switches to, at its highest [V]; v_low: the level the switch
+    node is pulled to by the other switch [V]; ringing: switch-node overshoot as a fraction
+    of the swing (common practice: 10–20 % for a compact layout with the bus decoupled at
+    the leg).
+    """
+    return (v_high - v_low) * (1.0 + ringing)

@@ -14,6 +14,7 @@ from drivelint.physics._units import (
     Volts,
     Watts,
     _coerce,
+    _ratio,
 )
 
 
@@ -74,3 +75,27 @@ def junction_temperature(t_ambient: Kelvin, p: Watts, r_th_ja: KelvinPerWatt) ->
     # offset unit.
     t_a = _coerce(t_ambient, t_ambient, "K", t_ambient)
     return t_a + p * r_th_ja
+
+
+def gate_drive_power(q_g: Coulombs, v_drive: Volts, f: Hertz) -> Watts:
+    """Power the gate drive dissipates charging and discharging the gate: P_G = Q_G·V_drv·f.
+
+    The energy Q_G·V_drv drawn from the drive supply each cycle ends up as heat in the
+    resistances of the charge and discharge paths, whatever the gate's C(V) (gate-driver
+    application notes, e.g. L. Balogh, "Fundamentals of MOSFET and IGBT Gate Driver
+    Circuits", Texas Instruments SLUA618, gate drive power — from memory).
+    q_g: total gate charge at the drive level [C]; v_drive: drive swing [V]; f: switching
+    frequency [Hz].
+    """
+    return q_g * v_drive * f
+
+
+def resistor_share(p_edge: Watts, r: Ohms, r_path: Ohms) -> Watts:
+    """The part of one edge's gate-drive loss a resistor in that path dissipates:
+    P_R = P_edge·R/R_path, the path's resistances carrying the same current in series.
+
+    p_edge: the loss of one edge, ½·Q_G·V_drv·f for each of turn-on and turn-off (the same
+    application notes) [W]; r: the resistor [Ohm]; r_path: every resistance of the path,
+    the driver's output and the switch's internal gate resistance included [Ohm].
+    """
+    return p_edge * _ratio(r, r_path)

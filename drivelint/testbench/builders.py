@@ -21,7 +21,8 @@ from dataclasses import replace
 
 from drivelint.checks.base import Finding
 from drivelint.checks.corners import HOLD, STRESS
-from drivelint.circuit.model import Device
+from drivelint.checks.stress import finding_kind as stress_kind
+from drivelint.circuit.model import GROUND, Device
 from drivelint.diagnostics import Span
 from drivelint.netlist.statements import Word
 from drivelint.netlist.values import format_si
@@ -32,6 +33,7 @@ from drivelint.testbench.bench import (
     Bench,
     BenchContext,
     Declined,
+    Stimulus,
     analysis_step,
     boot_vector_nets,
     charge_time,
@@ -98,6 +100,9 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     ),
     "gate-overvoltage/clamp reversed": ("vgs_max_positive", "clamp_positive_level"),
     "gate-headroom": ("vgs_supply_on", "vgs_on_worst"),
+    "voltage-stress/switch": ("vds_off_steady",),
+    "voltage-stress/part": ("v_part",),
+    "voltage-stress/power": ("p_resistor",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
@@ -110,6 +115,9 @@ STRESS_KINDS = frozenset(
         "gate-overvoltage/output short",
         "gate-overvoltage/clamp below drive",
         "gate-overvoltage/clamp reversed",
+        "voltage-stress/switch",
+        "voltage-stress/part",
+        "voltage-stress/power",
     }
 )
 # Claims that are bounds rather than estimates (the finding says "up to").
@@ -425,6 +433,8 @@ def finding_kind(finding: Finding, stage: DriveStage) -> str:
     values = finding.values
     if finding.rule == "bootstrap-no-refresh" and "sustained_boot_voltage" not in values:
         return "bootstrap-no-refresh/no path"
+    if finding.rule == "voltage-stress":
+        return f"voltage-stress/{stress_kind(values)}"
     if finding.rule != "gate-overvoltage":
         return finding.rule
     return f"gate-overvoltage/{_gate_kind(finding, stage)}"
@@ -1165,6 +1175,175 @@ def gate_headroom(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+# ---------------------------------------------------------------- voltage-stress
+
+
+def _stress_limit(ctx: BenchContext, key: str, what: str, unit: str) -> tuple[Limit, ...]:
+    limit = ctx.value("derated_limit")
+    if limit is None:
+        return ()
+    return (Limit(key, limit, "<=", what, unit),)
+
+
+def _one_turn_on(ctx: BenchContext, why: str) -> tuple[float, float, float, Stimulus] | Declined:
+    """One turn-on from a charged boot supply, then the switch off with its partner on."""
+    start = charge_time(ctx)
+    end = start + ONE_SHOT_ON
+    stop = end + ONE_SHOT_ON
+    made = stimulus(ctx, Schedule.steps((start, True), (end, False)), why)
+    if isinstance(made, Declined):
+        return made
+    return start, end, stop, made
+
+
+def _switch_stress(ctx: BenchContext) -> Bench | Declined:
+    device = ctx.circuit.devices.get(ctx.finding.device)
+    ringing = ctx.value("ringing_margin") or 0.0
+    if device is None or device.net("d") is None or device.net("s") is None:
+        return Declined("the finding's switch cannot be found")
+    timed = _one_turn_on(
+        ctx,
+        "one turn-on, then the switch off with the leg's other side on (the two states "
+        "in which each switch blocks the bus)",
+    )
+    if isinstance(timed, Declined):
+        return timed
+    start, end, stop, made = timed
+    # the floating switch blocks the bus once it is off, its partner while it is on
+    own = device.name == ctx.stage.switch
+    t0, t1 = ((end + stop) / 2, stop) if own else ((start + end) / 2, end)
+    vds = difference(device.net("d") or "", device.net("s") or "")
+    cards = [
+        extreme(
+            "vds_off_steady",
+            "MAX",
+            vds,
+            t0,
+            t1,
+            f"{device.name}'s V_DS in the second half of its off-state (the edge has settled)",
+        ),
+        extreme(
+            "tb_vds_peak", "MAX", vds, start, stop, f"highest V_DS of {device.name}, edges included"
+        ),
+        expression(
+            "tb_vds_with_ringing",
+            f"vds_off_steady+{number(ringing)}",
+            f"the settled V_DS plus the rule's ringing allowance ({format_si(ringing, 'V')})",
+        ),
+    ]
+    return Bench(
+        edits=made.edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=_stress_limit(
+            ctx,
+            "tb_vds_with_ringing",
+            f"{device.name}'s V_DS, with the ringing allowance, stays within its derated rating",
+            "V",
+        ),
+        notes=made.notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def _part_stress(ctx: BenchContext) -> Bench | Declined:
+    device = ctx.circuit.devices.get(ctx.finding.device)
+    if device is None or len(device.nets) != 2:
+        return Declined("the finding's part cannot be found")
+    timed = _one_turn_on(ctx, "one turn-on from a fully charged boot supply")
+    if isinstance(timed, Declined):
+        return timed
+    start, end, stop, made = timed
+    # the part's nets in the order that makes the held voltage positive
+    stage = ctx.stage
+    high = next((n for n in device.nets if n in (stage.gate, stage.supply.boot_net)), None)
+    low = next((n for n in device.nets if n != high), None)
+    if high is None or low is None:
+        return Declined("the part is not across the boot supply or gate and source")
+    cards = [
+        extreme(
+            "v_part",
+            "MAX",
+            difference(high, low),
+            (start + end) / 2,
+            end,
+            f"voltage across {device.name} in the second half of the on-time",
+        )
+    ]
+    return Bench(
+        edits=made.edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=_stress_limit(
+            ctx, "v_part", f"{device.name} stays within its derated voltage rating", "V"
+        ),
+        notes=made.notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+POWER_CYCLES = 20
+
+
+def _power_stress(ctx: BenchContext) -> Bench | Declined:
+    device = ctx.circuit.devices.get(ctx.finding.device)
+    if device is None or device.kind != "resistor" or not device.value:
+        return Declined("the finding's resistor cannot be found")
+    conditions = periodic_conditions(ctx)
+    if conditions is None:
+        return Declined("the finding gives no switching frequency and duty to drive the stage at")
+    period, on_time = conditions
+    # a pulse train after the boot supply has charged (the design's own command may start
+    # with the switch on and the supply empty)
+    schedule = Schedule.periodic(period, on_time, charge_time(ctx))
+    made = stimulus(ctx, schedule, "switching at the rule's frequency and on-time")
+    if isinstance(made, Declined):
+        return made
+    edits, notes = made.edits, made.notes
+    first = _window(schedule, POWER_CYCLES - 4)
+    if isinstance(first, Declined):
+        return first
+    t0 = first[0]
+    stop = t0 + 4 * period
+    ohms = device.value / device.multiplier
+    a, b = (voltage(net) if net != GROUND else "0" for net in device.nets)
+    drop = f"({a}-{b})"
+    cards = [
+        average(
+            "p_resistor",
+            f"par('{drop}*{drop}/{number(ohms)}')",
+            t0,
+            stop,
+            f"average power in {device.name} over four periods after {POWER_CYCLES - 4} cycles",
+        )
+    ]
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, period / 200),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=_stress_limit(
+            ctx, "p_resistor", f"{device.name} stays within its derated power rating", "W"
+        ),
+        notes=notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def voltage_stress(ctx: BenchContext) -> Bench | Declined:
+    kind = stress_kind(ctx.finding.values)
+    if kind == "switch":
+        return _switch_stress(ctx)
+    if kind == "part":
+        return _part_stress(ctx)
+    return _power_stress(ctx)
+
+
 def traces_for(ctx: BenchContext, kind: str) -> tuple[Trace, ...]:
     """The series of the waveform file, the quantity the claims are about first: the boot
     supply for hold, refresh and headroom findings, V_GS for gate findings, the diode's
@@ -1235,6 +1414,7 @@ BUILDERS: Mapping[str, Builder] = {
     "dc-hold": dc_hold,
     "gate-overvoltage": gate_overvoltage,
     "gate-headroom": gate_headroom,
+    "voltage-stress": voltage_stress,
 }
 
 # Rules whose failure no simulation of the circuit can show, with the reason.

@@ -459,6 +459,63 @@ def _raised_isolated(
     )
 
 
+# What a voltage-stress finding rates, by its kind: the key of the new rating and its unit.
+_STRESS_RATINGS = {"switch": ("vds_max", "V"), "part": ("v_max", "V"), "power": ("p_max", "W")}
+_STRESS_APPLIED = {"switch": "vds_off", "part": "v_part", "power": "p_resistor"}
+_STRESS_BOUNDS = {"switch": "tb_vds_with_ringing", "part": "v_part", "power": "p_resistor"}
+
+
+def voltage_stress(ctx: BenchContext) -> Fix | Declined:
+    from drivelint.checks.stress import (
+        CAPACITOR_VOLTAGES,
+        RESISTOR_POWERS,
+        SWITCH_VOLTAGES,
+        finding_kind,
+        next_rating,
+    )
+
+    kind = finding_kind(ctx.finding.values)
+    key, unit = _STRESS_RATINGS[kind]
+    applied, derating = ctx.value(_STRESS_APPLIED[kind]), ctx.value("derating")
+    if applied is None or not derating:
+        return Declined("the finding gives no stress and derating")
+    element = _element(ctx, ctx.finding.device)
+    if isinstance(element, Declined):
+        return element
+    steps = {"switch": SWITCH_VOLTAGES, "power": RESISTOR_POWERS}.get(kind, CAPACITOR_VOLTAGES)
+    device = ctx.circuit.devices.get(ctx.finding.device)
+    usual = steps if kind != "part" or (device and device.kind == "capacitor") else ()
+    rating = next_rating(applied / derating, usual) or next_preferred(
+        applied / derating * (1 + 1e-6), RATING_SERIES
+    )
+    # Both switches of a leg block the same bus: one of the same part is replaced with it.
+    names = [ctx.finding.device]
+    if kind == "switch" and device is not None:
+        names += sorted(
+            name
+            for name in (ctx.stage.switch, *(r.devices[0] for r in ctx.stage.refresh if r.devices))
+            if name != device.name
+            and (other := ctx.circuit.devices.get(name)) is not None
+            and other.kind == "mosfet"
+            and other.model_name == device.model_name
+        )
+    directives: list[str] = []
+    for name in names:
+        found = _element(ctx, name)
+        if isinstance(found, Declined):
+            return found
+        directives += _part_directives(ctx, found, (key,), {key: rating})
+    also = f"; also {', '.join(names[1:])}, the same part in the leg" if names[1:] else ""
+    return Fix(
+        f"{ctx.finding.device}: a part rated {format_si(rating, unit)} (the next usual rating "
+        f"above {format_si(applied, unit)} / {derating:g}){also}; the stress itself is "
+        "unchanged" + _shared(ctx, element),
+        {},
+        tuple(dict.fromkeys(directives)),
+        bounds={_STRESS_BOUNDS[kind]: rating * derating},
+    )
+
+
 APPLIERS: Mapping[str, Applier] = {
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
@@ -467,4 +524,5 @@ APPLIERS: Mapping[str, Applier] = {
     "dc-hold": dc_hold,
     "gate-overvoltage": gate_overvoltage,
     "gate-headroom": gate_headroom,
+    "voltage-stress": voltage_stress,
 }

@@ -15,6 +15,7 @@ from drivelint.physics.stress import (
     derated_limit,
     derating_factor,
     junction_temperature_limit,
+    off_state_voltage,
     stress_ratio,
 )
 
@@ -94,3 +95,13 @@ def test_nasa_junction_temperature_rule(ureg: pint.UnitRegistry) -> None:
     assert junction_temperature_limit(448.15) == pytest.approx(398.15)  # 175 °C → 125 °C
     q = junction_temperature_limit(ureg.Quantity(150, "degC"))
     assert q.check("[temperature]") and q.to("degC").magnitude == pytest.approx(110.0)
+
+
+def test_off_state_voltage_adds_the_ringing_to_the_swing(ureg: pint.UnitRegistry) -> None:
+    u = ureg
+    # the bus less the node's low level, plus k_ring of it (arithmetic of the definition)
+    assert off_state_voltage(56.0, 0.0, 0.1) == pytest.approx(61.6)
+    # a split rail: the whole rail-to-rail swing
+    assert off_state_voltage(45.0, -45.0, 0.1) == pytest.approx(99.0)
+    got = off_state_voltage(56 * u.V, 0 * u.V, 0.1)
+    assert got.to("V").magnitude == pytest.approx(61.6)

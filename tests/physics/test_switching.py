@@ -13,7 +13,9 @@ from drivelint.physics.switching import (
     conduction_loss,
     gate_current_turn_off,
     gate_current_turn_on,
+    gate_drive_power,
     junction_temperature,
+    resistor_share,
     switching_loss,
     transition_time,
 )
@@ -58,3 +60,21 @@ def test_junction_temperature(ureg: pint.UnitRegistry) -> None:
     t = junction_temperature(u.Quantity(25, "degC"), 2.9 * u.W, 40 * u.K / u.W)
     assert t.check("[temperature]") and t.to("degC").magnitude == pytest.approx(141.0)
     assert junction_temperature(298.15, 2.9, 40.0) == pytest.approx(414.15)
+
+
+def test_gate_drive_power_is_twice_the_rc_charging_loss(ureg: pint.UnitRegistry) -> None:
+    """Charging a linear capacitor C to V through any resistance loses ½·C·V² in it, and
+    discharging loses the other ½·C·V² (textbook RC energy relation): with Q = C·V the two
+    edges together are Q·V per cycle, half in each edge's path."""
+    u = ureg
+    c, v, f = 5e-9, 12.0, 100e3
+    p_gate = gate_drive_power(c * v, v, f)
+    assert p_gate == pytest.approx(c * v * v * f)
+    per_edge = 0.5 * c * v * v * f
+    assert resistor_share(p_gate / 2, 4.7, 4.7) == pytest.approx(per_edge)
+    # in series with the driver's 2 Ω the resistor takes its proportion of the edge
+    assert resistor_share(p_gate / 2, 4.7, 6.7) == pytest.approx(per_edge * 4.7 / 6.7)
+    got = gate_drive_power(60 * u.nC, 12 * u.V, 100 * u.kHz)
+    assert got.to("W").magnitude == pytest.approx(0.072)
+    share = resistor_share(36 * u.mW, 4.7 * u.ohm, 6.7 * u.ohm)
+    assert share.to("mW").magnitude == pytest.approx(36 * 4.7 / 6.7)

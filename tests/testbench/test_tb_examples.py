@@ -138,6 +138,7 @@ def test_the_examples_have_findings_to_prove() -> None:
         "bootstrap-no-refresh",
         "dc-hold",
         "gate-headroom",
+        "voltage-stress",
         "gate-overvoltage",
     }
 

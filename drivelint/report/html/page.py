@@ -58,6 +58,11 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("vgs_max_negative", "vgs_limit_negative"),
     ),
     "gate-headroom": (("vgs_on_worst", "vgs_needed"),),
+    "voltage-stress": (
+        ("vds_off", "derated_limit"),
+        ("v_part", "derated_limit"),
+        ("p_resistor", "derated_limit"),
+    ),
 }
 
 
