@@ -23,7 +23,7 @@ from drivelint.netlist.values import format_si
 from drivelint.physics import bootstrap as boot_physics
 from drivelint.physics import gate as gate_physics
 from drivelint.physics import stress
-from drivelint.physics.preferred import next_preferred, preferred_values
+from drivelint.physics.preferred import next_preferred, preferred_at_most
 from drivelint.ratings.values import Value, computed
 from drivelint.stages.model import Clamp, DriveStage, GatePath
 from drivelint.stages.recognise import ZENER_MAX_BV
@@ -486,16 +486,8 @@ def _pulldowns(
 
 
 def _preferred_at_most(value: float, series: str = ZENER_SERIES) -> float | None:
-    """Largest value of ``series`` that is ≤ ``value`` (None below 1 mV)."""
-    if not (value > 0 and math.isfinite(value)):
-        return None
-    decade = math.floor(math.log10(value))
-    for power in (decade + 1, decade, decade - 1):
-        fits = [float(f"{step!r}e{power}") for step in preferred_values(series)]
-        fits = [v for v in fits if v <= value * (1 + 1e-9)]
-        if fits:
-            return max(fits)
-    return None
+    """Largest value of ``series`` that is ≤ ``value``."""
+    return preferred_at_most(value, series)
 
 
 def _zener_between(drive: float | None, limit: float, tolerance: float) -> float | None:

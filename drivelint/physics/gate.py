@@ -235,3 +235,43 @@ def _magnitude(value: float) -> float:
     if hasattr(value, "units") and hasattr(value, "to"):
         return float(value.to("dimensionless").magnitude)
     return float(value)
+
+
+def bjt_sink_capability(
+    v_drive: Volts, v_be: Volts, r_base: Ohms, r_emitter: Ohms, beta: Ratio
+) -> Amps:
+    """The largest collector current a bipolar switch driven through a base resistor can
+    sink in its active region: I_C = β·(V_drive − V_BE)/(R_B + (β + 1)·R_E).
+
+    Textbook common-emitter bias with emitter degeneration (e.g. Sedra & Smith,
+    Microelectronic Circuits, the BJT DC bias chapter): the base loop
+    V_drive = I_B·R_B + V_BE + (β + 1)·I_B·R_E. Asked to sink more, the transistor
+    saturates; asked for less than this, it cannot pull its collector down.
+    v_drive: base drive level [V]; v_be: base–emitter drop [V]; r_base, r_emitter [Ohm];
+    beta: forward current gain [1].
+    """
+    if v_drive <= v_be:
+        return 0.0 * (v_drive - v_be) / r_base  # zero, as a current (pint keeps the unit)
+    return beta * (v_drive - v_be) / (r_base + (beta + 1.0) * r_emitter)
+
+
+def node_against_pull_up(v_top: Volts, i_sink: Amps, r_pull_up: Ohms, v_floor: Volts) -> Volts:
+    """Where a node pulled up to ``v_top`` through R_pu settles while a transistor sinks at
+    most ``i_sink`` from it: max(V_top − I_sink·R_pu, V_floor) (Ohm's law; V_floor is the
+    lowest the transistor can take it, its saturation level).
+
+    v_top: the pull-up's supply [V]; i_sink: the sink's capability [A]; r_pull_up [Ohm];
+    v_floor: the saturated transistor's collector level [V].
+    """
+    return max(v_top - i_sink * r_pull_up, v_floor)
+
+
+def base_resistor_for(
+    i_collector: Amps, v_drive: Volts, v_be: Volts, r_emitter: Ohms, beta: Ratio
+) -> Ohms:
+    """The base resistor that lets a bipolar switch sink ``i_collector`` in its active
+    region: R_B = β·(V_drive − V_BE)/I_C − (β + 1)·R_E, the bias relation of
+    :func:`bjt_sink_capability` solved for R_B (≤ 0: the emitter resistor alone caps the
+    current below ``i_collector``).
+    """
+    return beta * (v_drive - v_be) / i_collector - (beta + 1.0) * r_emitter

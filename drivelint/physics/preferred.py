@@ -64,6 +64,20 @@ def next_preferred(value: float, series: str = "E12") -> float:
     return _compose(table[0], decade + 1)
 
 
+def preferred_at_most(value: float, series: str = "E12") -> float | None:
+    """Largest value of ``series`` that is ≤ ``value``, in any decade (None for a value
+    that is not positive and finite): the rounding for a part that must not exceed it."""
+    if not (value > 0 and math.isfinite(value)):
+        return None
+    decade = math.floor(math.log10(value))
+    for power in (decade + 1, decade, decade - 1):
+        fits = [_compose(step, power) for step in preferred_values(series)]
+        fits = [v for v in fits if v <= value * (1 + _TOLERANCE)]
+        if fits:
+            return max(fits)
+    return None
+
+
 def _compose(step: float, decade: int) -> float:
     """``step × 10**decade`` as the float nearest the decimal value.
 

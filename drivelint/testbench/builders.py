@@ -21,6 +21,7 @@ from dataclasses import replace
 
 from drivelint.checks.base import Finding
 from drivelint.checks.corners import HOLD, STRESS
+from drivelint.checks.levelshift import finding_kind as shift_kind
 from drivelint.checks.stress import finding_kind as stress_kind
 from drivelint.circuit.model import GROUND, Device
 from drivelint.diagnostics import Span
@@ -103,6 +104,8 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "voltage-stress/switch": ("vds_off_steady",),
     "voltage-stress/part": ("v_part",),
     "voltage-stress/power": ("p_resistor",),
+    "level-shift-contention/blocking": ("shifter_voltage_steady",),
+    "level-shift-contention/contention": ("shifter_sink",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
@@ -118,6 +121,8 @@ STRESS_KINDS = frozenset(
         "voltage-stress/switch",
         "voltage-stress/part",
         "voltage-stress/power",
+        "level-shift-contention/blocking",
+        "level-shift-contention/contention",
     }
 )
 # Claims that are bounds rather than estimates (the finding says "up to").
@@ -435,6 +440,8 @@ def finding_kind(finding: Finding, stage: DriveStage) -> str:
         return "bootstrap-no-refresh/no path"
     if finding.rule == "voltage-stress":
         return f"voltage-stress/{stress_kind(values)}"
+    if finding.rule == "level-shift-contention":
+        return f"level-shift-contention/{shift_kind(values)}"
     if finding.rule != "gate-overvoltage":
         return finding.rule
     return f"gate-overvoltage/{_gate_kind(finding, stage)}"
@@ -1344,6 +1351,152 @@ def voltage_stress(ctx: BenchContext) -> Bench | Declined:
     return _power_stress(ctx)
 
 
+# ---------------------------------------------------------------- level-shift-contention
+
+SHIFT_CYCLES = 10
+
+
+def _shifter_blocking(ctx: BenchContext) -> Bench | Declined:
+    device = ctx.circuit.devices.get(ctx.finding.device)
+    pins = {"npn": ("c", "e"), "nmos": ("d", "s")}.get(device.model_type or "") if device else None
+    if device is None or pins is None:
+        return Declined("the finding's level shifter cannot be found")
+    collector, emitter = device.net(pins[0]), device.net(pins[1])
+    if collector is None or emitter is None:
+        return Declined("the level shifter's nets cannot be found")
+    timed = _one_turn_on(ctx, "one turn-on from a fully charged boot supply")
+    if isinstance(timed, Declined):
+        return timed
+    start, end, stop, made = timed
+    across = difference(collector, emitter)
+    ringing = ctx.value("ringing_margin") or 0.0
+    cards = [
+        extreme(
+            "shifter_voltage_steady",
+            "MAX",
+            across,
+            (start + end) / 2,
+            end,
+            f"{device.name}'s collector–emitter voltage in the second half of the on-time",
+        ),
+        expression(
+            "tb_shifter_with_ringing",
+            f"shifter_voltage_steady+{number(ringing)}",
+            f"the settled voltage plus the rule's ringing allowance ({format_si(ringing, 'V')})",
+        ),
+    ]
+    return Bench(
+        edits=made.edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=_stress_limit(
+            ctx,
+            "tb_shifter_with_ringing",
+            f"{device.name}'s voltage, with the ringing allowance, stays within its derated rating",
+            "V",
+        ),
+        notes=made.notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def _shifter_contention(ctx: BenchContext) -> Bench | Declined:
+    device = ctx.circuit.devices.get(ctx.finding.device)
+    if device is None or device.model_type != "npn":
+        return Declined("the finding's level shifter cannot be found")
+    found = _own_or_periodic(ctx, "the design's switching, the shifter pulling down each off-time")
+    if isinstance(found, Declined):
+        return found
+    schedule, edits, notes = found
+    conditions = periodic_conditions(ctx)
+    assert conditions is not None
+    period, on_time = conditions
+    window = _window(schedule, SHIFT_CYCLES)
+    if isinstance(window, Declined):
+        return window
+    # the shifter conducts in the off-time that follows the on-window
+    off_start, off_end = (
+        window[1] + (period - on_time) * 0.25,
+        window[1] + (period - on_time) * 0.75,
+    )
+    probe = _collector_ammeter(ctx, device)
+    if isinstance(probe, Declined):
+        return probe
+    current, ammeter = probe
+    edits = merge_edits(edits, ammeter)
+    vth = ctx.value("vth")
+    collector = device.net("c")
+    if vth is None or collector is None:
+        return Declined("the finding gives no threshold for the switch to stay below")
+    cards = [
+        average(
+            "shifter_sink",
+            current,
+            off_start,
+            off_end,
+            f"{device.name}'s collector current in the middle of the off-time (it sinks what "
+            "it can against the pull-up)",
+        ),
+        average(
+            "tb_node_low",
+            difference(collector, ctx.stage.source),
+            off_start,
+            off_end,
+            f"the node {device.name} pulls down, above {ctx.stage.switch}'s source, in the "
+            "middle of the off-time",
+        ),
+    ]
+    stop = off_end + period / 4
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, period / 200),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(
+            Limit(
+                "tb_node_low",
+                vth,
+                "<=",
+                f"{device.name} pulls the node below {ctx.stage.switch}'s threshold, so the "
+                "switch turns off",
+                "V",
+            ),
+        ),
+        notes=notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
+def _collector_ammeter(
+    ctx: BenchContext, device: Device
+) -> tuple[str, dict[Span, Edit]] | Declined:
+    """A 0 V source in series with the transistor's collector, and the vector of its
+    current (ngspice's .meas cannot read a device's @q[ic] in batch mode)."""
+    element = ctx.design.element_of(device.name)
+    first = element.fields[0] if element is not None and element.fields else None
+    if element is None or not isinstance(first, Word):
+        return Declined(f"{device.name}'s collector is not a plain node name")
+    local = device.name.rsplit(".", 1)[-1]
+    source, node = f"{SENSE_PREFIX}{local}", f"tb_{local}_c"
+    flat = f"{device.instance}.{source}" if device.instance else source
+    return source_current(flat), {
+        element.span: Edit(
+            fields=((first, node),),
+            after=(f"{source.upper()} {first.raw} {node} 0",),
+            note=f"a 0 V ammeter in series with {device.name}'s collector (probe only)",
+        )
+    }
+
+
+def level_shift(ctx: BenchContext) -> Bench | Declined:
+    if shift_kind(ctx.finding.values) == "blocking":
+        return _shifter_blocking(ctx)
+    return _shifter_contention(ctx)
+
+
 def traces_for(ctx: BenchContext, kind: str) -> tuple[Trace, ...]:
     """The series of the waveform file, the quantity the claims are about first: the boot
     supply for hold, refresh and headroom findings, V_GS for gate findings, the diode's
@@ -1415,6 +1568,7 @@ BUILDERS: Mapping[str, Builder] = {
     "gate-overvoltage": gate_overvoltage,
     "gate-headroom": gate_headroom,
     "voltage-stress": voltage_stress,
+    "level-shift-contention": level_shift,
 }
 
 # Rules whose failure no simulation of the circuit can show, with the reason.

@@ -22,7 +22,7 @@ from drivelint.physics.preferred import next_preferred, preferred_values
 from drivelint.ratings.values import Value
 from drivelint.testbench.bench import BenchContext, Declined, Fix, partner_dead_time
 from drivelint.testbench.builders import gate_kind
-from drivelint.testbench.corners import capacitance_text
+from drivelint.testbench.corners import capacitance_text, capacitor_field
 from drivelint.testbench.design import Edit, merge_edits
 from drivelint.testbench.edits import element as _element
 from drivelint.testbench.edits import model_copy
@@ -72,6 +72,23 @@ def _set_capacitance(ctx: BenchContext, name: str, farads: float, why: str) -> F
     return Fix(
         f"{name}: {format_si(old, 'F')} -> {format_si(farads, 'F')} ({why}){corner}"
         + _shared(ctx, element),
+        {element.span: Edit(fields=((value_field, text),), note=f"fix: {name} = {text}")},
+    )
+
+
+def _set_resistance(ctx: BenchContext, name: str, ohms: float, why: str) -> Fix | Declined:
+    """The resistor's value set to ``ohms`` (its written value, so that m= still divides)."""
+    device = ctx.circuit.devices.get(name)
+    element = _element(ctx, name)
+    if isinstance(element, Declined) or device is None or not device.value:
+        return Declined(f"resistor {name} cannot be found")
+    value_field = capacitor_field(element)
+    if value_field is None:
+        return Declined(f"{name}'s value is not written as a plain field")
+    old = device.value / device.multiplier
+    text = number(ohms * device.multiplier)
+    return Fix(
+        f"{name}: {format_si(old, 'Ω')} -> {format_si(ohms, 'Ω')} ({why})" + _shared(ctx, element),
         {element.span: Edit(fields=((value_field, text),), note=f"fix: {name} = {text}")},
     )
 
@@ -516,6 +533,41 @@ def voltage_stress(ctx: BenchContext) -> Fix | Declined:
     )
 
 
+def level_shift(ctx: BenchContext) -> Fix | Declined:
+    from drivelint.checks.levelshift import finding_kind
+
+    name = ctx.finding.device
+    element = _element(ctx, name)
+    if isinstance(element, Declined):
+        return element
+    if finding_kind(ctx.finding.values) == "blocking":
+        applied, derating = ctx.value("shifter_voltage"), ctx.value("derating")
+        device = ctx.circuit.devices.get(name)
+        if applied is None or not derating or device is None:
+            return Declined("the finding gives no voltage and derating")
+        key = "vceo_max" if device.model_type == "npn" else "vds_max"
+        rating = next_preferred(applied / derating * (1 + 1e-6), RATING_SERIES)
+        return Fix(
+            f"{name}: a transistor rated {format_si(rating, 'V')} (next {RATING_SERIES} value "
+            f"above {format_si(applied, 'V')} / {derating:g}); the voltage itself is unchanged"
+            + _shared(ctx, element),
+            {},
+            _part_directives(ctx, element, (key,), {key: rating}),
+            bounds={"tb_shifter_with_ringing": rating * derating},
+        )
+    from drivelint.checks.levelshift import base_resistor, pull_up_resistors
+
+    suggested = ctx.value("suggested_base_resistor")
+    resistor = base_resistor(ctx.stage, ctx.facts)
+    if suggested is not None and resistor is not None:
+        return _set_resistance(ctx, resistor, suggested, "the finding's suggested base resistor")
+    # the emitter resistor alone caps the sink: the finding's other fix, a weaker pull-up
+    pull_up, ups = ctx.value("suggested_pull_up"), pull_up_resistors(ctx.stage, ctx.facts)
+    if pull_up is None or len(ups) != 1:
+        return Declined("the finding suggests neither a base resistor nor a single pull-up")
+    return _set_resistance(ctx, ups[0], pull_up, "the finding's suggested pull-up")
+
+
 APPLIERS: Mapping[str, Applier] = {
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
@@ -525,4 +577,5 @@ APPLIERS: Mapping[str, Applier] = {
     "gate-overvoltage": gate_overvoltage,
     "gate-headroom": gate_headroom,
     "voltage-stress": voltage_stress,
+    "level-shift-contention": level_shift,
 }

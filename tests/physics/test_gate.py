@@ -11,11 +11,14 @@ import pytest
 
 from drivelint.physics.bootstrap import boot_rail_peak
 from drivelint.physics.gate import (
+    base_resistor_for,
+    bjt_sink_capability,
     gate_charge_at,
     gate_charge_estimate,
     level_shift_margin,
     level_shift_sink_current,
     negative_vgs_when_pulled_to_ground,
+    node_against_pull_up,
     pullup_current,
     worst_negative_vgs,
     worst_positive_vgs,
@@ -103,3 +106,30 @@ def test_level_shifter_currents(ureg: pint.UnitRegistry) -> None:
     assert level_shift_margin(0.020, 0.012) == pytest.approx(20 / 12)
     # A 470 Ω pull-up from 12 V (25.5 mA) beats the 20 mA shifter.
     assert level_shift_margin(0.020, pullup_current(12.0, 470.0)) < 1.0
+
+
+def test_bjt_sink_capability_emitter_degeneration(ureg: pint.UnitRegistry) -> None:
+    """The base loop V_drive = I_B·R_B + V_BE + (β+1)·I_B·R_E (Sedra & Smith, BJT DC
+    bias; from memory), I_C = β·I_B: solved by hand for 5 V through 2.2 k with 100 Ω
+    under the emitter and β = 120."""
+    u = ureg
+    i_b = (5.0 - 0.7) / (2200 + 121 * 100)
+    assert bjt_sink_capability(5.0, 0.7, 2200, 100, 120) == pytest.approx(120 * i_b)
+    # no emitter resistor: β·(V − V_BE)/R_B
+    assert bjt_sink_capability(5.0, 0.7, 47e3, 0.0, 100) == pytest.approx(100 * 4.3 / 47e3)
+    # below V_BE it sinks nothing
+    assert bjt_sink_capability(0.5, 0.7, 1e3, 0.0, 100) == 0.0
+    got = bjt_sink_capability(5 * u.V, 0.7 * u.V, 2.2 * u.kohm, 100 * u.ohm, 120)
+    assert got.to("mA").magnitude == pytest.approx(120 * i_b * 1e3)
+    # the same relation solved for R_B gives the resistor back
+    r_b = base_resistor_for(120 * i_b, 5.0, 0.7, 100.0, 120)
+    assert r_b == pytest.approx(2200)
+    r_q = base_resistor_for(20 * u.mA, 5 * u.V, 0.7 * u.V, 0 * u.ohm, 100)
+    assert r_q.to("ohm").magnitude == pytest.approx(100 * 4.3 / 0.02)
+
+
+def test_node_against_pull_up_is_ohms_law() -> None:
+    # 12 V through 330 Ω with 8.73 mA sunk: 12 − 2.88 V
+    assert node_against_pull_up(12.0, 8.73e-3, 330.0, 0.2) == pytest.approx(12 - 8.73e-3 * 330)
+    # a sink that wins is floored at its saturation level
+    assert node_against_pull_up(12.0, 1.0, 330.0, 0.2) == pytest.approx(0.2)

@@ -4,7 +4,7 @@ and control cards, operating conditions from the configuration, a clamp fitted t
 way round, an over-driven gate with no fix that is a part change, a command that comes out
 of a behavioural comparator (a modulator) at a duty only the configuration gives, a hold
 capacitor written as its DC-bias curve C(V) beside a leaky Schottky, clean only at the
-nominal corner."""
+nominal corner, and a discrete level shifter that blocks too much or sinks too little."""
 
 from __future__ import annotations
 
@@ -59,7 +59,7 @@ def _fixed_in_both(record: Record) -> None:
 
 def test_every_finding_of_the_own_decks_has_a_deck(built: Outcome) -> None:
     assert not built.failed and not built.diagnostics
-    assert len(built.records) == 6 and all(r.deck for r in built.records)
+    assert len(built.records) == 8 and all(r.deck for r in built.records)
 
 
 def test_every_own_deck_runs_cleanly(built: Outcome) -> None:
@@ -233,3 +233,14 @@ def test_the_deck_holds_the_corner_the_finding_was_judged_at(built: Outcome) -> 
     measured = record.deck.measured("hold_time")
     assert measured is not None and claimed < measured < 1.6 * claimed
     _fixed_in_both(record)
+
+
+def test_level_shifter_decks_confirmed_and_fixed(built: Outcome) -> None:
+    blocking = _record(built, "shifter_40v.cir", "level-shift-contention")
+    _confirmed(blocking, "shifter_voltage_steady")
+    _fixed_in_both(blocking)
+    weak = _record(built, "weak_base.cir", "level-shift-contention")
+    _confirmed(weak, "shifter_sink")
+    # the emitter resistor alone caps the sink: the fix is the weaker pull-up
+    assert weak.fix is not None and "r4" in weak.fix
+    _fixed_in_both(weak)

@@ -63,6 +63,10 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("v_part", "derated_limit"),
         ("p_resistor", "derated_limit"),
     ),
+    "level-shift-contention": (
+        ("shifter_voltage", "derated_limit"),
+        ("shifter_margin", "margin_needed"),
+    ),
 }
 
 
