@@ -472,3 +472,18 @@ def hold_time_linear(
     if _ratio(i_min, i_at_start) <= 0:
         return _infinite(c * v_start, i_at_start)
     return (c / di_dv) * math.log(_ratio(i_1, i_min))
+
+
+def first_charge_dip(v_supply: Volts, v_drop: Volts, c_boot: Farads, c_bypass: Farads) -> Volts:
+    """How far the gate supply's bypass capacitor falls when it charges an empty bootstrap
+    capacitor (start-up, or after the boot supply has run down), before the supply's own
+    regulation responds: charge sharing between the two capacitors through the diode,
+    ΔV = (V_supply − V_drop)·C_boot/(C_boot + C_bypass) (charge conservation, textbook).
+
+    The final common level satisfies C_bypass·ΔV = C_boot·(V_supply − V_drop − ΔV); with
+    C_bypass = 10·C_boot the supply dips by a eleventh of the boot voltage, which is the
+    reason for the usual ten-times rule (common practice).
+    v_supply: the supply before the recharge [V]; v_drop: the diode's drop and the switch
+    node's level above the supply's return [V]; c_boot, c_bypass [F].
+    """
+    return (v_supply - v_drop) * _ratio(c_boot, c_boot + c_bypass)

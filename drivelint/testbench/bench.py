@@ -368,12 +368,14 @@ def partner_dead_time(ctx: BenchContext, schedule: Schedule) -> float:
     return _dead_time(source.waveform, found[1].waveform, schedule)
 
 
-def held_supplies(ctx: BenchContext, stress: bool) -> Held | Declined:
+def held_supplies(ctx: BenchContext, stress: bool, supply_corner: bool = True) -> Held | Declined:
     """Edits that hold the bus and the auxiliary rail at the levels the rule judged them
     at: the bus at its highest (every rule takes it there), the auxiliary rail at its
     highest for a stress figure and its lowest for a hold or headroom figure. A rail given
     as a waveform (a surge, a dip) is held at that level for the whole run; a rail the
-    rule took from a condition or a tolerance corner is moved to it."""
+    rule took from a condition or a tolerance corner is moved to it (with
+    ``supply_corner`` false, a figure that takes nothing from the gate supply's corner, the
+    auxiliary rail stays at its nominal level)."""
     stage, facts = ctx.stage, ctx.facts
     pairs: dict[str, Value | None] = {}
     if stage.bus is not None:
@@ -381,7 +383,8 @@ def held_supplies(ctx: BenchContext, stress: bool) -> Held | Declined:
     aux = stage.supply.aux
     if stage.supply.kind in ("bootstrap", "charge-pump") and aux is not None:
         if aux.net not in (stage.source, stage.supply.boot_net):
-            pairs.setdefault(aux.net, facts.v_aux_max if stress else facts.v_aux)
+            level = facts.v_aux_max if stress else facts.v_aux
+            pairs.setdefault(aux.net, level if supply_corner else facts.v_aux_nominal)
     why = (
         "the level the rule's stress figures use" if stress else "the level the rule's figures use"
     )

@@ -101,6 +101,7 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     ),
     "gate-overvoltage/clamp reversed": ("vgs_max_positive", "clamp_positive_level"),
     "gate-headroom": ("vgs_supply_on", "vgs_on_worst"),
+    "driver-decoupling": ("first_charge", "vcc_dip"),
     "voltage-stress/switch": ("vds_off_steady",),
     "voltage-stress/part": ("v_part",),
     "voltage-stress/power": ("p_resistor",),
@@ -118,6 +119,7 @@ STRESS_KINDS = frozenset(
         "gate-overvoltage/output short",
         "gate-overvoltage/clamp below drive",
         "gate-overvoltage/clamp reversed",
+        "driver-decoupling",
         "voltage-stress/switch",
         "voltage-stress/part",
         "voltage-stress/power",
@@ -125,6 +127,13 @@ STRESS_KINDS = frozenset(
         "level-shift-contention/contention",
     }
 )
+# What a rule's figure takes from the tolerance corner, where it is less than its side's
+# inputs: the reverse voltage only the bus (the gate rail cancels); the decoupling rule of
+# thumb nothing (the parts as written).
+CORNER_USES: Mapping[str, frozenset[str]] = {
+    "bootstrap-diode-voltage": frozenset({"bus"}),
+    "driver-decoupling": frozenset(),
+}
 # Claims that are bounds rather than estimates (the finding says "up to").
 SENSES: Mapping[str, str] = {"clamp_current_bound": "upper bound"}
 
@@ -1497,6 +1506,96 @@ def level_shift(ctx: BenchContext) -> Bench | Declined:
     return _shifter_contention(ctx)
 
 
+# ---------------------------------------------------------------- driver-decoupling
+
+FIRST_CHARGE_TAUS = 20
+
+
+def driver_decoupling(ctx: BenchContext) -> Bench | Declined:
+    """The first recharge of an empty bootstrap capacitor: the charge the diode carries,
+    measured, and the dip it would give the bypass alone (the deck's supply source is
+    ideal, so the dip is computed from the measured charge and the two capacitances)."""
+    from drivelint.checks.decoupling import supply_of
+
+    stage, facts = ctx.stage, ctx.facts
+    diode, cap, supply = facts.diode, facts.capacitor, supply_of(stage, facts)
+    c_boot, boot = facts.c_hold_nominal, stage.supply.boot_net
+    if diode is None or cap is None or supply is None or c_boot is None or boot is None:
+        return Declined("the finding gives no bootstrap diode, capacitor or supply")
+    if cap.instance:
+        return Declined(
+            "the bootstrap capacitor sits in a subcircuit, where .ic cannot start it empty"
+        )
+    probe = _ammeter(ctx, diode)
+    if isinstance(probe, Declined):
+        return probe
+    element = ctx.design.element_of(cap.name)
+    if element is None:
+        return Declined(f"{cap.name}'s statement cannot be found")
+    # the switch off from the start, its partner holding the node low: the diode charges
+    # the empty capacitor at once
+    made = stimulus(ctx, Schedule.steps((MAX_STOP, True)), "the switch held off")
+    if isinstance(made, Declined):
+        return made
+    low = facts.v_sw_low.value
+    start_empty = {
+        element.span: Edit(
+            after=(f".ic v({boot})={number(low)}",),
+            note=f"{cap.name} starts empty (.ic: its top at the switch node's low level)",
+        )
+    }
+    r_path = (stage.supply.series_resistance or 0.0) + (
+        diode.model.params.get("rs", 0.0) if diode.model else 0.0
+    )
+    tau = max(r_path, 1.0) * c_boot.value
+    stop = max(FIRST_CHARGE_TAUS * tau, 5e-6)
+    current = source_current(sense_names(ctx, diode)[2])
+    bypass = ctx.value("bypass_capacitance") or 0.0
+    if ctx.fix is not None:
+        bypass = ctx.value("suggested_bypass") or bypass
+    cards = [
+        integral(
+            "first_charge",
+            current,
+            0.0,
+            stop,
+            f"charge through {diode.name} as it fills the empty {cap.name}",
+        ),
+        expression(
+            "vcc_dip",
+            f"first_charge/{number(c_boot.value + bypass)}",
+            "the dip that charge gives the bootstrap and bypass capacitors sharing it "
+            f"({format_si(c_boot.value, 'F')} + {format_si(bypass, 'F')})",
+        ),
+    ]
+    ratio = ctx.options.get("ratio", 10.0)
+    dip, after = ctx.value("vcc_dip"), ctx.value("v_supply_after")
+    nominal = facts.c_hold_nominal.value if facts.c_hold_nominal else c_boot.value
+    if dip is None or after is None:
+        return Declined("the finding gives no supply level and dip")
+    # the dip a bypass of exactly ratio × the nominal bootstrap capacitor gives at this corner
+    allowed = (dip + after) * c_boot.value / (c_boot.value + ratio * nominal)
+    return Bench(
+        edits=merge_edits(made.edits, probe, start_empty),
+        stop=stop,
+        step=analysis_step(ctx.design, stop, tau),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(
+            Limit(
+                "vcc_dip",
+                allowed,
+                "<=",
+                f"the supply dips no more than a bypass of {ratio:g}× the bootstrap "
+                "capacitor would let it",
+                "V",
+            ),
+        ),
+        notes=made.notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
 def traces_for(ctx: BenchContext, kind: str) -> tuple[Trace, ...]:
     """The series of the waveform file, the quantity the claims are about first: the boot
     supply for hold, refresh and headroom findings, V_GS for gate findings, the diode's
@@ -1537,13 +1636,12 @@ def build(ctx: BenchContext) -> Bench | Declined:
         return bench
     kind = finding_kind(ctx.finding, ctx.stage)
     stress = kind in STRESS_KINDS
-    held = held_supplies(ctx, stress=stress)
+    uses = CORNER_USES.get(ctx.finding.rule)
+    held = held_supplies(ctx, stress=stress, supply_corner=uses is None or "supply" in uses)
     if isinstance(held, Declined):
         return held
     fixed = ctx.fix.edits if ctx.fix is not None else {}
     supplies = {span: edit for span, edit in held.edits.items() if span not in fixed}
-    # the reverse voltage takes only the bus from the corner (the gate rail cancels)
-    uses = frozenset({"bus"}) if ctx.finding.rule == "bootstrap-diode-voltage" else None
     corner = corner_deck(ctx, STRESS if stress else HOLD, skip=fixed, uses=uses)
     if isinstance(corner, Declined):
         return corner
@@ -1569,6 +1667,7 @@ BUILDERS: Mapping[str, Builder] = {
     "gate-headroom": gate_headroom,
     "voltage-stress": voltage_stress,
     "level-shift-contention": level_shift,
+    "driver-decoupling": driver_decoupling,
 }
 
 # Rules whose failure no simulation of the circuit can show, with the reason.

@@ -194,7 +194,8 @@ def corner_deck(
     cap = facts.capacitor
     nominal = facts.c_hold_nominal
     where = "low" if side == corner_layer.HOLD else "high"
-    if cap is not None and nominal is not None:
+    moves_cap = uses is None or "capacitor" in uses
+    if cap is not None and nominal is not None and moves_cap:
         statement = ctx.design.element_of(cap.name)
         made = capacitance_text(ctx, cap, nominal.value, side)
         if statement is not None and not isinstance(made, Declined):

@@ -568,6 +568,29 @@ def level_shift(ctx: BenchContext) -> Fix | Declined:
     return _set_resistance(ctx, ups[0], pull_up, "the finding's suggested pull-up")
 
 
+def driver_decoupling(ctx: BenchContext) -> Fix | Declined:
+    name, farads = ctx.finding.device, ctx.value("suggested_bypass")
+    device = ctx.circuit.devices.get(name)
+    element = _element(ctx, name)
+    if isinstance(element, Declined) or device is None or farads is None:
+        return Declined("the finding gives no bypass capacitor to change")
+    if ctx.value("bypass_capacitance") == 0.0:
+        return Declined(
+            "the bypass sits behind a resistor: the fix moves a capacitor to the driver's "
+            "pins, a change of layout rather than of a value"
+        )
+    value_field = capacitor_field(element)
+    if value_field is None:
+        return Declined(f"{name}'s value is not written as a plain field")
+    text = number(farads / device.multiplier)
+    old = (device.value or 0.0) * device.multiplier
+    return Fix(
+        f"{name}: {format_si(old, 'F')} -> {format_si(farads, 'F')} (the finding's bypass)"
+        + _shared(ctx, element),
+        {element.span: Edit(fields=((value_field, text),), note=f"fix: {name} = {text}")},
+    )
+
+
 APPLIERS: Mapping[str, Applier] = {
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
@@ -578,4 +601,5 @@ APPLIERS: Mapping[str, Applier] = {
     "gate-headroom": gate_headroom,
     "voltage-stress": voltage_stress,
     "level-shift-contention": level_shift,
+    "driver-decoupling": driver_decoupling,
 }

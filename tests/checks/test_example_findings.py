@@ -27,6 +27,8 @@ EXPECTED = {
     ("tool36_leg_totem_pole.cir", "bootstrap-capacitor-small", "c1", 34),
     # the boot diode blocks the whole ±45 V swing plus V_boot
     ("classd45v_split_rail_amp.cir", "bootstrap-diode-voltage", "d_bs", 25),
+    # and its 1 uF VCC bypass is under ten times the 220 nF bootstrap capacitor
+    ("classd45v_split_rail_amp.cir", "driver-decoupling", "c_vcc", 21),
     # the load dump, given as PWL, over the 60 V Schottky's derated rating
     ("winch36v_shunt_load_dump.cir", "bootstrap-diode-voltage", "d_bs", 25),
     # and both 60 V switches block the 56 V surge plus the ringing allowance

@@ -23,6 +23,7 @@ from drivelint.physics.bootstrap import (
     charge_budget,
     droop_per_cycle,
     droop_under_current,
+    first_charge_dip,
     hold_time,
     max_duty_for_boot_min,
     min_off_time_for_boot_min,
@@ -357,3 +358,15 @@ Isink boot 0 PULSE(0 20m 5u 1n 1n 14.999u 20u)
     assert low.peak - slack <= peak_sim <= high.peak + slack
     # The bracket itself is tight: under 1 mV on an 11 V supply.
     assert high.valley - low.valley < 1e-3
+
+
+def test_first_charge_dip_is_charge_sharing(ureg: pint.UnitRegistry) -> None:
+    """Two capacitors sharing charge through a diode end at one level (textbook charge
+    conservation): C_bypass·ΔV = C_boot·(V − V_F − ΔV)."""
+    u = ureg
+    dip = first_charge_dip(12.0, 0.0, 1e-6, 10e-6)
+    assert dip == pytest.approx(12.0 / 11)  # the ten-times rule: an eleventh of the supply
+    dip = first_charge_dip(12.0, 0.6, 470e-9, 1e-6)
+    assert 1e-6 * dip == pytest.approx(470e-9 * (12.0 - 0.6 - dip))
+    got = first_charge_dip(12 * u.V, 0.6 * u.V, 220 * u.nF, 1 * u.uF)
+    assert got.to("V").magnitude == pytest.approx(11.4 * 0.22 / 1.22)

@@ -137,6 +137,7 @@ def test_the_examples_have_findings_to_prove() -> None:
         "bootstrap-diode-voltage",
         "bootstrap-no-refresh",
         "dc-hold",
+        "driver-decoupling",
         "gate-headroom",
         "voltage-stress",
         "gate-overvoltage",

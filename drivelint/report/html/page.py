@@ -58,6 +58,7 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("vgs_max_negative", "vgs_limit_negative"),
     ),
     "gate-headroom": (("vgs_on_worst", "vgs_needed"),),
+    "driver-decoupling": (("bypass_capacitance", "bypass_needed"), ("vcc_dip", "v_supply_after")),
     "voltage-stress": (
         ("vds_off", "derated_limit"),
         ("v_part", "derated_limit"),
