@@ -15,6 +15,8 @@ import click
 from drivelint import __version__
 
 if TYPE_CHECKING:
+    from collections.abc import Iterator
+
     from drivelint.batch import BatchOptions, Job
 
 EXIT_OK = 0
@@ -132,8 +134,9 @@ def netlist_command(
     FILES are netlists or folders (searched for .cir .net .sp .spi .spice .ckt).
     """
     from drivelint.batch import load_job
+    from drivelint.circuit.model import Circuit
     from drivelint.diagnostics import Severity
-    from drivelint.report.netlist import netlist_json, netlist_text
+    from drivelint.report.netlist import netlist_text, write_netlist_json
 
     options = _options(
         config_file=config_file,
@@ -141,19 +144,23 @@ def netlist_command(
         allow_hidden_includes=allow_hidden_includes,
         scan_roots=files,
     )
-    circuits = [load_job(job, options) for job in _plan(_scan(files), options)]
-    if fmt == "json":
-        import json
+    jobs = _plan(_scan(files), options)
+    failed = False
 
-        payload = (
-            netlist_json(circuits[0])
-            if len(circuits) == 1
-            else {"decks": [netlist_json(c) for c in circuits]}
-        )
-        click.echo(json.dumps(payload, indent=2, sort_keys=False))
+    def loaded() -> Iterator[Circuit]:
+        # One circuit at a time: the previous one is gone before the next is read.
+        nonlocal failed
+        for job in jobs:
+            circuit = load_job(job, options)
+            failed |= any(d.severity is Severity.ERROR for d in circuit.diagnostics)
+            yield circuit
+
+    if fmt == "json":
+        stream = sys.stdout
+        write_netlist_json(loaded(), len(jobs), stream.write)
+        stream.flush()
     else:
-        click.echo("\n\n".join(netlist_text(c) for c in circuits))
-    failed = any(d.severity is Severity.ERROR for c in circuits for d in c.diagnostics)
+        click.echo("\n\n".join(netlist_text(c) for c in loaded()))
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
 
 

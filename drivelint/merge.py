@@ -234,6 +234,8 @@ def merge_reports(
     for report in reports:
         for order, result in report.results:
             name = result.circuit.path
+            if name in seen and seen[name] == report.path:
+                raise MergeError(f"'{printable(name)}' is twice in {_name(report.path)}")
             if name in seen:
                 raise MergeError(
                     f"'{printable(name)}' is in both {_name(seen[name])} and {_name(report.path)}"
