@@ -749,13 +749,14 @@ def merge_command(
     twice, a missing shard, a report that is not whole. Otherwise exits as `check` does.
     """
     from drivelint.diagnostics import Severity
-    from drivelint.merge import MergeError, merge_reports, read_report
-    from drivelint.report.formats import ReportOptions, formatter
+    from drivelint.merge import MergeError, merge_reports, read_report, render
+    from drivelint.report.formats import ReportOptions
 
     if testbench_dir is not None and fmt != "html":
         raise click.UsageError("--testbench links decks into the HTML report: use --format html")
     try:
-        results, run, order = merge_reports([read_report(path) for path in reports])
+        shard_reports = [read_report(path) for path in reports]
+        results, run, order = merge_reports(shard_reports)
     except MergeError as exc:
         _fail(str(exc))
     color, width = _text_style(fmt, output, no_color)
@@ -769,7 +770,11 @@ def merge_command(
         run=run,
         order=order,
     )
-    _write_output(formatter(fmt)(results, report_options), output, list(reports))
+    try:
+        text = render(fmt, results, report_options, shard_reports)
+    except MergeError as exc:
+        _fail(str(exc))
+    _write_output(text, output, list(reports))
     if fmt != "text" or output is not None:
         from drivelint.report.findings import summary_text
 

@@ -32,6 +32,7 @@ from drivelint.report.sarif import portable_path
 
 if TYPE_CHECKING:
     from drivelint.batch import BatchOptions, Job
+    from drivelint.report.formats import ReportOptions
 
 
 class MergeError(Exception):
@@ -291,3 +292,33 @@ def _check_shards(reports: Sequence[ShardReport]) -> None:
             + ", ".join(f"{i}/{count}" for i in sorted(held))
             + ")"
         )
+
+
+def render(
+    fmt: str, results: Sequence[CheckResult], options: ReportOptions, reports: Sequence[ShardReport]
+) -> str:
+    """The merged report in ``fmt``. A report whose every field has its type but whose parts
+    do not fit together (an edited one) could still trip a formatter: that is a
+    :class:`MergeError` naming the report that trips it alone, never a traceback."""
+    from drivelint.report.formats import formatter
+
+    try:
+        return formatter(fmt)(results, options)
+    except Exception as exc:  # noqa: BLE001 - any failure of a formatter on decoded data
+        why = printable(f"{type(exc).__name__}: {exc}")
+        culprits = [r for r in reports if _trips(fmt, r, options)] or list(reports)
+        raise MergeError(
+            f"{', '.join(_name(r.path) for r in culprits)}: cannot be rendered as {fmt} ({why});"
+            " its contents do not fit together (an edited report?): check again"
+        ) from None
+
+
+def _trips(fmt: str, report: ShardReport, options: ReportOptions) -> bool:
+    from drivelint.report.formats import formatter
+
+    alone = replace(options, run=None, order=None)
+    try:
+        formatter(fmt)([r for _, r in report.results], alone)
+    except Exception:  # noqa: BLE001
+        return True
+    return False

@@ -328,3 +328,25 @@ def test_does_not_overwrite_an_input_report(here: Path) -> None:
     before = Path(one).read_bytes()
     refused(run("merge", one, two, "--format", "html", "--output", one), "not overwritten")
     assert Path(one).read_bytes() == before
+
+
+def test_a_formatter_tripped_by_an_edited_report_names_it(
+    here: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Fields of the right types that do not fit together could trip a formatter: the report
+    that trips it alone is named, never a traceback."""
+    from drivelint.report import junit
+
+    one, two = shards(2)
+    victim = json.loads(Path(two).read_text())["files"][0]["path"]
+    real = junit.format_junit
+
+    def fragile(results, options):  # type: ignore[no-untyped-def]
+        if any(r.circuit.path == victim for r in results):
+            raise KeyError("m_nowhere")
+        return real(results, options)
+
+    monkeypatch.setattr(junit, "format_junit", fragile)
+    result = run("merge", one, two, "--format", "junit")
+    refused(result, two, "cannot be rendered as junit", "KeyError")
+    assert one not in result.output
