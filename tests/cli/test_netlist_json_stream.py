@@ -9,10 +9,13 @@ import shutil
 import sys
 from pathlib import Path
 
+from collections.abc import Iterator
+
 import pytest
 from click.testing import CliRunner
 
 from drivelint.batch import BatchOptions, load_job, plan
+from drivelint.circuit.model import Circuit
 from drivelint.cli import main
 from drivelint.pipeline import collect_paths
 from drivelint.report.netlist import netlist_json, write_netlist_json
@@ -90,7 +93,7 @@ def test_decks_are_loaded_one_at_a_time(decks: Path) -> None:
     jobs = plan([decks / "legs.cir", decks / "drivers.cir"], options)
     events: list[str] = []
 
-    def loaded():  # type: ignore[no-untyped-def]
+    def loaded() -> Iterator[Circuit]:
         for job in jobs:
             events.append(f"load {job.path.name}")
             yield load_job(job, options)
