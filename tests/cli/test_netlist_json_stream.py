@@ -7,9 +7,8 @@ from __future__ import annotations
 import json
 import shutil
 import sys
-from pathlib import Path
-
 from collections.abc import Iterator
+from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
