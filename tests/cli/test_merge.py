@@ -350,3 +350,47 @@ def test_a_formatter_tripped_by_an_edited_report_names_it(
     result = run("merge", one, two, "--format", "junit")
     refused(result, two, "cannot be rendered as junit", "KeyError")
     assert one not in result.output
+
+
+def test_empty_shards_and_standard_input(here: Path) -> None:
+    """More shards than files leaves some empty, and they merge like the others; a whole
+    run that read standard input renders again with it in its place (after the files)."""
+    two = ["lib/lev48_phase_leg_npn_shifter.cir", "lib/own/broken.cir"]
+    names = []
+    for index in range(1, 6):
+        name = f"tiny{index}.json"
+        run(
+            "check",
+            "--no-cache",
+            "--format",
+            "json",
+            "--shard",
+            f"{index}/5",
+            "--output",
+            name,
+            *two,
+        )
+        names.append(name)
+    sizes = [len(json.loads(Path(n).read_text())["files"]) for n in names]
+    assert sum(sizes) == 2 and sizes.count(0) >= 3
+    run("check", "--no-cache", "--format", "sarif", "--output", "tiny.sarif", *two)
+    run("merge", *names, "--format", "sarif", "--output", "tiny-merged.sarif")
+    assert Path("tiny-merged.sarif").read_bytes() == Path("tiny.sarif").read_bytes()
+
+    deck = (EXAMPLES / "tool36_leg_totem_pole.cir").read_text()
+    piped = ["check", "--no-cache", "-", "--stdin-name", "piped/leg.cir", *two]
+    runner = CliRunner()
+    report = runner.invoke(main, [*piped, "--format", "json", "--output", "piped.json"], input=deck)
+    junit = runner.invoke(main, [*piped, "--format", "junit", "--output", "piped.xml"], input=deck)
+    assert report.exit_code == junit.exit_code == 1
+    assert json.loads(Path("piped.json").read_text())["run"]["stdin"] == "piped/leg.cir"
+    assert run("merge", "piped.json", "--format", "junit", "--output", "piped-again.xml").exit_code
+    assert Path("piped-again.xml").read_bytes() == Path("piped.xml").read_bytes()
+    # Standard input is read by every shard of a run, so its shards overlap.
+    for index in (1, 2):
+        runner.invoke(
+            main,
+            [*piped, "--format", "json", "--shard", f"{index}/2", "--output", f"p{index}.json"],
+            input=deck,
+        )
+    refused(run("merge", "p1.json", "p2.json"), "piped/leg.cir", "overlapping")
