@@ -13,6 +13,7 @@ type; a bad one is a :class:`MergeError` naming the file.
 
 from __future__ import annotations
 
+import itertools
 import json
 import os
 from collections.abc import Sequence
@@ -120,7 +121,7 @@ def read_report(path: Path, max_bytes: int | None = None) -> ShardReport:
     if not isinstance(data, bytes):
         if data.code == "limit":
             raise MergeError(f"{_name(path)}: larger than {max_bytes} bytes; not read")
-        raise MergeError(data.message.format(shown=_name(path)).replace("netlist", "report"))
+        raise MergeError(data.message.format(shown=_name(path)))
     if len(data) > max_bytes:
         raise MergeError(f"{_name(path)}: larger than {max_bytes} bytes; not read")
     try:
@@ -155,6 +156,8 @@ def _report(path: Path, payload: Any) -> ShardReport:
             f"{_name(path)}: no run header (not written by `drivelint check --format json`)"
         )
     run = from_fields(RunRecord, payload["run"])
+    if not set(run.fail_on) <= {s.label for s in Severity}:
+        raise MergeError(f"{_name(path)}: not a whole report: fail_on holds an unknown severity")
     if run.shard is not None and not 1 <= run.shard[0] <= run.shard[1]:
         raise MergeError(f"{_name(path)}: shard {run.shard[0]}/{run.shard[1]} is not I/N")
     files = payload.get("files")
@@ -285,10 +288,13 @@ def _check_shards(reports: Sequence[ShardReport]) -> None:
                 f"{_name(held[index])} and {_name(report.path)} are both shard {index}/{count}"
             )
         held[index] = report.path
-    lacking = [f"{i}/{count}" for i in range(1, count + 1) if i not in held]
-    if lacking:
+    absent = count - len(held)  # every index held is in 1..count, once
+    if absent:
+        # The first few only: a header may claim any N.
+        first = itertools.islice((i for i in range(1, count + 1) if i not in held), 5)
+        named = ", ".join(f"{i}/{count}" for i in first) + (", …" if absent > 5 else "")
         raise MergeError(
-            f"shard{'s' * (len(lacking) > 1)} {', '.join(lacking)} missing (given: "
+            f"shard{'s' * (absent > 1)} {named} missing (given: "
             + ", ".join(f"{i}/{count}" for i in sorted(held))
             + ")"
         )

@@ -394,3 +394,14 @@ def test_empty_shards_and_standard_input(here: Path) -> None:
             input=deck,
         )
     refused(run("merge", "p1.json", "p2.json"), "piped/leg.cir", "overlapping")
+
+
+def test_refuses_headers_that_claim_too_much(here: Path) -> None:
+    one, two = shards(2)
+    many = edited(two, "many.json", lambda p: p["run"].update(shard=[2, 10**12]))
+    first = edited(one, "many1.json", lambda p: p["run"].update(shard=[1, 10**12]))
+    refused(run("merge", first, many), "shards 3/1000000000000", ", …", "missing")
+    severity = edited(two, "severity.json", lambda p: p["run"].update(fail_on=["fatal"]))
+    refused(run("merge", one, severity), "severity.json", "unknown severity")
+    zero = edited(two, "zero.json", lambda p: p["run"].update(shard=[0, 2]))
+    refused(run("merge", one, zero), "zero.json", "is not I/N")
