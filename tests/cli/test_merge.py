@@ -405,3 +405,21 @@ def test_refuses_headers_that_claim_too_much(here: Path) -> None:
     refused(run("merge", one, severity), "severity.json", "unknown severity")
     zero = edited(two, "zero.json", lambda p: p["run"].update(shard=[0, 2]))
     refused(run("merge", one, zero), "zero.json", "is not I/N")
+
+
+def test_shards_answered_from_the_cache_merge_the_same(
+    here: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Results decoded from cache entries render as those just computed."""
+    monkeypatch.setenv("XDG_CACHE_HOME", str(here / "cache"))
+    monkeypatch.setenv("HOME", str(here))  # platforms that ignore XDG_CACHE_HOME
+    names = []
+    for index in (1, 2):
+        for _ in range(2):  # the second run of each shard comes from the cache
+            name = f"cached{index}.json"
+            run("check", "--format", "json", "--shard", f"{index}/2", "--output", name, "lib")
+        names.append(name)
+    assert any((here / "cache").rglob("*.json"))
+    run("merge", *names, "--format", "html", "--output", "cached.html")
+    run("check", "--no-cache", "--format", "html", "--output", "uncached.html", "lib")
+    assert Path("cached.html").read_bytes() == Path("uncached.html").read_bytes()
