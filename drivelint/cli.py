@@ -15,6 +15,8 @@ import click
 from drivelint import __version__
 
 if TYPE_CHECKING:
+    from collections.abc import Iterator
+
     from drivelint.batch import BatchOptions, Job
 
 EXIT_OK = 0
@@ -132,8 +134,9 @@ def netlist_command(
     FILES are netlists or folders (searched for .cir .net .sp .spi .spice .ckt).
     """
     from drivelint.batch import load_job
+    from drivelint.circuit.model import Circuit
     from drivelint.diagnostics import Severity
-    from drivelint.report.netlist import netlist_json, netlist_text
+    from drivelint.report.netlist import netlist_text, write_netlist_json
 
     options = _options(
         config_file=config_file,
@@ -141,19 +144,23 @@ def netlist_command(
         allow_hidden_includes=allow_hidden_includes,
         scan_roots=files,
     )
-    circuits = [load_job(job, options) for job in _plan(_scan(files), options)]
-    if fmt == "json":
-        import json
+    jobs = _plan(_scan(files), options)
+    failed = False
 
-        payload = (
-            netlist_json(circuits[0])
-            if len(circuits) == 1
-            else {"decks": [netlist_json(c) for c in circuits]}
-        )
-        click.echo(json.dumps(payload, indent=2, sort_keys=False))
+    def loaded() -> Iterator[Circuit]:
+        # One circuit at a time: the previous one is gone before the next is read.
+        nonlocal failed
+        for job in jobs:
+            circuit = load_job(job, options)
+            failed |= any(d.severity is Severity.ERROR for d in circuit.diagnostics)
+            yield circuit
+
+    if fmt == "json":
+        stream = sys.stdout
+        write_netlist_json(loaded(), len(jobs), stream.write)
+        stream.flush()
     else:
-        click.echo("\n\n".join(netlist_text(c) for c in circuits))
-    failed = any(d.severity is Severity.ERROR for c in circuits for d in c.diagnostics)
+        click.echo("\n\n".join(netlist_text(c) for c in loaded()))
     sys.exit(EXIT_ERROR if failed else EXIT_OK)
 
 
@@ -402,7 +409,6 @@ def check_command(
     from drivelint.batch import config_for_stdin, default_cache_dir, run_batch, select_shard
     from drivelint.checks.registry import RuleError
     from drivelint.config import DEFAULT_SUFFIXES, ConfigError, load_config
-    from drivelint.diagnostics import Severity
     from drivelint.ratings.parts import PartsError
     from drivelint.report.formats import ReportOptions, formatter
 
@@ -417,6 +423,8 @@ def check_command(
     if with_includers:
         files = _with_includers(files, suffixes)
     files = _spice_only(files)
+    named = files  # the library, before sharding (the JSON report's run header)
+    slice_of: tuple[int, int] | None = None
     if shard is not None:
         try:
             index, count = (int(x) for x in shard.split("/"))
@@ -427,6 +435,7 @@ def check_command(
                 "expected I/N with 1 <= I <= N", param_hint="--shard"
             ) from None
         files = select_shard(files, index, count)
+        slice_of = (index, count)
     options = _options(
         jobs=jobs or os.cpu_count() or 1,
         cache_dir=None if no_cache else default_cache_dir(),
@@ -455,22 +464,18 @@ def check_command(
             results, stats = run_batch(planned, options)
     except (PartsError, RuleError, ConfigError) as exc:
         _fail(str(exc))
-    color = (
-        fmt == "text"
-        and output is None
-        and not no_color
-        and "NO_COLOR" not in os.environ
-        and sys.stdout.isatty()
-    )
+    run = order = None
+    if fmt == "json":
+        from drivelint.merge import run_record
+
+        run, order = run_record(
+            named, slice_of, planned, options, keep, stdin_name if use_stdin else None
+        )
     if keep is not None:
         from drivelint.checks.runner import select_rules
 
-        results = [select_rules(r, keep) for r in results]
-    width = None
-    if fmt == "text" and output is None and sys.stdout.isatty():
-        import shutil
-
-        width = shutil.get_terminal_size().columns
+        results = [select_rules(r, keep.__contains__) for r in results]
+    color, width = _text_style(fmt, output, no_color)
     report_options = ReportOptions(
         explain=explain,
         color=color,
@@ -478,6 +483,8 @@ def check_command(
         width=width,
         testbench=str(testbench_dir) if testbench_dir is not None else None,
         output=str(output) if output is not None else None,
+        run=run,
+        order=order,
     )
     report = formatter(fmt)(results, report_options)
     _write_output(report, output, files)
@@ -489,18 +496,48 @@ def check_command(
         from drivelint.report.findings import summary_text
 
         click.echo(summary_text(results, stats.from_cache), err=True)
+    configured = [job.config.fail_on for job in planned]
+    _exit(results, stats.failed, fail_on, configured, strict, exit_zero)
+
+
+def _text_style(fmt: str, output: Path | None, no_color: bool) -> tuple[bool, int | None]:
+    """Colour and wrapping width: only for text printed on a terminal."""
+    import os
+
+    terminal = fmt == "text" and output is None and sys.stdout.isatty()
+    color = terminal and not no_color and "NO_COLOR" not in os.environ
+    width = None
+    if terminal:
+        import shutil
+
+        width = shutil.get_terminal_size().columns
+    return color, width
+
+
+def _exit(
+    results: list[Any],
+    failed: list[str],
+    fail_on: str | None,
+    configured: list[Any],
+    strict: bool,
+    exit_zero: bool,
+) -> NoReturn:
+    """Exit as `check` does: 2 with --strict and a file not checked, 1 for findings at or
+    above the failing severity (--fail-on, else the lowest the configurations set, else
+    warning), a file not checked or a file checked in part; else 0."""
+    from drivelint.diagnostics import Severity
+
     if fail_on:
         threshold = Severity.parse(fail_on)
     else:
-        configured = {job.config.fail_on for job in planned}
         threshold = min(configured) if configured else Severity.WARNING
-    if strict and stats.failed:
+    if strict and failed:
         sys.exit(EXIT_ERROR)
     if exit_zero:
         sys.exit(EXIT_OK)
     # A file checked in part (status "partial") counts as a warning.
     partial = threshold <= Severity.WARNING and any(r.circuit.partial for r in results)
-    if stats.failed or partial or any(f.severity >= threshold for r in results for f in r.findings):
+    if failed or partial or any(f.severity >= threshold for r in results for f in r.findings):
         sys.exit(EXIT_FINDINGS)
     sys.exit(EXIT_OK)
 
@@ -633,8 +670,8 @@ def _with_includers(files: list[Path], suffixes: tuple[str, ...]) -> list[Path]:
     return out
 
 
-def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> Any:
-    """A predicate on rule ids from --select/--ignore (None: every rule), or exit 2."""
+def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> frozenset[str] | None:
+    """The rule ids --select/--ignore keep (None: every rule), or exit 2."""
     if not select and not ignore:
         return None
     from drivelint.checks.registry import registry
@@ -650,8 +687,103 @@ def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> Any:
         dropped = expand_rule_patterns([p for s in ignore for p in s.split(",")], known)
     except ValueError as exc:
         raise click.UsageError(str(exc)) from None
-    kept = chosen - dropped
-    return lambda rule_id: rule_id in kept
+    return frozenset(chosen - dropped)
+
+
+@main.command("merge")
+@click.argument("reports", nargs=-1, required=True, type=click.Path(path_type=Path, dir_okay=False))
+@click.option(
+    "--format",
+    "fmt",
+    default="text",
+    show_default=True,
+    type=click.Choice(["text", "json", "sarif", "junit", "github", "html"]),
+)
+@click.option(
+    "--output",
+    type=click.Path(path_type=Path, dir_okay=False),
+    help="Write the report here (atomically).",
+)
+@click.option("--explain", is_flag=True, help="Show each finding's inputs, origins and formula.")
+@click.option(
+    "--fail-on",
+    type=click.Choice(["error", "warning", "note"]),
+    default=None,
+    help="The lowest severity that makes the exit code 1 (default: as the check run's).",
+)
+@click.option(
+    "--exit-zero", is_flag=True, help="Exit 0 even with findings (refused reports still exit 2)."
+)
+@click.option("--strict", is_flag=True, help="Exit 2 when any file could not be checked.")
+@click.option("--no-color", is_flag=True, help="Plain text even on a terminal.")
+@click.option(
+    "--show-accepted",
+    is_flag=True,
+    help="Text: also list the findings an acceptance directive accepted, with the reason.",
+)
+@click.option(
+    "--testbench",
+    "testbench_dir",
+    type=click.Path(path_type=Path, file_okay=False),
+    default=None,
+    help="HTML: link each finding to its decks in this `drivelint testbench` folder.",
+)
+def merge_command(
+    reports: tuple[Path, ...],
+    fmt: str,
+    output: Path | None,
+    explain: bool,
+    fail_on: str | None,
+    exit_zero: bool,
+    strict: bool,
+    no_color: bool,
+    show_accepted: bool,
+    testbench_dir: Path | None,
+) -> None:
+    """Join the JSON reports of `check --shard I/N` runs into one report, in any format.
+
+    REPORTS are `drivelint check --format json` reports of the shards 1/N … N/N of one run
+    (or one report of a whole run, to render it again). The result is what `drivelint
+    check` over the whole library writes; nothing is checked again. Refused, with exit 2:
+    reports of another drivelint, other settings or configurations, the same file or shard
+    twice, a missing shard, a report that is not whole. Otherwise exits as `check` does.
+    """
+    from drivelint.diagnostics import Severity
+    from drivelint.merge import MergeError, merge_reports, read_report, render
+    from drivelint.report.formats import ReportOptions
+
+    if testbench_dir is not None and fmt != "html":
+        raise click.UsageError("--testbench links decks into the HTML report: use --format html")
+    try:
+        shard_reports = [read_report(path) for path in reports]
+        results, run, order = merge_reports(shard_reports)
+    except MergeError as exc:
+        _fail(str(exc))
+    color, width = _text_style(fmt, output, no_color)
+    report_options = ReportOptions(
+        explain=explain,
+        color=color,
+        show_accepted=show_accepted,
+        width=width,
+        testbench=str(testbench_dir) if testbench_dir is not None else None,
+        output=str(output) if output is not None else None,
+        run=run,
+        order=order,
+    )
+    try:
+        text = render(fmt, results, report_options, shard_reports)
+    except MergeError as exc:
+        _fail(str(exc))
+    _write_output(text, output, list(reports))
+    if fmt != "text" or output is not None:
+        from drivelint.report.findings import summary_text
+
+        click.echo(summary_text(results), err=True)
+    failed = [
+        r.circuit.path for r in results if any(d.severity is Severity.ERROR for d in r.diagnostics)
+    ]
+    configured = [Severity.parse(label) for label in run.fail_on]
+    _exit(results, failed, fail_on, configured, strict, exit_zero)
 
 
 @main.command("rules")

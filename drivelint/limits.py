@@ -34,3 +34,8 @@ class Limits:
     @classmethod
     def names(cls) -> tuple[str, ...]:
         return tuple(f.name for f in fields(cls))
+
+
+# `drivelint merge`: one JSON report read at most (a shard's report holds each file's
+# result, a few kB to some tens of kB; this leaves room for ~10⁵ files in one shard).
+MAX_REPORT_BYTES = 1 << 30

@@ -8,13 +8,16 @@ from typing import TYPE_CHECKING, Any
 from drivelint import __version__
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
-from drivelint.diagnostics import Severity, printable, quoted_line
+from drivelint.diagnostics import Diagnostic, Severity, printable, quoted_line
 from drivelint.report.status import failed, file_status
 
 if TYPE_CHECKING:
     from drivelint.report.formats import ReportOptions
+    from drivelint.report.run import RunRecord
 
-JSON_VERSION = 1
+# 2: each file carries its whole result ("result", "order") and the report a "run" header,
+# so that every format can be rendered from a JSON report (drivelint merge).
+JSON_VERSION = 2
 
 
 _COLORS = {Severity.ERROR: "red", Severity.WARNING: "yellow", Severity.NOTE: "cyan"}
@@ -170,16 +173,31 @@ def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
     return "\n".join(printable(line) for line in lines)
 
 
-def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:
+def results_json(
+    results: Sequence[CheckResult],
+    run: RunRecord | None = None,
+    order: Sequence[int] | None = None,
+) -> dict[str, Any]:
+    """The JSON report: files (each with its status, diagnostics and whole result), findings,
+    and the run's header; ``order`` is each result's position among the run's files
+    (default: as given)."""
+    from drivelint.codec import encode, fields_json, prepare
+
+    prepare()
+    positions = list(order) if order is not None else list(range(len(results)))
+    if len(positions) != len(results):
+        raise ValueError("one position per result")
     files = []
     findings: list[Finding] = []
-    for result in sorted(results, key=lambda r: r.circuit.path):
+    for position, result in sorted(zip(positions, results), key=lambda p: p[1].circuit.path):
         files.append(
             {
                 "path": result.circuit.path,
                 "stages": sum(1 for s in result.stages if s.floating),
                 "status": file_status(result),
                 "diagnostics": [d.to_json() for d in result.diagnostics],
+                "order": position,
+                "result": encode(_recorded(result), strict=True),
             }
         )
         findings.extend(result.findings)
@@ -187,9 +205,23 @@ def results_json(results: Sequence[CheckResult]) -> dict[str, Any]:
     return {
         "version": JSON_VERSION,
         "tool": {"name": "drivelint", "version": __version__},
+        "run": fields_json(run) if run is not None else None,
         "files": files,
         "findings": [f.to_json() for f in sorted(findings, key=Finding.sort_key)],
     }
+
+
+def _recorded(result: CheckResult) -> CheckResult:
+    """The result as the JSON report keeps it: input problems without the text of their
+    line (it may be a line of a file that is not a netlist at all; a machine-readable
+    report quotes only a finding's own device line, as SARIF's snippet does)."""
+    from dataclasses import replace
+
+    def bare(diagnostics: tuple[Diagnostic, ...]) -> tuple[Diagnostic, ...]:
+        return tuple(replace(d, source_line="") if d.source_line else d for d in diagnostics)
+
+    circuit = replace(result.circuit, diagnostics=bare(result.circuit.diagnostics))
+    return replace(result, circuit=circuit, diagnostics=bare(result.diagnostics))
 
 
 def format_text(results: Sequence[CheckResult], options: ReportOptions) -> str:
@@ -199,6 +231,19 @@ def format_text(results: Sequence[CheckResult], options: ReportOptions) -> str:
 
 
 def format_json(results: Sequence[CheckResult], options: ReportOptions) -> str:
+    """The report indented, each file's ``result`` on one line (indenting its nested lists
+    would triple the size of a library's report)."""
     import json
+    import re
 
-    return json.dumps(results_json(results), indent=2, sort_keys=True)
+    payload = results_json(results, options.run, options.order)
+    encoded = [entry["result"] for entry in payload["files"]]
+    records = [json.dumps(r, separators=(",", ":"), sort_keys=True) for r in encoded]
+    for number, entry in enumerate(payload["files"]):
+        entry["result"] = f"\0{number}\0"  # a mark, replaced below
+    text = json.dumps(payload, indent=2, sort_keys=True)
+    if text.count("\\u0000") != 2 * len(records):  # a NUL of the input's own: no marks
+        for entry, record in zip(payload["files"], encoded):
+            entry["result"] = record
+        return json.dumps(payload, indent=2, sort_keys=True)
+    return re.sub(r'"\\u0000(\d+)\\u0000"', lambda m: records[int(m.group(1))], text)

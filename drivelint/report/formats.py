@@ -12,6 +12,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 from drivelint.checks.runner import CheckResult
+from drivelint.report.run import RunRecord
 
 
 @dataclass(frozen=True, slots=True)
@@ -22,6 +23,9 @@ class ReportOptions:
     width: int | None = None  # text: wrap lines at this many columns (a terminal), else not
     testbench: str | None = None  # html: the folder of `drivelint testbench` output
     output: str | None = None  # where the report is written (html links are relative to it)
+    run: RunRecord | None = None  # json: the run's header (what it checked, and how)
+    # json: each result's position among the files the run named (None: as given)
+    order: tuple[int, ...] | None = None
 
 
 Formatter = Callable[[Sequence[CheckResult], ReportOptions], str]

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import json
 import math
+from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
 from drivelint.circuit.model import Circuit, Device
@@ -39,20 +41,42 @@ def _behaviour_json(device: Device) -> dict[str, Any]:
     return record
 
 
-def netlist_json(circuit: Circuit) -> dict[str, Any]:
-    return {
-        "path": circuit.path,
-        "title": circuit.title,
-        "files": list(circuit.files),
-        "devices": [device_json(d) for d in circuit.devices.values()],
-        "nets": list(circuit.nets),
-        "rails": {net: volts for net, volts in circuit.rails.items()},
-        "sources": [
+class _Array:
+    """A JSON array written element by element, never held as a list."""
+
+    __slots__ = ("items",)
+
+    def __init__(self, items: Iterable[Any]) -> None:
+        self.items = items
+
+
+class _Object:
+    """A JSON object whose values may be :class:`_Array` or :class:`_Object` (in key order)."""
+
+    __slots__ = ("fields",)
+
+    def __init__(self, fields: Iterable[tuple[str, Any]]) -> None:
+        self.fields = fields
+
+
+def _fields(circuit: Circuit) -> Iterator[tuple[str, Any]]:
+    yield "path", circuit.path
+    yield "title", circuit.title
+    yield "files", list(circuit.files)
+    yield "devices", _Array(device_json(d) for d in circuit.devices.values())
+    yield "nets", _Array(circuit.nets)
+    yield "rails", {net: volts for net, volts in circuit.rails.items()}
+    yield (
+        "sources",
+        _Array(
             {"name": d.name, "waveform": d.waveform.to_json()}
             for d in circuit.devices.values()
             if d.waveform is not None
-        ],
-        "instances": [
+        ),
+    )
+    yield (
+        "instances",
+        _Array(
             {
                 "name": i.name,
                 "subckt": i.subckt,
@@ -60,13 +84,78 @@ def netlist_json(circuit: Circuit) -> dict[str, Any]:
                 **({"opaque": True} if i.opaque else {}),
             }
             for i in circuit.instances.values()
-        ],
-        "missing": [
+        ),
+    )
+    yield (
+        "missing",
+        [
             {"kind": m.kind, "name": m.name, "path": m.span.path, "line": m.span.line}
             for m in circuit.missing
         ],
-        "diagnostics": [d.to_json() for d in circuit.diagnostics],
-    }
+    )
+    yield "diagnostics", [d.to_json() for d in circuit.diagnostics]
+
+
+def _plain(value: Any) -> Any:
+    if isinstance(value, _Array):
+        return [_plain(v) for v in value.items]
+    if isinstance(value, _Object):
+        return {k: _plain(v) for k, v in value.fields}
+    return value
+
+
+def netlist_json(circuit: Circuit) -> dict[str, Any]:
+    """What ``netlist --format json`` prints for one circuit, as one dict (for small ones;
+    the command writes it with :func:`write_netlist_json`)."""
+    plain: dict[str, Any] = _plain(_Object(_fields(circuit)))
+    return plain
+
+
+_END = object()
+
+
+def _write(value: Any, write: Callable[[str], object], level: int) -> None:
+    """``value`` exactly as ``json.dumps(value, indent=2)`` writes it at nesting ``level``,
+    arrays and objects of the stream one element at a time."""
+    pad = "  " * level
+    inner = pad + "  "
+    if isinstance(value, _Array | _Object):
+        pairs = iter(value.items if isinstance(value, _Array) else value.fields)
+        first = next(pairs, _END)
+        if first is _END:
+            write("[]" if isinstance(value, _Array) else "{}")
+            return
+        write("[" if isinstance(value, _Array) else "{")
+        item: Any = first
+        separator = "\n"
+        while item is not _END:
+            write(separator + inner)
+            if isinstance(value, _Array):
+                _write(item, write, level + 1)
+            else:
+                key, field = item
+                write(json.dumps(key) + ": ")
+                _write(field, write, level + 1)
+            separator = ",\n"
+            item = next(pairs, _END)
+        write("\n" + pad + ("]" if isinstance(value, _Array) else "}"))
+        return
+    text = json.dumps(value, indent=2)
+    write(text.replace("\n", "\n" + pad) if level else text)
+
+
+def write_netlist_json(
+    circuits: Iterable[Circuit], count: int, write: Callable[[str], object]
+) -> None:
+    """``netlist --format json``: one circuit as an object, several as ``{"decks": […]}``,
+    written device by device (the output of a 100k-device deck is never one string).
+    ``circuits`` may be a generator loading each in turn; ``count`` says how many."""
+    if count == 1:
+        value: Any = _Object(_fields(next(iter(circuits))))
+    else:
+        value = _Object([("decks", _Array(_Object(_fields(c)) for c in circuits))])
+    _write(value, write, 0)
+    write("\n")
 
 
 def netlist_text(circuit: Circuit) -> str:

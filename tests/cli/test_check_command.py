@@ -58,7 +58,7 @@ def test_text_lines_name_path_line_column_severity_rule() -> None:
 def test_json_is_sorted_and_round_trips() -> None:
     result = run("check", "--no-cache", "--format", "json", str(EXAMPLES))
     payload = json.loads(result.stdout)
-    assert payload["version"] == 1 and payload["tool"]["name"] == "drivelint"
+    assert payload["version"] == 2 and payload["tool"]["name"] == "drivelint"
     paths = [f["path"] for f in payload["files"]]
     assert paths == sorted(paths) and len(paths) == len(list(EXAMPLES.glob("*.cir")))
     keys = [(f["path"], f["line"], f["column"], f["rule"]) for f in payload["findings"]]
