@@ -1397,9 +1397,7 @@ class StageFacts:
             c = gate_physics.gate_capacitance_above_plateau(
                 rated.value, tested.value, qgd.value if qgd else None
             )
-            c_iss = computed(
-                c * multiplier, "F", f"computed: (Q_g − Q_gd)/V_qg ({rated.origin})"
-            )
+            c_iss = computed(c * multiplier, "F", f"computed: (Q_g − Q_gd)/V_qg ({rated.origin})")
         elif vdmos:
             c = params["cgs"] + gate_physics.vdmos_gate_drain_capacitance(drive, *cgd_args)
             c_iss = computed(
@@ -1439,14 +1437,11 @@ class StageFacts:
         rds = ratings.get(device, "rds_on")
         if rds is not None and multiplier != 1:
             rds = Value(rds.value / multiplier, "Ohm", f"{rds.origin}, {multiplier:g} in parallel")
+        internal = ratings.get(device, "rg_internal")
+        if internal is None and params.get("rg", 0.0) > 0:
+            internal = Value(params["rg"], "Ohm", f"{where} RG")
         return SwitchGate(
-            c_iss,
-            q_gd,
-            plateau,
-            threshold,
-            rds,
-            ratings.get(device, "t_off"),
-            ratings.get(device, "rg_internal"),
+            c_iss, q_gd, plateau, threshold, rds, ratings.get(device, "t_off"), internal
         )
 
     def driver_value(self, key: str, unit: str) -> Value | None:

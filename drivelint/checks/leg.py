@@ -58,7 +58,7 @@ HELD = "held"
 def _windows(
     wave: Waveform, inverting: bool
 ) -> str | tuple[float, float, tuple[tuple[float, float], ...]] | None:
-    """"on" or "off" for a DC command, else its steady on-windows; None if unreadable."""
+    """ "on" or "off" for a DC command, else its steady on-windows; None if unreadable."""
     if wave.kind == "dc":
         from drivelint.stages.recognise import DC_LOGIC_THRESHOLD
 
@@ -142,9 +142,7 @@ class TurnOff:
     gate: SwitchGate
 
 
-def _series_to(
-    facts: StageFacts, start: str, targets: set[str]
-) -> tuple[float, list[str]] | None:
+def _series_to(facts: StageFacts, start: str, targets: set[str]) -> tuple[float, list[str]] | None:
     """Resistance of the series resistors from ``start`` to one of ``targets`` (breadth
     first, at most a few resistors, never through ground or a rail)."""
     frontier: list[tuple[str, float, list[str]]] = [(start, 0.0, [])]
@@ -384,6 +382,20 @@ def _turn_off_values(values: dict[str, Value], turn_off: TurnOff, prefix: str = 
             values[f"{prefix}{key}"] = value
 
 
+def _soft_turn_off(turn_off: TurnOff) -> Value | None:
+    """The channel's turn-off with no Miller plateau (the load current freewheels in the
+    body diode, V_DS stays near zero): R_off·C_iss·ln(V_drive/V_th)."""
+    gate, r_off, drive = turn_off.gate, turn_off.r_off, turn_off.v_drive
+    if r_off is None or drive is None or gate.c_iss is None or gate.v_threshold is None:
+        return None
+    if not 0 < gate.v_threshold.value < drive.value:
+        return None
+    t = switching.turn_off_time(
+        r_off.value, gate.c_iss.value, drive.value, gate.v_threshold.value, 0.0
+    )
+    return computed(t, "s", "computed: R_off·C_iss·ln(V_drive/V_th) (no plateau: a soft turn-off)")
+
+
 def _t_switch_off(facts: StageFacts, turn_off: TurnOff) -> Value | None:
     """From the command's edge to the switch's threshold: the driver's delay plus t_off."""
     if turn_off.t_off is None:
@@ -431,9 +443,6 @@ def _overlap_finding(
     )
     if outgoing.t_off is not None:
         _turn_off_values(values, outgoing)
-        switched = _t_switch_off(facts, outgoing)
-        if switched is not None:
-            values["t_switch_off"] = switched
     where = (
         f"at {stage.switch}'s turn-on ({outgoing.switch} still commanded on)"
         if at_turn_on
@@ -471,6 +480,9 @@ def _overlap_finding(
         f"conduct across the bus{bound_text}"
     )
     shift = total + needed
+    values["dead_time_shift"] = computed(
+        shift, "s", f"computed: the overlap + the dead time needed: how far {move}'s on-edge moves"
+    )
     fix = (
         f"move {move}'s turn-on edge {_ns(shift)} later (a dead time of at least "
         f"{_ns(needed)} after the other switch's turn-off command, from "
@@ -510,21 +522,35 @@ def _short_finding(
     stage = facts.stage
     assert turn_off.t_off is not None
     values["dead_time"] = values[f"dead_time_{edge}"]
-    values["dead_time_needed"] = computed(
-        needed, "s", "computed: t_prop_mismatch + t_off + margin"
-    )
+    values["dead_time_needed"] = computed(needed, "s", "computed: t_prop_mismatch + t_off + margin")
     _turn_off_values(values, turn_off)
     switched = _t_switch_off(facts, turn_off)
     if switched is not None:
         values["t_switch_off"] = switched
     suggested = _rounded_up(needed)
+    values["dead_time_shift"] = computed(
+        suggested - dead,
+        "s",
+        f"computed: {_ns(suggested)} − the dead time: how far {command}'s on-edge moves",
+    )
     mismatch, margin = values["t_prop_mismatch"], values["margin"]
+    soft = _soft_turn_off(turn_off)
     message = (
         f"the dead time between {where} is {_ns(dead)}, shorter than the {_ns(needed)} "
         f"{turn_off.switch} takes to turn off plus the delay mismatch ({turn_off.t_off.text()} "
         f"+ {mismatch.text()}" + (f" + margin {margin.text()}" if margin.value else "") + "): "
-        f"the two switches can conduct together across the bus at every such edge"
+        f"the two switches conduct together across the bus at each such edge where the load "
+        f"current flows into {turn_off.switch} (a hard turn-off: braking, a reversed or light "
+        "load)"
+        + (
+            f"; with the current in its body diode instead its channel is off after about "
+            f"{soft.text()}"
+            if soft is not None
+            else ""
+        )
     )
+    if soft is not None:
+        values["t_off_soft"] = soft
     fix = (
         f"widen the dead time at that edge to at least {_ns(suggested)}: move {command}'s "
         f"turn-on edge {_ns(suggested - dead)} later"

@@ -18,6 +18,7 @@ from collections.abc import Callable, Mapping
 from drivelint.checks.corners import HOLD, aux_low, nominal_for
 from drivelint.netlist.statements import Element, Word
 from drivelint.netlist.values import format_si
+from drivelint.netlist.waveforms import Pulse
 from drivelint.physics.preferred import next_preferred, preferred_values
 from drivelint.ratings.values import Value
 from drivelint.testbench.bench import BenchContext, Declined, Fix, partner_dead_time
@@ -459,6 +460,48 @@ def _raised_isolated(
     )
 
 
+def cross_conduction(ctx: BenchContext) -> Fix | Declined:
+    """The finding's fix: the named command's on-edge moved ``dead_time_shift`` later (its
+    PULSE delayed and shortened where the pulse is its on-window, lengthened where the
+    pulse is its off-window), the other edge left where it was."""
+    shift = ctx.value("dead_time_shift")
+    stage, design = ctx.stage, ctx.design
+    name = ctx.finding.device
+    partner = next((r for r in stage.refresh if r.kind == "low-side switch"), None)
+    controls = [stage.control, partner.command if partner else None]
+    control = next((c for c in controls if c is not None and c.source == name), None)
+    device = ctx.circuit.devices.get(name)
+    element = design.element_of(name) if device is not None else None
+    if shift is None or control is None or device is None or element is None:
+        return Declined("the finding names no command source whose edge can be moved")
+    wave = device.waveform
+    if not isinstance(wave, Pulse) or wave.per is None:
+        return Declined(f"{name} is not a PULSE train: its edges are not rewritten")
+    on_window = (wave.v2 > wave.v1) != control.inverting
+    td, pw = wave.td, wave.pw
+    if on_window:
+        td, pw = td + shift, pw - shift
+    else:
+        pw = pw + shift
+    if pw <= 0 or wave.tr + pw + wave.tf > wave.per:
+        return Declined(f"moving {name}'s edge by {format_si(shift, 's')} leaves no pulse")
+    nodes = element.fields[:2]
+    if len(nodes) < 2 or not all(isinstance(n, Word) for n in nodes):
+        return Declined(f"{name}'s nodes are not plain node names")
+    first, second = nodes
+    assert isinstance(first, Word) and isinstance(second, Word)
+    fields = (wave.v1, wave.v2, td, wave.tr, wave.tf, pw, wave.per)
+    text = " ".join(number(x) for x in fields)
+    if wave.pulses is not None:
+        text += f" {wave.pulses}"
+    line = f"{design.raw_name(element)} {first.raw} {second.raw} PULSE({text})"
+    return Fix(
+        f"{name}'s turn-on edge moved {format_si(shift, 's')} later (the finding's "
+        "dead_time_shift)" + _shared(ctx, element),
+        {element.span: Edit(lines=(line,), note=f"fix: {name}'s on-edge later")},
+    )
+
+
 APPLIERS: Mapping[str, Applier] = {
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
@@ -467,4 +510,5 @@ APPLIERS: Mapping[str, Applier] = {
     "dc-hold": dc_hold,
     "gate-overvoltage": gate_overvoltage,
     "gate-headroom": gate_headroom,
+    "cross-conduction": cross_conduction,
 }

@@ -58,6 +58,10 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("vgs_max_negative", "vgs_limit_negative"),
     ),
     "gate-headroom": (("vgs_on_worst", "vgs_needed"),),
+    "cross-conduction": (
+        ("dead_time", "dead_time_needed"),
+        ("command_overlap", "dead_time_needed"),
+    ),
 }
 
 
