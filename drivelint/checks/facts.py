@@ -1373,13 +1373,16 @@ class StageFacts:
         droop = boot_physics.allowed_droop(self.v_boot0.value, self.v_boot_min.value)
         return Value(droop, "V", "computed: V_boot,0 − V_boot,min")
 
-    def switch_gate(self, device: Device, drive: float, v_blocked: float) -> SwitchGate:
+    def switch_gate(
+        self, device: Device, drive: float, v_blocked: float, spread: float = 1.0
+    ) -> SwitchGate:
         """The gate figures of ``device`` (this stage's switch or its leg partner) driven
         to ``drive`` volts and blocking ``v_blocked`` when off: parts library first, then
         the model card (VDMOS C_gs and C_gd(V), or the overlap capacitances), each with
-        its origin. The plateau falls back to the threshold (the plateau at light load)."""
+        its origin. The plateau falls back to the threshold (the plateau at light load).
+        ``spread`` scales the charges and capacitances (a gate charge's corner)."""
         ratings = self.ratings
-        multiplier = device.multiplier
+        multiplier = device.multiplier * spread
         model = device.model
         params = model.params if model else {}
         where = f"model {model.name} ({model.span.path}:{model.span.line})" if model else ""
@@ -1434,9 +1437,17 @@ class StageFacts:
                 "C",
                 f"computed: CGDO·{format_si(v_blocked, 'V')} of {where}",
             )
+        if spread != 1.0:
+            c_iss, q_gd = (
+                None
+                if v is None
+                else computed(v.value, v.unit, f"{v.origin}, × {spread:g} (qg_spread)")
+                for v in (c_iss, q_gd)
+            )
         rds = ratings.get(device, "rds_on")
-        if rds is not None and multiplier != 1:
-            rds = Value(rds.value / multiplier, "Ohm", f"{rds.origin}, {multiplier:g} in parallel")
+        if rds is not None and device.multiplier != 1:
+            count = device.multiplier
+            rds = Value(rds.value / count, "Ohm", f"{rds.origin}, {count:g} in parallel")
         internal = ratings.get(device, "rg_internal")
         if internal is None and params.get("rg", 0.0) > 0:
             internal = Value(params["rg"], "Ohm", f"{where} RG")

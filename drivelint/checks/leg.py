@@ -16,6 +16,7 @@ from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
+from drivelint.checks.corners import HOLD, charge_spread, with_corner
 from drivelint.checks.facts import StageFacts, SwitchGate
 from drivelint.checks.printed import sum_line
 from drivelint.circuit.model import GROUND, Device
@@ -187,11 +188,15 @@ def _driver_sink(facts: StageFacts, drive: float) -> Value:
 
 
 def _turn_off(
-    facts: StageFacts, device: Device, drive: Value | None, external: Value | None
+    facts: StageFacts,
+    device: Device,
+    drive: Value | None,
+    external: Value | None,
+    spread: float = 1.0,
 ) -> TurnOff:
     """t_off of ``device`` from the parts key t_off, else the gate-charge relations."""
     v_blocked = facts.v_switched
-    gate = facts.switch_gate(device, drive.value if drive else 10.0, v_blocked)
+    gate = facts.switch_gate(device, drive.value if drive else 10.0, v_blocked, spread)
     if gate.t_off is not None:
         return TurnOff(device.name, gate.t_off, drive, None, gate)
     if drive is None or external is None or gate.c_iss is None or gate.q_gd is None:
@@ -220,7 +225,7 @@ def _turn_off(
 
 def _high_turn_off(facts: StageFacts) -> TurnOff:
     stage = facts.stage
-    drive = facts.nominal.v_boot0
+    drive = facts.v_boot0  # at the corner the deck of a finding holds (the hold side)
     ohms, names = 0.0, []
     for path in stage.pulldowns[:1]:
         for name in path.devices:
@@ -235,7 +240,9 @@ def _high_turn_off(facts: StageFacts) -> TurnOff:
         if names
         else "no resistor on the pull-down path",
     )
-    return _turn_off(facts, facts.switch, drive, external)
+    # the stage's own switch at the top of its gate-charge spread (checks/corners.py): the
+    # slowest turn-off; its partner is taken at its values as given
+    return _turn_off(facts, facts.switch, drive, external, charge_spread(facts))
 
 
 def _low_turn_off(facts: StageFacts, device: Device, command: Control) -> TurnOff:
@@ -327,7 +334,9 @@ def check_cross_conduction(stage: DriveStage, ctx: CheckContext) -> Iterator[Fin
     hs_name, ls_name = stage.switch, low_device.name
     hs_cmd, ls_cmd = high.source or "the high-side command", low.source or "the low-side command"
     if timing.overlaps and interlock is None:
-        yield _overlap_finding(ctx, timing, values, high_off, low_off, (hs_cmd, ls_cmd))
+        found = _overlap_finding(ctx, timing, values, high_off, low_off, (hs_cmd, ls_cmd))
+        uses = frozenset({"charge"}) if "t_off" in found.values else frozenset()
+        yield with_corner(found, facts, HOLD, uses)
         return
     # each edge: (dead time, the switch turning off, the command whose edge moves)
     lead = timing.lead if timing.lead is not None else 0.0
@@ -361,8 +370,14 @@ def check_cross_conduction(stage: DriveStage, ctx: CheckContext) -> Iterator[Fin
             short.append((needed - dead, edge, dead, needed, turn_off, command, where))
     if not short:
         return
-    _, edge, dead, needed, turn_off, command, where = max(short, key=lambda s: s[0])
-    yield _short_finding(ctx, values, edge, dead, needed, turn_off, command, where, interlock)
+    short.sort(key=lambda s: -s[0])
+    _, edge, dead, needed, turn_off, command, where = short[0]
+    other = short[1] if len(short) > 1 else None
+    finding = _short_finding(
+        ctx, values, edge, dead, needed, turn_off, command, where, interlock, other
+    )
+    high_side = turn_off is high_off or (other is not None and other[4] is high_off)
+    yield with_corner(finding, facts, HOLD, frozenset({"charge"}) if high_side else frozenset())
 
 
 def _turn_off_values(values: dict[str, Value], turn_off: TurnOff, prefix: str = "") -> None:
@@ -517,6 +532,7 @@ def _short_finding(
     command: str,
     where: str,
     interlock: Value | None,
+    other: tuple[float, str, float, float, TurnOff, str, str] | None = None,
 ) -> Finding:
     facts = ctx.facts
     stage = facts.stage
@@ -551,9 +567,31 @@ def _short_finding(
     )
     if soft is not None:
         values["t_off_soft"] = soft
+    also = ""
+    if other is not None:
+        _, _, other_dead, other_needed, other_off, other_command, other_where = other
+        other_suggested = _rounded_up(other_needed)
+        values["other_dead_time"] = values[f"dead_time_{other[1]}"]
+        values["other_dead_time_needed"] = computed(
+            other_needed, "s", f"computed: t_prop_mismatch + t_off({other_off.switch}) + margin"
+        )
+        values["other_dead_time_shift"] = computed(
+            other_suggested - other_dead,
+            "s",
+            f"computed: {_ns(other_suggested)} − the dead time: how far {other_command}'s "
+            "on-edge moves",
+        )
+        message += (
+            f"; the other edge, between {other_where}, is short too ({_ns(other_dead)} "
+            f"against {_ns(other_needed)})"
+        )
+        also = (
+            f", and at the other edge to at least {_ns(other_suggested)}: move "
+            f"{other_command}'s turn-on edge {_ns(other_suggested - other_dead)} later"
+        )
     fix = (
         f"widen the dead time at that edge to at least {_ns(suggested)}: move {command}'s "
-        f"turn-on edge {_ns(suggested - dead)} later"
+        f"turn-on edge {_ns(suggested - dead)} later{also}"
         + (
             f" (or use a driver whose built-in dead time exceeds {_ns(suggested)})"
             if interlock is not None

@@ -1183,8 +1183,8 @@ class LegEdge:
 
     outgoing: str
     incoming: str
-    out_vgs: str
-    in_vgs: str
+    out_nets: tuple[str, str]  # (gate, source)
+    in_nets: tuple[str, str]
     out_vth: float
     in_vth: float
     out_command: float  # the outgoing switch's off-command (midpoint crossing)
@@ -1223,11 +1223,11 @@ def leg_edge(ctx: BenchContext, shift: float = 0.0) -> LegEdge | Declined:
     v_switched = facts.v_switched
     high_gate = facts.switch_gate(facts.switch, 10.0, v_switched).v_threshold
     low_gate = facts.switch_gate(low_device, 10.0, v_switched).v_threshold
-    low_nets = (low_device.net("g"), low_device.net("s"))
-    if high_gate is None or low_gate is None or None in low_nets:
+    low_gate_net, low_source = low_device.net("g"), low_device.net("s")
+    if high_gate is None or low_gate is None or low_gate_net is None or low_source is None:
         return Declined("a switch's threshold is not known, so its conduction cannot be timed")
-    high_vgs = difference(stage.gate, stage.source)
-    low_vgs = difference(*low_nets)  # type: ignore[arg-type]
+    high_vgs = (stage.gate, stage.source)
+    low_vgs = (low_gate_net, low_source)
     if at_turn_on:  # the low side turns off, the high side on
         off = turn_on + end if overlap else turn_on - dead
         return LegEdge(
@@ -1273,14 +1273,14 @@ def cross_conduction(ctx: BenchContext) -> Bench | Declined:
         time_to_fall(
             "tb_out_off",
             reference,
-            edge.out_vgs,
+            difference(*edge.out_nets),
             edge.out_vth,
             f"{edge.outgoing}'s V_GS falls through its threshold (from the first command)",
         ),
         time_to_fall(
             "tb_in_on",
             reference,
-            edge.in_vgs,
+            difference(*edge.in_nets),
             edge.in_vth,
             f"{edge.incoming}'s V_GS rises through its threshold (from the first command)",
             falls=False,
@@ -1349,18 +1349,10 @@ def cross_conduction(ctx: BenchContext) -> Bench | Declined:
         saves=saves,
         uic=ctx.design.uses_uic(),
         traces=(
-            Trace(f"V_GS {edge.outgoing}", "V", *_vectors(edge.out_vgs)),
-            Trace(f"V_GS {edge.incoming}", "V", *_vectors(edge.in_vgs)),
+            voltage_trace(*edge.out_nets, name=f"V_GS {edge.outgoing}"),
+            voltage_trace(*edge.in_nets, name=f"V_GS {edge.incoming}"),
         ),
     )
-
-
-def _vectors(vgs: str) -> tuple[str, str | None]:
-    """The (plus, minus) vectors of a V_GS written by ``difference``."""
-    if vgs.startswith("par('"):
-        plus, minus = vgs[5:-2].split("-", 1)
-        return plus, minus
-    return vgs, None
 
 
 def traces_for(ctx: BenchContext, kind: str) -> tuple[Trace, ...]:

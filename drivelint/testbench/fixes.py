@@ -16,6 +16,7 @@ import math
 from collections.abc import Callable, Mapping
 
 from drivelint.checks.corners import HOLD, aux_low, nominal_for
+from drivelint.diagnostics import Span
 from drivelint.netlist.statements import Element, Word
 from drivelint.netlist.values import format_si
 from drivelint.netlist.waveforms import Pulse
@@ -461,23 +462,49 @@ def _raised_isolated(
 
 
 def cross_conduction(ctx: BenchContext) -> Fix | Declined:
-    """The finding's fix: the named command's on-edge moved ``dead_time_shift`` later (its
-    PULSE delayed and shortened where the pulse is its on-window, lengthened where the
-    pulse is its off-window), the other edge left where it was."""
+    """The finding's fix: the named command's on-edge moved ``dead_time_shift`` later (and
+    the other command's ``other_dead_time_shift`` where both edges are short): its PULSE
+    delayed and shortened where the pulse is its on-window, lengthened where the pulse is
+    its off-window, the other edge left where it was."""
+    stage = ctx.stage
     shift = ctx.value("dead_time_shift")
-    stage, design = ctx.stage, ctx.design
     name = ctx.finding.device
     partner = next((r for r in stage.refresh if r.kind == "low-side switch"), None)
-    controls = [stage.control, partner.command if partner else None]
-    control = next((c for c in controls if c is not None and c.source == name), None)
+    controls = [c for c in (stage.control, partner.command if partner else None) if c]
+    if shift is None or not any(c.source == name for c in controls):
+        return Declined("the finding names no command source whose edge can be moved")
+    moves = [(name, shift)]
+    other_shift = ctx.value("other_dead_time_shift")
+    other = next((c.source for c in controls if c.source and c.source != name), None)
+    if other_shift is not None:
+        if other is None:
+            return Declined("both edges are short and the leg has one command source")
+        moves.append((other, other_shift))
+    edits: dict[Span, Edit] = {}
+    words = []
+    for source, amount in moves:
+        control = next(c for c in controls if c.source == source)
+        made = _moved_on_edge(ctx, source, control.inverting, amount)
+        if isinstance(made, Declined):
+            return made
+        span, edit = made
+        edits[span] = edit
+        words.append(f"{source}'s turn-on edge moved {format_si(amount, 's')} later")
+    return Fix(" and ".join(words) + " (the finding's dead-time shifts)", edits)
+
+
+def _moved_on_edge(
+    ctx: BenchContext, name: str, inverting: bool, shift: float
+) -> tuple[Span, Edit] | Declined:
+    design = ctx.design
     device = ctx.circuit.devices.get(name)
     element = design.element_of(name) if device is not None else None
-    if shift is None or control is None or device is None or element is None:
-        return Declined("the finding names no command source whose edge can be moved")
+    if device is None or element is None:
+        return Declined(f"{name} is not a statement of the design")
     wave = device.waveform
     if not isinstance(wave, Pulse) or wave.per is None:
         return Declined(f"{name} is not a PULSE train: its edges are not rewritten")
-    on_window = (wave.v2 > wave.v1) != control.inverting
+    on_window = (wave.v2 > wave.v1) != inverting
     td, pw = wave.td, wave.pw
     if on_window:
         td, pw = td + shift, pw - shift
@@ -495,11 +522,8 @@ def cross_conduction(ctx: BenchContext) -> Fix | Declined:
     if wave.pulses is not None:
         text += f" {wave.pulses}"
     line = f"{design.raw_name(element)} {first.raw} {second.raw} PULSE({text})"
-    return Fix(
-        f"{name}'s turn-on edge moved {format_si(shift, 's')} later (the finding's "
-        "dead_time_shift)" + _shared(ctx, element),
-        {element.span: Edit(lines=(line,), note=f"fix: {name}'s on-edge later")},
-    )
+    note = f"fix: {name}'s on-edge {format_si(shift, 's')} later" + _shared(ctx, element)
+    return element.span, Edit(lines=(line,), note=note)
 
 
 APPLIERS: Mapping[str, Applier] = {
