@@ -201,6 +201,8 @@ def _turn_off(
         return TurnOff(device.name, gate.t_off, drive, None, gate)
     if drive is None or external is None or gate.c_iss is None or gate.q_gd is None:
         return TurnOff(device.name, None, drive, None, gate)
+    if not drive.value > 0:
+        return TurnOff(device.name, None, drive, None, gate)
     if gate.v_plateau is None or not 0 < gate.v_plateau.value:
         return TurnOff(device.name, None, drive, None, gate)
     sink = _driver_sink(facts, drive.value)
@@ -257,13 +259,20 @@ def _low_turn_off(facts: StageFacts, device: Device, command: Control) -> TurnOf
     if via_driver:
         assert driver is not None
         low_out, supply = driver.pins.get("low_out"), driver.pins.get("supply")
-        ground = driver.pins.get("ground")
         rails = facts.circuit.rails
         if low_out is not None:
             targets = {low_out}
-        if supply in rails:
-            level = rails[supply] - (rails.get(ground or GROUND, 0.0) if ground else 0.0)
-            drive = Value(level, "V", f"driver {driver.device}'s supply pin at {supply}")
+        source_net = device.net("s") or GROUND
+        low_level = 0.0 if source_net == GROUND else rails.get(source_net)
+        if supply is not None and supply in rails and low_level is not None:
+            level = rails[supply] - low_level
+            if level > 0:
+                drive = Value(
+                    level,
+                    "V",
+                    f"driver {driver.device}'s supply pin {supply} against "
+                    f"{device.name}'s source",
+                )
     elif command.waveform is not None and command.source is not None:
         wave = command.waveform
         level = wave.low() if command.inverting else wave.high()
