@@ -108,8 +108,8 @@ def leg_timing(
     )
     lead = trail = None
     if not overlaps:
-        lead = min(a - d for a, _ in highs for _, d in lows if d <= a)
-        trail = min(c - b for _, b in highs for c, _ in lows if c >= b)
+        lead = min((a - d for a, _ in highs for _, d in lows if d <= a), default=None)
+        trail = min((c - b for _, b in highs for c, _ in lows if c >= b), default=None)
     return LegTiming(period, origin, highs[0][1] - highs[0][0], tuple(overlaps), lead, trail)
 
 
@@ -215,6 +215,8 @@ def _turn_off(
         f"{Value(internal, 'Ohm', '').text()}"
         + (f" ({gate.rg_internal.origin})" if gate.rg_internal else " (none given)"),
     )
+    if r_off.value < 0 or gate.c_iss.value < 0 or gate.q_gd.value < 0:
+        return TurnOff(device.name, None, drive, r_off, gate)  # not a physical gate
     threshold = gate.v_threshold.value if gate.v_threshold else None
     t = switching.turn_off_time(
         r_off.value, gate.c_iss.value, drive.value, gate.v_plateau.value, gate.q_gd.value, threshold
@@ -270,8 +272,7 @@ def _low_turn_off(facts: StageFacts, device: Device, command: Control) -> TurnOf
                 drive = Value(
                     level,
                     "V",
-                    f"driver {driver.device}'s supply pin {supply} against "
-                    f"{device.name}'s source",
+                    f"driver {driver.device}'s supply pin {supply} against {device.name}'s source",
                 )
     elif command.waveform is not None and command.source is not None:
         wave = command.waveform
