@@ -71,6 +71,8 @@ def _windows(
         return None
     if not found[2]:
         return "off"
+    if any(math.isinf(end) for _, end in found[2]):
+        return "on"  # past the threshold through the whole period
     return found
 
 
@@ -85,11 +87,8 @@ def leg_timing(
     if hs is None or ls is None or isinstance(hs, str):
         return None
     _, period, hs_runs = hs
-    if math.isinf(hs_runs[0][1]):
-        return None
-    if isinstance(ls, str):  # the low side held on under a switching high side
-        ls_runs: tuple[tuple[float, float], ...] = ((hs_runs[0][0] - period, math.inf),)
-    else:
+    ls_runs: tuple[tuple[float, float], ...] = ()
+    if not isinstance(ls, str):
         if not math.isclose(ls[1], period, rel_tol=1e-6):
             return None
         ls_runs = ls[2]
@@ -103,6 +102,8 @@ def leg_timing(
     lows = [
         (s + k * period, e + k * period) for s, e in (refer(r) for r in ls_runs) for k in (-1, 0, 1)
     ]
+    if isinstance(ls, str):  # the low side held on under a switching high side
+        lows = [(-math.inf, math.inf)]
     overlaps = sorted(
         (max(a, c), min(b, d)) for a, b in highs for c, d in lows if min(b, d) > max(a, c)
     )

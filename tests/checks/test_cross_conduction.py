@@ -249,3 +249,31 @@ def test_overlap_against_ngspice(tmp_path: Path) -> None:
     # the bound holds: the bus delivers far less than V_bus/(R_hs + R_ls) in 300 ns
     peak = -min(waves.between("i(vbus)", t0, t0 + 1.5e-6))
     assert 50.0 < peak <= finding.values["shoot_through_bound"].value
+
+
+def test_a_low_side_held_on_under_a_switching_high_side_overlaps_every_on_time() -> None:
+    (finding,) = lint(CARD.bad.replace("PULSE(0 12 9.8u 10n 10n 14.5u 25u)", "DC 12"))
+    assert finding.severity is Severity.ERROR
+    assert finding.values["command_overlap"].value == pytest.approx(10.01e-6, rel=1e-3)
+
+
+def test_an_inverting_level_shifter_is_read_through_its_inversion() -> None:
+    # examples/README.md: the 48 V phase leg's high side is commanded active-low through
+    # the NPN level shifter Q1; read as written (not inverted) its command would overlap
+    # the low side's for most of the period.
+    result = check_path(EXAMPLES / "lev48_phase_leg_npn_shifter.cir")
+    (stage,) = [s for s in result.stages if s.floating]
+    assert stage.control is not None and stage.control.inverting
+    (partner,) = [r for r in stage.refresh if r.kind == "low-side switch"]
+    assert partner.command is not None and stage.control.waveform is not None
+    assert partner.command.waveform is not None
+    timing = leg_timing(
+        stage.control.waveform, True, partner.command.waveform, partner.command.inverting
+    )
+    assert isinstance(timing, LegTiming) and not timing.overlaps
+    assert timing.lead == pytest.approx(500e-9) and timing.trail == pytest.approx(1e-6)
+    wrong = leg_timing(
+        stage.control.waveform, False, partner.command.waveform, partner.command.inverting
+    )
+    assert isinstance(wrong, LegTiming) and wrong.overlaps
+    assert [f for f in result.findings if f.rule == RULE] == []
