@@ -26,7 +26,20 @@ DIODE_KINDS = frozenset({"diode", "zener"})
 SEMICONDUCTOR_KINDS = SWITCH_KINDS | BJT_KINDS | DIODE_KINDS | {"driver"}
 PART_KINDS = SEMICONDUCTOR_KINDS | {"capacitor", "resistor"}
 PIN_ROLES = frozenset(
-    {"boot", "switch", "high_out", "low_out", "supply", "ground", "high_in", "low_in", "enable"}
+    {
+        "boot",
+        "switch",
+        "high_out",
+        "low_out",
+        "supply",
+        "ground",
+        "high_in",
+        "low_in",
+        # inputs that command their output on while low (an inverting input)
+        "high_in_active_low",
+        "low_in_active_low",
+        "enable",
+    }
 )
 
 

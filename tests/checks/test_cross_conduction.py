@@ -277,3 +277,64 @@ def test_an_inverting_level_shifter_is_read_through_its_inversion() -> None:
     )
     assert isinstance(wrong, LegTiming) and wrong.overlaps
     assert [f for f in result.findings if f.rule == RULE] == []
+
+
+ACTIVE_LOW = """36 V half bridge whose driver's low-side input is active-low
+VBUS bus 0 DC 36
+VCC vcc 0 DC 12
+VHIN hin 0 PULSE(0 5 0 10n 10n 10u 25u)
+VLINB linb 0 PULSE(0 5 {td} 10n 10n {pw} 25u)
+XU vcc boot hg sw hin linb 0 lg HBX
+D1 vcc boot dfast
+C1 boot sw 470n
+RGH hg g 4.7
+RGL lg gl 4.7
+M1 bus g sw nfet
+M2 sw gl 0 nfet
+RL sw 0 20
+.subckt HBX VCC VB HO VS HIN LINB COM LO
+BH ho1 VS V = V(HIN,COM) > 2.5 ? V(VB,VS) : 0
+RH ho1 HO 2
+BL lo1 COM V = V(LINB,COM) < 2.5 ? V(VCC,COM) : 0
+RL lo1 LO 2
+.ends HBX
+.model dfast D(IS=1n N=1.6 RS=0.2 BV=100 TT=20n)
+.model nfet VDMOS(VTO=3.5 KP=20 Cgs=2n Cgdmax=1n)
+.end
+"""
+
+
+def _with_driver(text: str, low_input: str) -> list[Finding]:
+    from drivelint.ratings.parts import Part, PartsLibrary
+
+    pins = {
+        "vcc": "supply",
+        "vb": "boot",
+        "ho": "high_out",
+        "vs": "switch",
+        "hin": "high_in",
+        "linb": low_input,
+        "com": "ground",
+        "lo": "low_out",
+    }
+    library = PartsLibrary({"hbx": Part("hbx", "driver", {"i_sink": 2.0}, pins, "test")})
+    result = check_text(at_nominal(text), parts=library)
+    assert not [d for d in result.diagnostics if d.severity.label == "error"], result.diagnostics
+    return [f for f in result.findings if f.rule == RULE]
+
+
+def test_an_active_low_driver_input_is_read_inverted() -> None:
+    # The low-side input LINB commands the low side on while it is low: its pulse (high)
+    # is the low side's off-window, from 24.7 us to 10.3 us into the next period: about
+    # 300 ns around the high side's on-window (0 to 10 us), clean read as active-low ...
+    clean = ACTIVE_LOW.replace("{td}", "24.7u").replace("{pw}", "10.59u")
+    assert _with_driver(clean, "low_in_active_low") == []
+    # ... and read as an active-high input its command would overlap the high side's.
+    (wrong,) = _with_driver(clean, "low_in")
+    assert wrong.severity is Severity.ERROR
+    # An active-low command whose off-window is too short overlaps at the high side's
+    # turn-off: LINB falls (the low side on) at 9.8 us, 210 ns before the high side's ends.
+    early = ACTIVE_LOW.replace("{td}", "24.7u").replace("{pw}", "10.09u")
+    (finding,) = _with_driver(early, "low_in_active_low")
+    assert finding.severity is Severity.ERROR and finding.device == "vlinb"
+    assert finding.values["command_overlap"].value == pytest.approx(210e-9, rel=1e-3)
