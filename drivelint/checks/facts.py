@@ -1445,6 +1445,19 @@ class StageFacts:
                 for v in (c_iss, q_gd)
             )
         rds = ratings.get(device, "rds_on")
+        overdrive = drive - params.get("vto", 0.0)
+        if rds is None and model is not None and params.get("kp", 0.0) > 0 and overdrive > 0:
+            # the MOS1 equations' linear region at small V_DS, I = KP·(W/L)·(V_GS − VTO)·V_DS
+            # (SPICE3 / ngspice manual, MOSFET level 1; VDMOS is built on them, W/L = 1)
+            ratio = 1.0 if model.type == "vdmos" else width / device.params.get("l", 1.0)
+            ohms = params.get("rd", 0.0) + params.get("rs", 0.0)
+            ohms += 1.0 / (params["kp"] * ratio * overdrive)
+            rds = computed(
+                ohms,
+                "Ohm",
+                f"computed: RD + RS + 1/(KP·(V_GS − VTO)) at V_GS = {format_si(drive, 'V')} "
+                f"of {where} (an estimate)",
+            )
         if rds is not None and device.multiplier != 1:
             count = device.multiplier
             rds = Value(rds.value / count, "Ohm", f"{rds.origin}, {count:g} in parallel")

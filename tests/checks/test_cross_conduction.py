@@ -86,7 +86,13 @@ def test_card_bad_example_overlaps_at_the_high_sides_turn_off() -> None:
     assert needed == pytest.approx(math.ceil(values["t_off"].value / 10e-9) * 10e-9)
     assert values["dead_time_shift"].value == pytest.approx(210e-9 + needed)
     assert "turn-on edge" in finding.fix and "vgl" in finding.fix
-    assert "give rds_on" in finding.message
+    # no rds_on given: the MOS1 linear region of the card, 1/(KP·(V_GS − VTO)) (SPICE3 /
+    # ngspice manual, level 1; VDMOS with W/L = 1), at each switch's drive
+    high, low = values["rds_on_high"].value, values["rds_on_low"].value
+    assert low == pytest.approx(1 / (20 * (12 - 3.5)))
+    assert high == pytest.approx(1 / (20 * (values["v_drive"].value - 3.5)))
+    assert values["shoot_through_bound"].value == pytest.approx(36 / (high + low))
+    assert "estimate" in values["rds_on_high"].origin
     assert lint(CARD.good) == []
 
 
