@@ -1173,6 +1173,7 @@ def gate_headroom(ctx: BenchContext) -> Bench | Declined:
 
 
 LEG_STEADY_PERIODS = 3  # periods run after the supplies have charged, before the edge measured
+LEG_GUARD = 100e-9  # the edge's cards start this much before its first command
 
 
 @dataclass(frozen=True, slots=True)
@@ -1266,7 +1267,9 @@ def cross_conduction(ctx: BenchContext) -> Bench | Declined:
     edge = leg_edge(ctx, shift)
     if isinstance(edge, Declined):
         return edge
-    reference = min(edge.out_command, edge.in_command)
+    # measured from a little before the first command: an edge crosses a switch's
+    # threshold before its own midpoint when the threshold is below it
+    reference = min(edge.out_command, edge.in_command) - min(LEG_GUARD, edge.period / 100)
     late = max(edge.out_command, edge.in_command)
     window_end = min(late + edge.period / 4, MAX_STOP)
     cards = [
