@@ -344,3 +344,24 @@ def test_an_active_low_driver_input_is_read_inverted() -> None:
     (finding,) = _with_driver(early, "low_in_active_low")
     assert finding.severity is Severity.ERROR and finding.device == "vlinb"
     assert finding.values["command_overlap"].value == pytest.approx(210e-9, rel=1e-3)
+
+
+def test_a_given_turn_off_time_is_used_as_given(tmp_path: Path) -> None:
+    # parts key t_off (t_d(off) + t_f in this drive): 500 ns against the good card's
+    # 290 ns dead time at the high side's turn-off
+    text = CARD.good.replace("VBUS bus", "* drivelint: part M1 t_off=500n\nVBUS bus")
+    (finding,) = lint(text)
+    assert finding.severity is Severity.WARNING and finding.device == "vgl"
+    assert finding.values["t_off"].value == pytest.approx(500e-9)
+    assert finding.values["t_off"].origin.startswith("directive")
+    assert finding.values["dead_time_shift"].value == pytest.approx(500e-9 - 290e-9)
+    # the keys are validated like the rest
+    from drivelint.ratings.parts import PartsError, load_parts
+
+    bad = tmp_path / "parts.toml"
+    bad.write_text('[part.DRV]\nkind = "driver"\ndead_time_min = "-5 ns"\n', encoding="utf-8")
+    with pytest.raises(PartsError, match="dead_time_min"):
+        load_parts(bad)
+    bad.write_text('[part.Q]\nkind = "diode"\nt_off = "5 ns"\n', encoding="utf-8")
+    with pytest.raises(PartsError, match="does not apply"):
+        load_parts(bad)
