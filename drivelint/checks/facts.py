@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
 from functools import cached_property
 from typing import TYPE_CHECKING
 
@@ -127,6 +128,21 @@ def _diode_law(model: object) -> bool:
 
 def _where(device: Device) -> str:
     return f"{device.span.path}:{device.span.line}"
+
+
+@dataclass(frozen=True, slots=True)
+class SwitchGate:
+    """What a switch's turn-off and on-state take, for any switch of the stage's leg: its
+    input capacitance with the switch on, Miller charge, plateau, threshold, on-resistance
+    and a turn-off time given outright; None where nothing gives it."""
+
+    c_iss: Value | None
+    q_gd: Value | None
+    v_plateau: Value | None
+    v_threshold: Value | None
+    rds_on: Value | None
+    t_off: Value | None
+    rg_internal: Value | None
 
 
 class StageFacts:
@@ -1372,6 +1388,105 @@ class StageFacts:
             return None
         droop = boot_physics.allowed_droop(self.v_boot0.value, self.v_boot_min.value)
         return Value(droop, "V", "computed: V_boot,0 − V_boot,min")
+
+    def switch_gate(
+        self, device: Device, drive: float, v_blocked: float, spread: float = 1.0
+    ) -> SwitchGate:
+        """The gate figures of ``device`` (this stage's switch or its leg partner) driven
+        to ``drive`` volts and blocking ``v_blocked`` when off: parts library first, then
+        the model card (VDMOS C_gs and C_gd(V), or the overlap capacitances), each with
+        its origin. The plateau falls back to the threshold (the plateau at light load).
+        ``spread`` scales the charges and capacitances (a gate charge's corner)."""
+        ratings = self.ratings
+        multiplier = device.multiplier * spread
+        model = device.model
+        params = model.params if model else {}
+        where = f"model {model.name} ({model.span.path}:{model.span.line})" if model else ""
+        rated, tested = ratings.get(device, "qg"), ratings.get(device, "vgs_qg")
+        qgd = ratings.get(device, "qgd")
+        vdmos = model is not None and model.type == "vdmos" and "cgs" in params
+        cgd_args = (
+            params.get("cgdmin", params.get("cgdmax", 0.0)),
+            params.get("cgdmax", 0.0),
+            params.get("a", 1.0),
+        )
+        width = device.params.get("w", 1.0)
+        c_iss: Value | None = None
+        if rated is not None and tested is not None:
+            c = gate_physics.gate_capacitance_above_plateau(
+                rated.value, tested.value, qgd.value if qgd else None
+            )
+            c_iss = computed(c * multiplier, "F", f"computed: (Q_g − Q_gd)/V_qg ({rated.origin})")
+        elif vdmos:
+            c = params["cgs"] + gate_physics.vdmos_gate_drain_capacitance(drive, *cgd_args)
+            c_iss = computed(
+                c * multiplier, "F", f"computed: C_gs + C_gd(V_GD = {drive:.3g} V) of {where}"
+            )
+        elif params.get("cgso", 0.0) + params.get("cgdo", 0.0) > 0:
+            c = (params.get("cgso", 0.0) + params.get("cgdo", 0.0)) * width
+            c_iss = computed(c * multiplier, "F", f"computed: CGSO + CGDO of {where}")
+        plateau = ratings.get(device, "vgs_plateau")
+        threshold = ratings.get(device, "vth")
+        if plateau is None and threshold is not None:
+            plateau = Value(
+                threshold.value,
+                "V",
+                f"threshold {threshold.text()} ({threshold.origin}) taken as the plateau "
+                "(its level at light load; give vgs_plateau)",
+            )
+        q_gd: Value | None = None
+        if qgd is not None:
+            q_gd = Value(qgd.value * multiplier, "C", qgd.origin)
+        elif vdmos and plateau is not None:
+            # V_GD moves from V_pl (on) to V_pl − V_blocked (off) on the plateau
+            charge = gate_physics.vdmos_gate_drain_charge(
+                plateau.value, *cgd_args
+            ) - gate_physics.vdmos_gate_drain_charge(plateau.value - v_blocked, *cgd_args)
+            q_gd = computed(
+                charge * multiplier,
+                "C",
+                f"computed: Q_gd(V_pl) − Q_gd(V_pl − {format_si(v_blocked, 'V')}) of {where}",
+            )
+        elif params.get("cgdo", 0.0) > 0:
+            q_gd = computed(
+                params["cgdo"] * width * v_blocked * multiplier,
+                "C",
+                f"computed: CGDO·{format_si(v_blocked, 'V')} of {where}",
+            )
+        if spread != 1.0:
+            c_iss, q_gd = (
+                None
+                if v is None
+                else computed(v.value, v.unit, f"{v.origin}, × {spread:g} (qg_spread)")
+                for v in (c_iss, q_gd)
+            )
+        rds = ratings.get(device, "rds_on")
+        overdrive = drive - params.get("vto", 0.0)
+        if rds is None and model is not None and params.get("kp", 0.0) > 0 and overdrive > 0:
+            # the MOS1 equations' linear region at small V_DS, I = KP·(W/L)·(V_GS − VTO)·V_DS
+            # (SPICE3 / ngspice manual, MOSFET level 1; VDMOS is built on them, W/L = 1)
+            ratio = 1.0 if model.type == "vdmos" else width / device.params.get("l", 1.0)
+            ohms = params.get("rd", 0.0) + params.get("rs", 0.0)
+            ohms += 1.0 / (params["kp"] * ratio * overdrive)
+            rds = computed(
+                ohms,
+                "Ohm",
+                f"computed: RD + RS + 1/(KP·(V_GS − VTO)) at V_GS = {format_si(drive, 'V')} "
+                f"of {where} (an estimate)",
+            )
+        if rds is not None and device.multiplier != 1:
+            count = device.multiplier
+            rds = Value(rds.value / count, "Ohm", f"{rds.origin}, {count:g} in parallel")
+        internal = ratings.get(device, "rg_internal")
+        if internal is None and params.get("rg", 0.0) > 0:
+            internal = Value(params["rg"], "Ohm", f"{where} RG")
+        return SwitchGate(
+            c_iss, q_gd, plateau, threshold, rds, ratings.get(device, "t_off"), internal
+        )
+
+    def driver_value(self, key: str, unit: str) -> Value | None:
+        """A figure of the stage's driver IC from the parts library (``t_prop``, ``i_sink``…)."""
+        return self._driver_value(key, unit)
 
     def finite(self, value: Value | None) -> bool:
         return value is not None and math.isfinite(value.value)

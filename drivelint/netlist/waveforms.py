@@ -1139,3 +1139,58 @@ def build_waveform(
     if kind == "sin":
         return _build_sine(values, tran)
     return _build_exponential(values, tran)
+
+
+# ------------------------------------------------------------------ steady windows
+
+
+def steady_windows(
+    waveform: Waveform, threshold: float, below: bool = False
+) -> tuple[float, float, tuple[tuple[float, float], ...]] | None:
+    """One steady period of a periodic PULSE or PWL and the stretches of it above (or,
+    with ``below``, under) ``threshold``: ``(origin, period, runs)``, each run a
+    ``(start, end)`` in absolute time with ``origin <= start < origin + period``; a run that
+    wraps past the period's end continues into the next one (``end`` beyond it).
+
+    None when the waveform does not repeat, or repeats in a form whose edges are not a
+    plain train (a pulse longer than its period, a rise slower than it): whoever needs
+    edge times then does not get a guess.
+    """
+    wave = waveform.negated() if below else waveform
+    level = -threshold if below else threshold
+    period = wave.period()
+    if period is None or period <= 0:
+        return None
+    pieces: list[_Piece]
+    if isinstance(wave, Pulse):
+        if wave.v1 == wave.v2 or wave._sawtooth():
+            return None
+        if wave.tr + wave.pw + wave.tf > period:
+            return None
+        origin = wave.td
+        t1 = origin + wave.tr
+        t2 = t1 + wave.pw
+        t3 = t2 + wave.tf
+        pieces = [
+            _Piece(origin, t1, wave.v1, wave.v2),
+            _Piece(t1, t2, wave.v2, wave.v2),
+            _Piece(t2, t3, wave.v2, wave.v1),
+            _Piece(t3, origin + period, wave.v1, wave.v1),
+        ]
+    elif isinstance(wave, Pwl):
+        index = wave._repeat_index()
+        if index is None:
+            return None
+        origin = wave.delay + wave.points[-1][0]
+        pieces, _ = wave._repeated_pass(origin, index)
+    else:
+        return None
+    runs = [(r.start, r.end) for r in _runs_above(pieces, level)]
+    end = origin + period
+    if len(runs) >= 2 and runs[0][0] == origin and runs[-1][1] == end:
+        # above across the period boundary: one run, wrapping
+        first = runs.pop(0)
+        runs[-1] = (runs[-1][0], end + (first[1] - origin))
+    elif runs and runs[0] == (origin, end):
+        runs = [(origin, math.inf)]
+    return origin, period, tuple(runs)

@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import math
+
 from drivelint.physics._units import (
     Amps,
     Coulombs,
+    Farads,
     Hertz,
     Kelvin,
     KelvinPerWatt,
@@ -44,6 +47,53 @@ def gate_current_turn_off(v_plateau: Volts, r_total: Ohms, v_off: Volts = 0.0) -
     for a negative turn-off bias) [V].
     """
     return (v_plateau - v_off) / r_total
+
+
+def turn_off_time(
+    r_off: Ohms,
+    c_iss: Farads,
+    v_drive: Volts,
+    v_plateau: Volts,
+    q_gd: Coulombs,
+    v_threshold: Volts | None = None,
+) -> Seconds:
+    """Time from the driver's turn-off edge until the switch stops conducting.
+
+    The gate-charge description of a MOSFET's turn-off (the gate discharging through the
+    total turn-off resistance): V_GS falls from V_drive to the Miller plateau as an RC
+    decay, t_1 = R_off·C_iss·ln(V_drive/V_pl); it stays on the plateau while Q_gd is
+    taken out at I_g = V_pl/R_off, t_2 = Q_gd/I_g; then the drain current falls as V_GS
+    decays from V_pl to the threshold, t_3 = R_off·C_iss·ln(V_pl/V_th) (left out when the
+    threshold is not given, or not below the plateau). Standard gate-drive texts, e.g.
+    L. Balogh, "Fundamentals of MOSFET and IGBT Gate Driver Circuits" (TI application
+    report SLUA618), turn-off intervals (from memory). C_iss at low V_DS is used for both
+    RC intervals, which makes t_3 an over-estimate (C_gd is smaller with the drain up).
+
+    r_off: driver pull-down + external + internal gate resistance [Ohm]; c_iss: input
+    capacitance C_gs + C_gd with the switch on [F]; v_drive: V_GS while on [V];
+    v_plateau: Miller plateau [V]; q_gd: gate–drain (Miller) charge [C]; v_threshold:
+    gate threshold [V] or None.
+    """
+    plateau = min(v_plateau, v_drive)
+    t_delay = r_off * c_iss * math.log(_ratio(v_drive, plateau))
+    # Q_gd/I_g with I_g = V_pl/R_off, written so that an ideal driver (R_off = 0) gives 0
+    t_plateau = q_gd * r_off / plateau
+    total = t_delay + t_plateau
+    if v_threshold is not None and 0 < _ratio(v_threshold, plateau) < 1:
+        total = total + r_off * c_iss * math.log(_ratio(plateau, v_threshold))
+    return total
+
+
+def shoot_through_current(v_bus: Volts, r_high: Ohms, r_low: Ohms, r_loop: Ohms) -> Amps:
+    """Bound on the current a leg conducts with both switches on: V_bus/(R_hs + R_ls + R_loop).
+
+    Ohm's law with both switches fully on: the loop's inductance only slows the rise
+    (di/dt = V_bus/L), so the resistive figure is what the current heads for, an upper
+    bound on what a short overlap reaches; the switches' saturation current bounds it too.
+    v_bus: the voltage across the leg [V]; r_high, r_low: the on-resistances [Ohm];
+    r_loop: the rest of the loop's resistance (shunts, traces) [Ohm].
+    """
+    return v_bus / (r_high + r_low + r_loop)
 
 
 def switching_loss(v: Volts, i: Amps, t_rise: Seconds, t_fall: Seconds, f: Hertz) -> Watts:

@@ -26,7 +26,20 @@ DIODE_KINDS = frozenset({"diode", "zener"})
 SEMICONDUCTOR_KINDS = SWITCH_KINDS | BJT_KINDS | DIODE_KINDS | {"driver"}
 PART_KINDS = SEMICONDUCTOR_KINDS | {"capacitor", "resistor"}
 PIN_ROLES = frozenset(
-    {"boot", "switch", "high_out", "low_out", "supply", "ground", "high_in", "low_in", "enable"}
+    {
+        "boot",
+        "switch",
+        "high_out",
+        "low_out",
+        "supply",
+        "ground",
+        "high_in",
+        "low_in",
+        # inputs that command their output on while low (an inverting input)
+        "high_in_active_low",
+        "low_in_active_low",
+        "enable",
+    }
 )
 
 
@@ -61,6 +74,9 @@ def _keys() -> dict[str, KeySpec]:
         "qgs": KeySpec("C", switch, help="gate-source charge"),
         "rds_on": KeySpec("Ohm", switch, help="on-resistance"),
         "rg_internal": KeySpec("Ohm", switch, closed=True, help="internal gate resistance"),
+        "t_off": KeySpec(
+            "s", switch, closed=True, help="turn-off time in this drive, t_d(off) + t_f"
+        ),
         # bipolar transistors
         "vceo_max": KeySpec("V", bjt, help="collector-emitter voltage rating, base open"),
         # diodes and Zeners (the body diode of a switch too)
@@ -82,6 +98,11 @@ def _keys() -> dict[str, KeySpec]:
         "q_levelshift": KeySpec("C", driver, closed=True, help="level-shifter charge per cycle"),
         "t_prop": KeySpec("s", driver, closed=True, help="propagation delay"),
         "t_prop_mismatch": KeySpec("s", driver, closed=True, help="delay mismatch"),
+        # a driver that never drives both outputs on and holds them apart at least this
+        # long (0 s: an interlock that adds no dead time of its own)
+        "dead_time_min": KeySpec(
+            "s", driver, closed=True, help="built-in dead time / shoot-through interlock"
+        ),
         # thermal and power, any semiconductor
         "rth_ja": KeySpec("K/W", semi, help="junction-to-ambient thermal resistance"),
         "rth_jc": KeySpec("K/W", semi, help="junction-to-case thermal resistance"),

@@ -895,10 +895,10 @@ class _StageBuilder:
         found = self.driver_output(gate, ("low_out",))
         if found is not None:
             info = found[0]
-            net = info.pins.get("low_in")
+            net, active_low = driver_input(info, "low")
             if net is None:
                 return None
-            traced = self.trace_source(net, inverting=False, path=[info.device])
+            traced = self.trace_source(net, inverting=active_low, path=[info.device])
             return traced if traced.waveform is not None else None
         traced = self.trace_source(gate, inverting=False, path=[])
         return traced if traced.waveform is not None else None
@@ -915,10 +915,10 @@ class _StageBuilder:
     ) -> Control | None:
         if driver is not None:
             info, out_role = driver
-            net = info.pins.get("high_in" if out_role == "high_out" else "low_in")
+            net, active_low = driver_input(info, "high" if out_role == "high_out" else "low")
             if net is None:
                 return Control(None, False, None, (info.device,))
-            return self.trace_source(net, inverting=False, path=[info.device])
+            return self.trace_source(net, inverting=active_low, path=[info.device])
         if floating_command is not None:
             wave = floating_command.waveform
             return Control(floating_command.name, False, wave, (floating_command.name,))
@@ -1367,6 +1367,15 @@ class _StageBuilder:
         if net == GROUND:
             return "ground"
         return net
+
+
+def driver_input(info: DriverInfo, side: str) -> tuple[str | None, bool]:
+    """The net of a driver's ``side`` ("high" or "low") input, and whether that input is
+    active-low (its output on while the input is low: an inverting input)."""
+    net = info.pins.get(f"{side}_in")
+    if net is not None:
+        return net, False
+    return info.pins.get(f"{side}_in_active_low"), True
 
 
 def recognise(circuit: Circuit, parts: PartsLibrary | None = None) -> tuple[DriveStage, ...]:

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 from drivelint.checks.base import Finding
 from drivelint.checks.corners import HOLD, STRESS
@@ -107,6 +107,8 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "voltage-stress/power": ("p_resistor",),
     "level-shift-contention/blocking": ("shifter_voltage_steady",),
     "level-shift-contention/contention": ("shifter_sink",),
+    "cross-conduction/overlap": ("command_overlap", "shoot_through_bound"),
+    "cross-conduction/dead time": ("t_switch_off",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
@@ -135,7 +137,10 @@ CORNER_USES: Mapping[str, frozenset[str]] = {
     "driver-decoupling": frozenset(),
 }
 # Claims that are bounds rather than estimates (the finding says "up to").
-SENSES: Mapping[str, str] = {"clamp_current_bound": "upper bound"}
+SENSES: Mapping[str, str] = {
+    "clamp_current_bound": "upper bound",
+    "shoot_through_bound": "upper bound",
+}
 
 
 def claim_keys(finding: Finding, stage: DriveStage) -> tuple[str, ...]:
@@ -451,6 +456,8 @@ def finding_kind(finding: Finding, stage: DriveStage) -> str:
         return f"voltage-stress/{stress_kind(values)}"
     if finding.rule == "level-shift-contention":
         return f"level-shift-contention/{shift_kind(values)}"
+    if finding.rule == "cross-conduction":
+        return "cross-conduction/" + ("overlap" if "command_overlap" in values else "dead time")
     if finding.rule != "gate-overvoltage":
         return finding.rule
     return f"gate-overvoltage/{_gate_kind(finding, stage)}"
@@ -1596,6 +1603,192 @@ def driver_decoupling(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+LEG_STEADY_PERIODS = 3  # periods run after the supplies have charged, before the edge measured
+LEG_GUARD = 100e-9  # the edge's cards start this much before its first command
+
+
+@dataclass(frozen=True, slots=True)
+class LegEdge:
+    """The edge of a leg a cross-conduction finding is about, in a steady period of the
+    deck: the switch turning off and the one turning on (device, V_GS vector, threshold)
+    and their commands' times."""
+
+    outgoing: str
+    incoming: str
+    out_nets: tuple[str, str]  # (gate, source)
+    in_nets: tuple[str, str]
+    out_vth: float
+    in_vth: float
+    out_command: float  # the outgoing switch's off-command (midpoint crossing)
+    in_command: float  # the incoming switch's on-command
+    period: float
+
+
+def leg_edge(ctx: BenchContext, shift: float = 0.0) -> LegEdge | Declined:
+    """The finding's edge, read off the design's commands (the fix moves the incoming
+    command ``shift`` later)."""
+    from drivelint.checks.leg import LegTiming, leg_timing
+
+    stage, facts, values = ctx.stage, ctx.facts, ctx.finding.values
+    partner = next((r for r in stage.refresh if r.kind == "low-side switch"), None)
+    high, low = stage.control, partner.command if partner else None
+    low_device = facts.device(partner.devices[0]) if partner else None
+    if high is None or low is None or low_device is None:
+        return Declined("the leg's two commands are not both traced")
+    if high.waveform is None or low.waveform is None:
+        return Declined("the leg's commands have no waveforms")
+    timing = leg_timing(high.waveform, high.inverting, low.waveform, low.inverting)
+    if not isinstance(timing, LegTiming):
+        return Declined("the leg's commands cannot be read off their waveforms")
+    overlap = "command_overlap" in values
+    if overlap:
+        start, end = timing.overlaps[0]
+        at_turn_on = start <= 1e-9 * timing.period
+    else:
+        dead = values["dead_time"].value
+        at_turn_on = values["dead_time_lead"].value == dead and (
+            ctx.finding.device != low.source or high.source == low.source
+        )
+    begin = charge_time(ctx) + LEG_STEADY_PERIODS * timing.period
+    cycles = math.ceil(max(begin - timing.origin, 0.0) / timing.period)
+    turn_on = timing.origin + cycles * timing.period
+    v_switched = facts.v_switched
+    high_gate = facts.switch_gate(facts.switch, 10.0, v_switched).v_threshold
+    low_gate = facts.switch_gate(low_device, 10.0, v_switched).v_threshold
+    low_gate_net, low_source = low_device.net("g"), low_device.net("s")
+    if high_gate is None or low_gate is None or low_gate_net is None or low_source is None:
+        return Declined("a switch's threshold is not known, so its conduction cannot be timed")
+    high_vgs = (stage.gate, stage.source)
+    low_vgs = (low_gate_net, low_source)
+    if at_turn_on:  # the low side turns off, the high side on
+        off = turn_on + end if overlap else turn_on - dead
+        return LegEdge(
+            low_device.name,
+            stage.switch,
+            low_vgs,
+            high_vgs,
+            low_gate.value,
+            high_gate.value,
+            off,
+            turn_on + shift,
+            timing.period,
+        )
+    off = turn_on + timing.on_time
+    on = turn_on + start if overlap else off + dead
+    return LegEdge(
+        stage.switch,
+        low_device.name,
+        high_vgs,
+        low_vgs,
+        high_gate.value,
+        low_gate.value,
+        off,
+        on + shift,
+        timing.period,
+    )
+
+
+def cross_conduction(ctx: BenchContext) -> Bench | Declined:
+    """The design's own commands, one steady edge: when the outgoing switch's V_GS falls
+    through its threshold and the incoming one's rises through its own (the conduction
+    overlap, or the gap), the turn-off time from the outgoing command, and the peak drain
+    current of the high side over the edge."""
+    values = ctx.finding.values
+    shift = (ctx.value("dead_time_shift") or 0.0) if ctx.fix is not None else 0.0
+    edge = leg_edge(ctx, shift)
+    if isinstance(edge, Declined):
+        return edge
+    # measured from a little before the first command: an edge crosses a switch's
+    # threshold before its own midpoint when the threshold is below it
+    reference = min(edge.out_command, edge.in_command) - min(LEG_GUARD, edge.period / 100)
+    late = max(edge.out_command, edge.in_command)
+    window_end = min(late + edge.period / 4, MAX_STOP)
+    cards = [
+        time_to_fall(
+            "tb_out_off",
+            reference,
+            difference(*edge.out_nets),
+            edge.out_vth,
+            f"{edge.outgoing}'s V_GS falls through its threshold (from the first command)",
+        ),
+        time_to_fall(
+            "tb_in_on",
+            reference,
+            difference(*edge.in_nets),
+            edge.in_vth,
+            f"{edge.incoming}'s V_GS rises through its threshold (from the first command)",
+            falls=False,
+        ),
+        expression(
+            "tb_conduction_gap",
+            "tb_in_on-tb_out_off",
+            "from the outgoing switch's turn-off to the incoming one's turn-on (< 0: both on)",
+        ),
+        expression(
+            "t_switch_off",
+            f"tb_out_off-{number(edge.out_command - reference)}",
+            f"{edge.outgoing}'s off-command to its V_GS at the threshold",
+        ),
+    ]
+    saves: tuple[str, ...] = ()
+    if "command_overlap" in values:
+        cards.append(
+            expression(
+                "command_overlap",
+                "tb_out_off-tb_in_on",
+                "both switches above their thresholds together (the conduction overlap)",
+            )
+        )
+        current = device_vector(ctx.stage.switch, "id")
+        saves = (current,)
+        cards.append(
+            extreme(
+                "shoot_through_bound",
+                "MAX",
+                current,
+                reference,
+                window_end,
+                f"peak drain current of {ctx.stage.switch} over the edge",
+            )
+        )
+    needed_gap = ctx.value("t_prop_mismatch") or 0.0
+    needed_gap += ctx.value("margin") or 0.0
+    limit = Limit(
+        "tb_conduction_gap",
+        needed_gap,
+        ">=",
+        "the outgoing switch is off (below its threshold) before the incoming one turns on, "
+        "with the driver's delay mismatch and the margin to spare",
+        "s",
+    )
+    stop = min(window_end, MAX_STOP)
+    shortest = max(min(abs(edge.in_command - edge.out_command), edge.period / 4), 20e-9)
+    return Bench(
+        edits={},
+        stop=stop,
+        step=analysis_step(ctx.design, stop, shortest),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(limit,),
+        notes=(
+            "the design's own commands"
+            + (
+                f", {edge.incoming}'s on-edge moved {format_si(shift, 's')} later (the fix)"
+                if shift
+                else ""
+            ),
+            f"the edge measured: {edge.outgoing} off at {format_si(edge.out_command, 's')}, "
+            f"{edge.incoming} on at {format_si(edge.in_command, 's')}",
+        ),
+        saves=saves,
+        uic=ctx.design.uses_uic(),
+        traces=(
+            voltage_trace(*edge.out_nets, name=f"V_GS {edge.outgoing}"),
+            voltage_trace(*edge.in_nets, name=f"V_GS {edge.incoming}"),
+        ),
+    )
+
+
 def traces_for(ctx: BenchContext, kind: str) -> tuple[Trace, ...]:
     """The series of the waveform file, the quantity the claims are about first: the boot
     supply for hold, refresh and headroom findings, V_GS for gate findings, the diode's
@@ -1668,6 +1861,7 @@ BUILDERS: Mapping[str, Builder] = {
     "voltage-stress": voltage_stress,
     "level-shift-contention": level_shift,
     "driver-decoupling": driver_decoupling,
+    "cross-conduction": cross_conduction,
 }
 
 # Rules whose failure no simulation of the circuit can show, with the reason.

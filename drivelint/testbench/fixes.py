@@ -16,8 +16,10 @@ import math
 from collections.abc import Callable, Mapping
 
 from drivelint.checks.corners import HOLD, aux_low, nominal_for
+from drivelint.diagnostics import Span
 from drivelint.netlist.statements import Element, Word
 from drivelint.netlist.values import format_si
+from drivelint.netlist.waveforms import Pulse
 from drivelint.physics.preferred import next_preferred, preferred_values
 from drivelint.ratings.values import Value
 from drivelint.testbench.bench import BenchContext, Declined, Fix, partner_dead_time
@@ -591,6 +593,71 @@ def driver_decoupling(ctx: BenchContext) -> Fix | Declined:
     )
 
 
+def cross_conduction(ctx: BenchContext) -> Fix | Declined:
+    """The finding's fix: the named command's on-edge moved ``dead_time_shift`` later (and
+    the other command's ``other_dead_time_shift`` where both edges are short): its PULSE
+    delayed and shortened where the pulse is its on-window, lengthened where the pulse is
+    its off-window, the other edge left where it was."""
+    stage = ctx.stage
+    shift = ctx.value("dead_time_shift")
+    name = ctx.finding.device
+    partner = next((r for r in stage.refresh if r.kind == "low-side switch"), None)
+    controls = [c for c in (stage.control, partner.command if partner else None) if c]
+    if shift is None or not any(c.source == name for c in controls):
+        return Declined("the finding names no command source whose edge can be moved")
+    moves = [(name, shift)]
+    other_shift = ctx.value("other_dead_time_shift")
+    other = next((c.source for c in controls if c.source and c.source != name), None)
+    if other_shift is not None:
+        if other is None:
+            return Declined("both edges are short and the leg has one command source")
+        moves.append((other, other_shift))
+    edits: dict[Span, Edit] = {}
+    words = []
+    for source, amount in moves:
+        control = next(c for c in controls if c.source == source)
+        made = _moved_on_edge(ctx, source, control.inverting, amount)
+        if isinstance(made, Declined):
+            return made
+        span, edit = made
+        edits[span] = edit
+        words.append(f"{source}'s turn-on edge moved {format_si(amount, 's')} later")
+    return Fix(" and ".join(words) + " (the finding's dead-time shifts)", edits)
+
+
+def _moved_on_edge(
+    ctx: BenchContext, name: str, inverting: bool, shift: float
+) -> tuple[Span, Edit] | Declined:
+    design = ctx.design
+    device = ctx.circuit.devices.get(name)
+    element = design.element_of(name) if device is not None else None
+    if device is None or element is None:
+        return Declined(f"{name} is not a statement of the design")
+    wave = device.waveform
+    if not isinstance(wave, Pulse) or wave.per is None:
+        return Declined(f"{name} is not a PULSE train: its edges are not rewritten")
+    on_window = (wave.v2 > wave.v1) != inverting
+    td, pw = wave.td, wave.pw
+    if on_window:
+        td, pw = td + shift, pw - shift
+    else:
+        pw = pw + shift
+    if pw <= 0 or wave.tr + pw + wave.tf > wave.per:
+        return Declined(f"moving {name}'s edge by {format_si(shift, 's')} leaves no pulse")
+    nodes = element.fields[:2]
+    if len(nodes) < 2 or not all(isinstance(n, Word) for n in nodes):
+        return Declined(f"{name}'s nodes are not plain node names")
+    first, second = nodes
+    assert isinstance(first, Word) and isinstance(second, Word)
+    fields = (wave.v1, wave.v2, td, wave.tr, wave.tf, pw, wave.per)
+    text = " ".join(number(x) for x in fields)
+    if wave.pulses is not None:
+        text += f" {wave.pulses}"
+    line = f"{design.raw_name(element)} {first.raw} {second.raw} PULSE({text})"
+    note = f"fix: {name}'s on-edge {format_si(shift, 's')} later" + _shared(ctx, element)
+    return element.span, Edit(lines=(line,), note=note)
+
+
 APPLIERS: Mapping[str, Applier] = {
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
@@ -602,4 +669,5 @@ APPLIERS: Mapping[str, Applier] = {
     "voltage-stress": voltage_stress,
     "level-shift-contention": level_shift,
     "driver-decoupling": driver_decoupling,
+    "cross-conduction": cross_conduction,
 }

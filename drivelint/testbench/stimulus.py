@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from drivelint.circuit.model import GROUND, Circuit, Device
 from drivelint.netlist.waveforms import Pulse, Waveform
 from drivelint.stages.model import DriveStage
+from drivelint.stages.recognise import driver_input
 
 DEFAULT_EDGE = 10e-9  # edge time for a source that had no pulse edges of its own
 # Dead time between a leg's two commands when the design's own cannot be read off its
@@ -249,9 +250,10 @@ def partner_source(
     inverting = False
     driver = stage.driver
     low_out = driver.pins.get("low_out") if driver else None
-    low_in = driver.pins.get("low_in") if driver else None
+    low_in, active_low = driver_input(driver, "low") if driver else (None, False)
     if low_out is not None and low_in is not None and low_out in reach:
         reach = _resistor_reach(circuit, by_net, low_in)
+        inverting = active_low
     source = _command_source(circuit, by_net, reach)
     if source is None:
         totem = _switch_control(circuit, by_net, reach)

@@ -24,6 +24,8 @@ EXPECTED = {
     ("loadswitch24v_dc_enable.cir", "gate-overvoltage", "q4", 52),
     ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-no-refresh", "vhia", 38),
     ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-diode-voltage", "xlega.d_bt", 47),
+    # leg A's 100 ns dead times against hard turn-offs through 15 Ω gate resistors (warning)
+    ("mower48v_hbridge_wrapped_fets.cir", "cross-conduction", "vlia", 39),
     ("tool36_leg_totem_pole.cir", "bootstrap-capacitor-small", "c1", 34),
     # the boot diode blocks the whole ±45 V swing plus V_boot
     ("classd45v_split_rail_amp.cir", "bootstrap-diode-voltage", "d_bs", 25),

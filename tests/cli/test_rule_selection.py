@@ -18,7 +18,8 @@ ROOT = Path(__file__).resolve().parents[2]
 EXAMPLES = ROOT / "examples"
 # examples/README.md: leg A of the mower H-bridge has an under-rated bootstrap diode
 # (bootstrap-diode-voltage) and a 99.2 % duty the refresh cannot keep up with
-# (bootstrap-no-refresh); the load switch a DC enable (dc-hold) and a pull-down to
+# (bootstrap-no-refresh), and dead times short of its hard turn-offs (cross-conduction, a
+# warning); the load switch a DC enable (dc-hold) and a pull-down to
 # ground (gate-overvoltage).
 MOWER = "mower48v_hbridge_wrapped_fets.cir"
 SWITCH = "loadswitch24v_dc_enable.cir"
@@ -44,10 +45,14 @@ def project(tmp_path: Path, config: str = "") -> Path:
 
 def test_select_and_ignore_on_the_command_line() -> None:
     every = rules_in(run(str(EXAMPLES / MOWER)).stdout)
-    assert every == {"bootstrap-diode-voltage", "bootstrap-no-refresh"}
+    assert every == {"bootstrap-diode-voltage", "bootstrap-no-refresh", "cross-conduction"}
     selected = run("--select", "bootstrap-diode-voltage", str(EXAMPLES / MOWER))
     assert rules_in(selected.stdout) == {"bootstrap-diode-voltage"} and selected.exit_code == 1
-    ignored = run("--ignore", "bootstrap-diode-voltage,bootstrap-no-refresh", str(EXAMPLES / MOWER))
+    ignored = run(
+        "--ignore",
+        "bootstrap-diode-voltage,bootstrap-no-refresh,cross-conduction",
+        str(EXAMPLES / MOWER),
+    )
     assert rules_in(ignored.stdout) == set() and ignored.exit_code == 0
     # A family by its first words; ignore wins over select.
     family = run("--select", "bootstrap", "--ignore", "bootstrap-no", str(EXAMPLES / MOWER))
@@ -74,7 +79,10 @@ def test_ignore_does_not_make_an_acceptance_stale(tmp_path: Path) -> None:
 
 def test_severity_off_switches_a_rule_off(tmp_path: Path) -> None:
     folder = project(tmp_path, '[rule.bootstrap-no-refresh]\nseverity = "off"\n')
-    assert rules_in(run(str(folder / MOWER)).stdout) == {"bootstrap-diode-voltage"}
+    assert rules_in(run(str(folder / MOWER)).stdout) == {
+        "bootstrap-diode-voltage",
+        "cross-conduction",
+    }
     with pytest.raises(ConfigError, match="expected error, warning, note or off"):
         (folder / "drivelint.toml").write_text('[rule.dc-hold]\nseverity = "of"\n')
         load_config(folder / "drivelint.toml")
@@ -112,7 +120,7 @@ def test_rules_per_path(tmp_path: Path) -> None:
     config = (
         "[[rules_for]]\n"
         f'glob = "{MOWER}"\n'
-        'ignore = ["bootstrap-no-refresh"]\n'
+        'ignore = ["bootstrap-no-refresh", "cross-conduction"]\n'
         "[rules_for.rule.bootstrap-diode-voltage]\n"
         'severity = "warning"\n'
         "[[rules_for]]\n"

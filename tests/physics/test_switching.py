@@ -6,6 +6,8 @@
 
 from __future__ import annotations
 
+import math
+
 import pint
 import pytest
 
@@ -16,8 +18,10 @@ from drivelint.physics.switching import (
     gate_drive_power,
     junction_temperature,
     resistor_share,
+    shoot_through_current,
     switching_loss,
     transition_time,
+    turn_off_time,
 )
 
 
@@ -78,3 +82,27 @@ def test_gate_drive_power_is_twice_the_rc_charging_loss(ureg: pint.UnitRegistry)
     assert got.to("W").magnitude == pytest.approx(0.072)
     share = resistor_share(36 * u.mW, 4.7 * u.ohm, 6.7 * u.ohm)
     assert share.to("mW").magnitude == pytest.approx(36 * 4.7 / 6.7)
+
+
+def test_turn_off_time_worked_example(ureg: pint.UnitRegistry) -> None:
+    # The gate-charge turn-off intervals (standard gate-drive texts): 10 Ω and 2 nF decay
+    # from 12 V to a 4 V plateau, t1 = 20 ns·ln 3 = 21.97 ns; 10 nC at 4 V/10 Ω = 0.4 A,
+    # t2 = 25 ns; then to a 3 V threshold, t3 = 20 ns·ln(4/3) = 5.75 ns: 52.73 ns.
+    t = turn_off_time(10.0, 2e-9, 12.0, 4.0, 10e-9, 3.0)
+    assert t == pytest.approx(20e-9 * math.log(3) + 25e-9 + 20e-9 * math.log(4 / 3))
+    assert t == pytest.approx(52.73e-9, rel=1e-3)
+    # without a threshold the current fall is left out
+    assert turn_off_time(10.0, 2e-9, 12.0, 4.0, 10e-9) == pytest.approx(46.97e-9, rel=1e-3)
+    # an ideal driver and no resistance: nothing to wait for
+    assert turn_off_time(0.0, 2e-9, 12.0, 4.0, 10e-9, 3.0) == 0.0
+    u = ureg
+    q = turn_off_time(10 * u.ohm, 2 * u.nF, 12 * u.V, 4 * u.V, 10 * u.nC, 3 * u.V)
+    assert q.check("[time]") and q.to("ns").magnitude == pytest.approx(52.73, rel=1e-3)
+
+
+def test_shoot_through_bound(ureg: pint.UnitRegistry) -> None:
+    # Ohm's law: 60 V over 18 mΩ + 18 mΩ + 4 mΩ = 1.5 kA.
+    assert shoot_through_current(60.0, 0.018, 0.018, 0.004) == pytest.approx(1500.0)
+    u = ureg
+    i = shoot_through_current(60 * u.V, 18 * u.mohm, 18 * u.mohm, 4 * u.mohm)
+    assert i.check("[current]") and i.to("A").magnitude == pytest.approx(1500.0)

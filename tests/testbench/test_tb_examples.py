@@ -74,10 +74,27 @@ PHYSICS_GAPS: dict[tuple[str, str, str, str], str] = {
         "bootstrap-no-refresh sustained_boot_peak: claimed 586 mV, measured 6.66 V — physics "
         "gap: the refresh window, as for the valley"
     ),
+    ("mower48v_hbridge_wrapped_fets", "cross-conduction", "vlia", "t_switch_off"): (
+        "cross-conduction t_switch_off: claimed 170 ns, measured 89.8 ns — physics gap: the "
+        "rule turns xlega.xqh off from V_boot,0 (11.4 V) across the 3.8 V plateau the parts "
+        "list gives; in ngspice its boot supply sits near 6.5 V (the example's "
+        "bootstrap-no-refresh mistake), so the gate starts 5 V lower and reaches the plateau "
+        "at once"
+    ),
     ("mower48v_hbridge_wrapped_fets", "bootstrap-no-refresh", "vhia", "delta_v_per_cycle"): (
         "bootstrap-no-refresh delta_v_per_cycle: claimed 508 mV, measured 173 mV — physics "
         "gap: Q_cycle/C is taken at V_target (11 V); at the 6.5 V ngspice settles at, the "
         "gate charge and the resistive drains are about half"
+    ),
+}
+# Decks that run at the design's own operating point, where the rule judges a harder one:
+# the failure is not shown there (strict xfail, so it flips when the deck or rule changes).
+NOT_SHOWN_GAPS: dict[tuple[str, str, str], str] = {
+    ("mower48v_hbridge_wrapped_fets", "cross-conduction", "vlia"): (
+        "cross-conduction: the rule's 170 ns turn-off of xlega.xqh starts from V_boot,0; in "
+        "ngspice the unrefreshed boot supply (the example's bootstrap-no-refresh mistake) "
+        "holds its gate near 6.5 V, so it is below its threshold 90 ns after its command and "
+        "the gap to xlega.xql's turn-on is +81 ns: no overlap at this boot level"
     ),
 }
 # Fixed decks that do not remove the finding in drivelint because of the rule's physics
@@ -136,6 +153,7 @@ def test_the_examples_have_findings_to_prove() -> None:
         "bootstrap-diode-slow",
         "bootstrap-diode-voltage",
         "bootstrap-no-refresh",
+        "cross-conduction",
         "dc-hold",
         "driver-decoupling",
         "gate-headroom",
@@ -182,7 +200,16 @@ def test_claim_confirmed_by_ngspice(built: Outcome, finding: Finding, key: str) 
     assert claim.verdict(measured) == "confirmed", f"claimed {claim.value}, measured {measured}"
 
 
-@pytest.mark.parametrize("finding", FINDINGS, ids=_id)
+def _shown_params() -> list[object]:
+    params = []
+    for finding in FINDINGS:
+        gap = NOT_SHOWN_GAPS.get((Path(finding.span.path).stem, finding.rule, finding.device))
+        marks = [pytest.mark.xfail(strict=True, reason=gap)] if gap else []
+        params.append(pytest.param(finding, marks=marks, id=_id(finding)))
+    return params
+
+
+@pytest.mark.parametrize("finding", _shown_params())
 def test_every_card_prints_and_the_failure_shows(built: Outcome, finding: Finding) -> None:
     record = _record(built, finding)
     _simulated(record)

@@ -68,6 +68,10 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("shifter_voltage", "derated_limit"),
         ("shifter_margin", "margin_needed"),
     ),
+    "cross-conduction": (
+        ("dead_time", "dead_time_needed"),
+        ("command_overlap", "dead_time_needed"),
+    ),
 }
 
 
