@@ -588,6 +588,14 @@ def _judge(edge: Edge, ctx: CheckContext, margin: float) -> Finding | None:
         f"gate to {_v(peak)}, held {where} ({off.resistance.text()}), and {what} "
         f"{victim.vth.text()}: {then}"
     )
+    budget = r_max - off.fixed
+    if len(off.resistors) == 1 and budget > 0 and math.isfinite(budget):
+        values["suggested_gate_resistor"] = computed(
+            previous_preferred(budget, "E12"),
+            "Ohm",
+            f"computed: the E12 value at or below R_off,max − {_ohm(off.fixed)} (driver and "
+            "internal gate resistance)",
+        )
     fix = _fix(edge, r_max, allowed, margin)
     derivation = (
         f"I_g = {edge.i_gate.text()} ({edge.i_gate.origin})",

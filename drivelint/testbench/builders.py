@@ -98,12 +98,14 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     ),
     "gate-overvoltage/clamp reversed": ("vgs_max_positive", "clamp_positive_level"),
     "gate-headroom": ("vgs_supply_on", "vgs_on_worst"),
+    "induced-turn-on": ("vgs_peak",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
 # every rule.
 STRESS_KINDS = frozenset(
     {
+        "induced-turn-on",
         "bootstrap-diode-voltage",
         "gate-overvoltage/negative",
         "gate-overvoltage/positive",
@@ -1227,7 +1229,70 @@ def build(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+# The off switch's gate is read for this long after the high side's command edge: the
+# driver's delay and the edge itself, well short of any on-time worth switching.
+INDUCED_WINDOW = 1e-6
+
+
+def induced_turn_on(ctx: BenchContext) -> Bench | Declined:
+    """The leg switching at the design's own command; the low side's highest V_GS while the
+    high side turns on, against its threshold."""
+    from drivelint.checks.induced import edges
+
+    r_off = ctx.value("r_off")
+    vth = ctx.value("vth")
+    found = [
+        e
+        for e in edges(ctx.stage, ctx.facts)
+        if e.victim.device.name != ctx.stage.switch
+        and r_off is not None
+        and math.isclose(e.victim_off.resistance.value, r_off, rel_tol=1e-6)
+    ]
+    if not found or vth is None:
+        return Declined(
+            "the finding is about the high side off while its partner turns on: that edge "
+            "depends on the direction of the load current at that instant, not laid out"
+        )
+    victim = found[0].victim.device
+    gate, source = victim.net("g"), victim.net("s")
+    if gate is None or source is None:
+        return Declined(f"{victim.name}'s gate or source cannot be probed")
+    laid_out = _own_or_periodic(ctx, "the leg switching at its own command")
+    if isinstance(laid_out, Declined):
+        return laid_out
+    schedule, edits, notes = laid_out
+    window = _window(schedule, 1)
+    if isinstance(window, Declined):
+        return window
+    start, end = window
+    stop_read = min(start + INDUCED_WINDOW, start + 0.5 * (end - start))
+    stop = min(end + SETTLE_AFTER, MAX_STOP)
+    cards = [
+        extreme(
+            "vgs_peak",
+            "MAX",
+            difference(gate, source),
+            start,
+            stop_read,
+            f"highest V_GS of {victim.name} while {ctx.stage.switch} turns on",
+        )
+    ]
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, stop_read - start),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(
+            Limit("vgs_peak", vth, "<=", f"{victim.name}'s gate stays below its threshold", "V"),
+        ),
+        notes=notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
 BUILDERS: Mapping[str, Builder] = {
+    "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
     "bootstrap-diode-voltage": diode_voltage,

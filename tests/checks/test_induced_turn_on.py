@@ -1,0 +1,133 @@
+"""induced-turn-on: the switch-node edge through C_gd against the off switch's threshold."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from crosscheck import facts_of
+from nominal import at_nominal
+from simulator import run_transient
+
+from drivelint.checks import induced
+from drivelint.checks.base import Finding
+from drivelint.checks.registry import registry
+from drivelint.diagnostics import Severity
+from drivelint.pipeline import check_path, check_text
+
+RULE = "induced-turn-on"
+ROOT = Path(__file__).resolve().parents[2]
+EXAMPLES = ROOT / "examples"
+OUTSIDE = Path(__file__).resolve().parent / "outside"
+DECKS = Path(__file__).resolve().parent / "induced"
+BAD = DECKS / "leg48_slow_low_hold.cir"
+GOOD = DECKS / "leg48_firm_low_hold.cir"
+CARD = registry()[RULE]
+
+
+def lint(text: str) -> list[Finding]:
+    result = check_text(at_nominal(text))
+    assert not [d for d in result.diagnostics if d.severity.label == "error"], result.diagnostics
+    return [f for f in result.findings if f.rule == RULE]
+
+
+def test_bad_deck_fires_on_the_low_side_gate_resistor() -> None:
+    (finding,) = lint(BAD.read_text(encoding="utf-8"))
+    assert finding.device == "rgl" and finding.switch == "m1"
+    assert finding.span.line == 18
+    assert finding.severity == Severity.ERROR
+    values = finding.values
+    # nominal: (12 V − 0.7 V·… boot) on a 4 V plateau through 2.2 Ω into 150 pF
+    assert values["dv_dt"].value == pytest.approx(2.5e10, rel=0.05)
+    assert values["r_off"].value == pytest.approx(100.0)
+    assert values["c_gd"].value == pytest.approx(150e-12)
+    assert values["c_gs"].value == pytest.approx(2e-9)
+    # τ = 215 ns against a 1.9 ns edge: close to the divider 48·0.15/2.15 = 3.35 V
+    assert values["v_divider"].value == pytest.approx(3.349, rel=1e-3)
+    assert 3.2 < values["vgs_peak"].value <= values["v_divider"].value
+    assert "m2 is off while m1 turns on" in finding.message
+    assert "lower rgl to" in finding.fix.lower() and "capacitor from gate to source" in finding.fix
+    assert "turn m1 on more slowly" in finding.fix
+
+
+def test_good_deck_is_quiet() -> None:
+    assert lint(GOOD.read_text(encoding="utf-8")) == []
+
+
+def test_the_suggested_resistor_makes_it_quiet() -> None:
+    (finding,) = lint(BAD.read_text(encoding="utf-8"))
+    ohms = finding.fix.split("ower rgl to ")[1].split(" ")[0]
+    fixed = BAD.read_text(encoding="utf-8").replace("RGL gl g2 100", f"RGL gl g2 {ohms}")
+    assert lint(fixed) == []
+
+
+def test_a_negative_turn_off_level_counts() -> None:
+    # the low side's command swinging to −5 V leaves 3.35 V of lift at −1.65 V
+    text = BAD.read_text(encoding="utf-8").replace(
+        "PULSE(0 12 2.5u 5n 5n 6.4u 10u)", "PULSE(-5 12 2.5u 5n 5n 6.4u 10u)"
+    )
+    assert lint(text) == []
+
+
+def test_margin_makes_a_warning() -> None:
+    text = BAD.read_text(encoding="utf-8").replace("RGL gl g2 100", "RGL gl g2 2.2")
+    (finding,) = lint(text)
+    assert finding.severity == Severity.WARNING
+    assert 2.5 <= finding.values["vgs_peak"].value < 3.0
+
+
+def test_a_buck_output_does_not_judge_the_low_sides_turn_on() -> None:
+    # the 4 A leave the node through L1: the low side turns on with its body diode already
+    # holding the node down, so only the high side's edge is judged
+    stage, facts = facts_of(GOOD, "m1")
+    assert [e.victim.device.name for e in induced.edges(stage, facts)] == ["m2"]
+
+
+def _edge_measure(deck: Path, tmp_path: Path) -> tuple[float, float]:
+    text = deck.read_text(encoding="utf-8").replace(".end\n", ".tran 0.1n 14u 8u uic\n.end\n")
+    waves = run_transient(text, ["v(sw)", "v(g2)"], tmp_path)
+    t, sw = waves.time, waves["v(sw)"]
+    start = waves.index(9.9e-6)
+
+    def crossing(level: float) -> float:
+        for i in range(start, len(t) - 1):
+            if sw[i] < level <= sw[i + 1]:
+                return t[i] + (level - sw[i]) / (sw[i + 1] - sw[i]) * (t[i + 1] - t[i])
+        raise AssertionError(f"the node never rises through {level} V")
+
+    rate = (0.8 - 0.2) * 48.0 / (crossing(0.8 * 48.0) - crossing(0.2 * 48.0))
+    peak = max(waves.between("v(g2)", 9.95e-6, 10.2e-6))
+    return rate, peak
+
+
+@pytest.mark.parametrize("deck", [BAD, GOOD], ids=["slow-hold", "firm-hold"])
+def test_against_ngspice(deck: Path, tmp_path: Path) -> None:
+    # ngspice 39 (level-1 MOSFETs, constant overlap capacitances): the node's slew rate
+    # between 20 % and 80 % of the swing, and the low side's highest gate voltage during
+    # the edge, against the rule's figures at the nominal corner (±20 %).
+    # Measured: slow hold 24.6 V/ns, 3.44 V; firm hold 5.57 V/ns, 1.55 V.
+    stage, facts = facts_of(deck, "m1")
+    (edge,) = [e for e in induced.edges(stage, facts) if e.victim.device.name == "m2"]
+    computed_peak = edge.victim_off.level.value + induced._peak(
+        edge, edge.victim_off.resistance.value
+    )
+    rate, peak = _edge_measure(deck, tmp_path)
+    assert edge.dv_dt.value == pytest.approx(rate, rel=0.20)
+    assert computed_peak == pytest.approx(peak, rel=0.20)
+
+
+def test_examples_and_outside_decks() -> None:
+    # the mower's leg A: the only bundled example it fires on (see examples/README.md)
+    result = check_path(EXAMPLES / "mower48v_hbridge_wrapped_fets.cir")
+    (finding,) = [f for f in result.findings if f.rule == RULE]
+    assert finding.device == "xlega.r_gl" and finding.severity == Severity.ERROR
+    assert finding.values["dv_dt"].value == pytest.approx(1.76e9, rel=0.05)  # ngspice 1.76
+    for example in sorted(EXAMPLES.glob("*.cir")):
+        if example.name.startswith("mower48v"):
+            continue
+        assert [f for f in check_path(example).findings if f.rule == RULE] == [], example.name
+
+
+def test_card_example_bad_is_the_own_deck() -> None:
+    assert CARD.bad.strip() == BAD.read_text(encoding="utf-8").strip()
+    assert CARD.good.strip() == GOOD.read_text(encoding="utf-8").strip()
