@@ -97,14 +97,10 @@ def _switch(facts: StageFacts, device: Device, v_swing: float, v_gate: float) ->
     crss = ratings.get(device, "crss")
     qgd = ratings.get(device, "qgd")
     c_gd: Value | None = None
+    # A capacitance given as such (C_rss, or the model's) comes before a charge converted
+    # into one: Q_gd is specified at a test V_DS the parts key does not record.
     if crss is not None:
         c_gd = Value(crss.value * m, "F", f"C_rss {crss.text()} ({crss.origin})")
-    elif qgd is not None:
-        c_gd = computed(
-            dvdt.charge_equivalent_capacitance(qgd.value * m, v_swing),
-            "F",
-            f"computed: Q_gd/ΔV = {qgd.text()}/{_v(v_swing)} ({qgd.origin})",
-        )
     elif model is not None and model.type == "vdmos" and "cgdmax" in params:
         low = params.get("cgdmin", params["cgdmax"])
         charge = gate_physics.vdmos_gate_drain_charge(
@@ -120,22 +116,28 @@ def _switch(facts: StageFacts, device: Device, v_swing: float, v_gate: float) ->
         )
     elif model is not None and params.get("cgdo"):
         c_gd = computed(params["cgdo"] * width * m, "F", f"computed: CGDO·W of model {model.name}")
+    elif qgd is not None:
+        c_gd = computed(
+            dvdt.charge_equivalent_capacitance(qgd.value * m, v_swing),
+            "F",
+            f"computed: Q_gd/ΔV = {qgd.text()}/{_v(v_swing)} ({qgd.origin})",
+        )
     if c_gd is None or c_gd.value <= 0:
         return None
     c_gs_own: Value | None = None
     qgs = ratings.get(device, "qgs")
     plateau = ratings.get(device, "vgs_plateau")
-    if qgs is not None and plateau is not None and plateau.value > 0:
-        c_gs_own = computed(
-            qgs.value * m / plateau.value,
-            "F",
-            f"computed: Q_gs/V_plateau = {qgs.text()}/{plateau.text()}",
-        )
-    elif model is not None and model.type == "vdmos" and "cgs" in params:
+    if model is not None and model.type == "vdmos" and "cgs" in params:
         c_gs_own = Value(params["cgs"] * m, "F", f"model {model.name} CGS")
     elif model is not None and params.get("cgso"):
         c_gs_own = computed(
             params["cgso"] * width * m, "F", f"computed: CGSO·W of model {model.name}"
+        )
+    elif qgs is not None and plateau is not None and plateau.value > 0:
+        c_gs_own = computed(
+            qgs.value * m / plateau.value,
+            "F",
+            f"computed: Q_gs/V_plateau = {qgs.text()}/{plateau.text()}",
         )
     if c_gs_own is None:
         return None
@@ -290,7 +292,15 @@ def _partner_paths(
     resistors: list[str] = []
     for _ in range(MAX_SERIES_STEPS + 1):
         if driver is not None and net == low_out:
-            supply = rails.get(driver.pins.get("supply", ""))
+            supply_net = driver.pins.get("supply", "")
+            supply = rails.get(supply_net)
+            where = f"driver {driver.device} {supply_net}"
+            aux = facts.v_aux_max
+            if supply is None and stage.supply.kind == "bootstrap" and aux is not None:
+                # a supply pin behind a filter or a soft-started rail: the rail that feeds
+                # the boot diode is the driver's supply in a half-bridge driver's layout
+                supply = aux.value
+                where = f"{aux.origin} (the rail that feeds the boot diode, for {supply_net})"
             ground = driver.pins.get("ground")
             low = 0.0 if ground in (None, GROUND) else rails.get(ground or "")
             if supply is None or low is None:
@@ -298,7 +308,6 @@ def _partner_paths(
             high = supply - v_source
             r_up, up_how, up_limit = _driver_resistance(facts, True, high - (low - v_source))
             r_dn, dn_how, dn_limit = _driver_resistance(facts, False, high - (low - v_source))
-            where = f"driver {driver.device} {driver.pins.get('supply')}"
             on_level = Value(high, "V", f"{where} against {partner.name}'s source")
             # A driver output returns to its own ground pin at the lowest; a ground pin above
             # the low side's source (a logic ground beside a power return) says nothing of
@@ -467,15 +476,71 @@ def edges(stage: DriveStage, facts: StageFacts) -> list[Edge]:
     high_on = _high_side_path(stage, facts, True, drive)
     zero = Value(0.0, "V", f"the pull-down returns to {stage.switch}'s source")
     high_off = _high_side_path(stage, facts, False, zero)
-    if high_on is not None:
+    currents = edge_currents(stage, facts)
+    # the high side's turn-on swings the node unless the load current flows into it then
+    high_hard = currents is None or currents[0] > 0 or facts.modulated
+    low_hard = (currents is not None and currents[1] < 0) or (
+        currents is None and _partner_edge_hard(stage, facts)
+    )
+    if high_on is not None and high_hard:
         found = _edge(facts, partner, partner_off, facts.switch, high_on, "turns on")
         if found is not None:
             out.append(found)
-    if high_off is not None and partner_on.level.value > 0 and _partner_edge_hard(stage, facts):
+    if high_off is not None and partner_on.level.value > 0 and low_hard:
         found = _edge(facts, facts.switch, high_off, partner, partner_on, "turns on")
         if found is not None:
             out.append(found)
     return out
+
+
+def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] | None:
+    """The load current out of the switch node as the high side turns on (its lowest, at
+    the end of the off-time) and as the low side turns on (its highest), for a node whose
+    load is one inductor into resistors (and capacitors) to fixed levels; None otherwise.
+
+    At steady state the inductor carries I_avg = (V_node,avg − V_ref)/R with V_node,avg =
+    D·V_bus + (1 − D)·V_sw,low, and ripples by ΔI = (V_bus − V_node,avg)·D/(f·L) (textbook
+    buck relations, Erickson & Maksimović). A current out of the node at the high side's
+    turn-on must be taken from the bus by it (a hard edge); a current into the node at the
+    low side's turn-on, likewise by the low side. A modulated command (the duty is the
+    loop's) is not estimated.
+    """
+    if facts.modulated or facts.v_bus is None:
+        return None
+    duty, fsw = facts.duty_max, facts.fsw
+    if duty is None or fsw is None or not 0 < duty.value < 1 or fsw.value <= 0:
+        return None
+    rails = facts.circuit.rails
+    inductors = [
+        d
+        for d in facts.by_net.get(stage.source, ())
+        if d.kind == "inductor" and d.value is not None and d.value > 0
+    ]
+    if len(inductors) != 1:
+        return None
+    inductor = inductors[0]
+    far = _other(inductor, stage.source)
+    if far is None or far == GROUND or far in rails:
+        return None
+    conductance, pulled = 0.0, 0.0
+    for device in facts.by_net.get(far, ()):
+        if device.name == inductor.name:
+            continue
+        end = _other(device, far)
+        level = 0.0 if end == GROUND else rails.get(end or "")
+        if device.kind not in ("resistor", "capacitor") or level is None:
+            return None
+        if device.kind == "resistor":
+            ohms = _resistor(device)
+            if not ohms:
+                return None
+            conductance += 1.0 / ohms
+            pulled += level / ohms
+    bus, low = facts.v_bus.value, facts.v_sw_low.value
+    average = duty.value * bus + (1.0 - duty.value) * low
+    i_avg = (average - pulled / conductance) * conductance if conductance else 0.0
+    ripple = (bus - average) * duty.value / (fsw.value * float(inductor.value))
+    return i_avg - ripple / 2, i_avg + ripple / 2
 
 
 def _partner_edge_hard(stage: DriveStage, facts: StageFacts) -> bool:

@@ -58,6 +58,7 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("vgs_max_negative", "vgs_limit_negative"),
     ),
     "gate-headroom": (("vgs_on_worst", "vgs_needed"),),
+    "induced-turn-on": (("vgs_peak", "vth"), ("r_off", "r_off_max")),
 }
 
 
