@@ -519,6 +519,7 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
     if len(inductors) != 1:
         return None
     inductor = inductors[0]
+    henries = float(inductor.value or 0.0)
     far = _other(inductor, stage.source)
     if far is None or far == GROUND or far in rails:
         return None
@@ -539,7 +540,7 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
     bus, low = facts.v_bus.value, facts.v_sw_low.value
     average = duty.value * bus + (1.0 - duty.value) * low
     i_avg = (average - pulled / conductance) * conductance if conductance else 0.0
-    ripple = (bus - average) * duty.value / (fsw.value * float(inductor.value))
+    ripple = (bus - average) * duty.value / (fsw.value * henries)
     return i_avg - ripple / 2, i_avg + ripple / 2
 
 
