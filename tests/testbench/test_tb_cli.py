@@ -68,7 +68,11 @@ def test_rule_and_device_select_findings(project: Path, tmp_path: Path) -> None:
     by_switch = run(
         str(project), "--output", str(tmp_path / "s"), "--device", "xlega.xqh", "--format", "json"
     )
-    assert sorted(r["device"] for r in json.loads(by_switch.stdout)) == ["vhia", "xlega.d_bt"]
+    assert sorted(r["device"] for r in json.loads(by_switch.stdout)) == [
+        "vhia",
+        "xlega.d_bt",
+        "xlega.r_gl",
+    ]
 
 
 def test_text_report_and_a_clean_design(project: Path, tmp_path: Path) -> None:
