@@ -413,6 +413,11 @@ class Edge:
     dv_dt: Value
     what: str  # "the high side turns on" ...
 
+    @property
+    def rate_given(self) -> bool:
+        """The edge rate is a condition, not the gate drive's estimate."""
+        return self.dv_dt.origin.startswith("condition")
+
 
 def _edge(
     facts: StageFacts,
@@ -454,6 +459,10 @@ def _edge(
         "V/s",
         f"computed: I_g/C_gd = {i_gate.text()}/{aggressor_sw.c_gd.text()} of {aggressor.name}",
     )
+    given = facts.condition("dv_dt")
+    if given is not None:
+        # an edge rate known from the bench or set by a snubber wins over the gate's estimate
+        dv_dt = Value(given.value, "V/s", f"condition dv_dt ({given.origin})")
     return Edge(
         victim_sw, victim_off, aggressor_sw, aggressor_on, plateau, v_swing, i_gate, dv_dt, what
     )
@@ -663,10 +672,15 @@ def _judge(edge: Edge, ctx: CheckContext, margin: float) -> Finding | None:
             "internal gate resistance)",
         )
     fix = _fix(edge, r_max, allowed, margin)
+    rate_line = (
+        f"dv/dt = {edge.dv_dt.text()} ({edge.dv_dt.origin})"
+        if edge.rate_given
+        else f"I_g = {edge.i_gate.text()} ({edge.i_gate.origin}); "
+        f"dv/dt = I_g/C_gd({other}) = {edge.dv_dt.text()}"
+    )
     derivation = (
-        f"I_g = {edge.i_gate.text()} ({edge.i_gate.origin})",
-        f"dv/dt = I_g/C_gd({other}) = {edge.dv_dt.text()}; t_edge = ΔV/(dv/dt) = "
-        f"{_v(swing)}/{edge.dv_dt.text()} = {format_si(t_edge, 's')}",
+        f"{rate_line}; t_edge = ΔV/(dv/dt) = {_v(swing)}/{edge.dv_dt.text()} = "
+        f"{format_si(t_edge, 's')}",
         f"τ = R_off·(C_gs + C_gd) = {off.resistance.text()} × ({victim.c_gs.text()} + "
         f"{victim.c_gd.text()}) = {format_si(tau, 's')}",
         f"V_induced = C_gd·(dv/dt)·R_off·(1 − exp(−t_edge/τ)) = {_v(induced)} "
@@ -733,7 +747,7 @@ def _fix(edge: Edge, r_max: float, allowed: float, margin: float) -> str:
         options.append(
             f"or a turn-off bias of {_v(bias)} or lower on {name}'s gate (a split driver supply)"
         )
-    rate = _allowed_rate(edge, allowed)
+    rate = None if edge.rate_given else _allowed_rate(edge, allowed)
     if rate is not None:
         on = edge.aggressor_on
         needed = on.resistance.value * edge.dv_dt.value / rate

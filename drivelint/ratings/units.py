@@ -71,6 +71,7 @@ _PINT_UNITS: Mapping[str, str] = {
     "K": "kelvin",
     "K/W": "kelvin/watt",
     "H": "henry",
+    "V/s": "volt/second",
     "1": "",
 }
 
@@ -80,7 +81,7 @@ class UnitError(ValueError):
 
 
 def parse_quantity(raw: str | float, unit: str, *, bare_celsius: bool = False) -> float:
-    """``raw`` in SI base units of ``unit`` (one of V A F C s Hz Ohm W K K/W H 1).
+    """``raw`` in SI base units of ``unit`` (one of V A F C s Hz Ohm W K K/W H V/s 1).
 
     One reader for everything people type, in a parts file, a configuration or a netlist
     directive:
@@ -204,6 +205,7 @@ _EXAMPLES: Mapping[str, str] = {
     "K": "175 degC",
     "K/W": "62 K/W",
     "H": "10 uH",
+    "V/s": "20 V/ns",
     "1": "0.95",
 }
 

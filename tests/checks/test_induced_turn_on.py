@@ -135,3 +135,18 @@ def test_examples_and_outside_decks() -> None:
 def test_card_example_bad_is_the_own_deck() -> None:
     assert CARD.bad.strip() == BAD.read_text(encoding="utf-8").strip()
     assert CARD.good.strip() == GOOD.read_text(encoding="utf-8").strip()
+
+
+def test_a_configured_edge_rate_replaces_the_estimate() -> None:
+    # 2 V/ns measured on the bench: 100 Ω holds the gate, τ 215 ns against a 24 ns edge,
+    # 150p·2e9·100·(1 − e^−0.1116) = 3.17 V
+    text = BAD.read_text(encoding="utf-8").replace(
+        ".end\n", "* drivelint: conditions dv_dt=2V/ns\n.end\n"
+    )
+    (finding,) = lint(text)
+    assert finding.values["dv_dt"].value == pytest.approx(2e9)
+    assert finding.values["dv_dt"].origin.startswith("condition dv_dt (directive")
+    assert finding.values["vgs_peak"].value == pytest.approx(3.17, abs=0.01)
+    assert "more slowly" not in finding.fix
+    slow = text.replace("dv_dt=2V/ns", "dv_dt=0.2V/ns")  # 2.02 V
+    assert lint(slow) == []

@@ -139,6 +139,7 @@ def test_the_examples_have_findings_to_prove() -> None:
         "dc-hold",
         "gate-headroom",
         "gate-overvoltage",
+        "induced-turn-on",
     }
 
 
