@@ -18,9 +18,9 @@ ROOT = Path(__file__).resolve().parents[2]
 EXAMPLES = ROOT / "examples"
 # examples/README.md: leg A of the mower H-bridge has an under-rated bootstrap diode
 # (bootstrap-diode-voltage) and a 99.2 % duty the refresh cannot keep up with
-# (bootstrap-no-refresh), and its 15 Ω low-side gate resistor lets the high side's edge lift
-# the low side's gate to its threshold (induced-turn-on); the load switch a DC enable (dc-hold) and a pull-down to
-# ground (gate-overvoltage).
+# (bootstrap-no-refresh), and its 15 Ω low-side gate resistor lets the high side's edge
+# lift the low side's gate to its threshold (induced-turn-on); the load switch a DC enable
+# (dc-hold) and a pull-down to ground (gate-overvoltage).
 MOWER = "mower48v_hbridge_wrapped_fets.cir"
 SWITCH = "loadswitch24v_dc_enable.cir"
 
