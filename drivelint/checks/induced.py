@@ -212,9 +212,11 @@ def _driver_resistance(
 
 
 def _high_side_path(
-    stage: DriveStage, facts: StageFacts, up: bool, level: Value
+    stage: DriveStage, facts: StageFacts, up: bool, level: Value, drive: float
 ) -> GatePathFigure | None:
-    """The high side's on (``up``) or off path from the recognised pull-ups/pull-downs."""
+    """The high side's on (``up``) or off path from the recognised pull-ups/pull-downs;
+    ``level`` is where it drives the gate, ``drive`` the driver's swing (what its rated
+    peak current is rated from)."""
     paths = stage.pullups if up else stage.pulldowns
     wanted = "boot" if up else "source"
     best: GatePathFigure | None = None
@@ -223,6 +225,7 @@ def _high_side_path(
             continue
         ohms, resistors, parts, fixed = 0.0, [], [], 0.0
         driver = None
+        limit: Value | None = None
         known = True
         for name in path.devices:
             device = facts.device(name)
@@ -232,7 +235,7 @@ def _high_side_path(
                 resistors.append(name)
                 parts.append(f"{name} {_ohm(r)}")
             elif stage.driver is not None and name == stage.driver.device:
-                r_drv, how, limit = _driver_resistance(facts, up, level.value)
+                r_drv, how, limit = _driver_resistance(facts, up, drive)
                 ohms += r_drv
                 fixed += r_drv
                 parts.append(how)
@@ -241,7 +244,9 @@ def _high_side_path(
                 known = False  # a transistor or a switch on the path: resistance unknown
         if not known or driver is None:
             continue
-        figure = _path_figure(facts, facts.switch, ohms, fixed, resistors, parts, level, driver)
+        figure = _path_figure(
+            facts, facts.switch, ohms, fixed, resistors, parts, level, driver, limit
+        )
         if best is None or figure.resistance.value < best.resistance.value:
             best = figure
     return best
@@ -482,9 +487,9 @@ def edges(stage: DriveStage, facts: StageFacts) -> list[Edge]:
     if paths is None or drive is None:
         return out
     partner_on, partner_off = paths
-    high_on = _high_side_path(stage, facts, True, drive)
+    high_on = _high_side_path(stage, facts, True, drive, drive.value)
     zero = Value(0.0, "V", f"the pull-down returns to {stage.switch}'s source")
-    high_off = _high_side_path(stage, facts, False, zero)
+    high_off = _high_side_path(stage, facts, False, zero, drive.value)
     currents = edge_currents(stage, facts)
     # the high side's turn-on swings the node unless the load current flows into it then
     high_hard = currents is None or currents[0] > 0 or facts.modulated
