@@ -150,3 +150,28 @@ def test_a_configured_edge_rate_replaces_the_estimate() -> None:
     assert "more slowly" not in finding.fix
     slow = text.replace("dv_dt=2V/ns", "dv_dt=0.2V/ns")  # 2.02 V
     assert lint(slow) == []
+
+
+def test_the_suggested_gate_capacitor_makes_it_quiet() -> None:
+    (finding,) = lint(BAD.read_text(encoding="utf-8"))
+    farads = finding.fix.split("or a ")[1].split(" capacitor from gate to source")[0]
+    value = farads.replace(" ", "").replace("F", "")
+    fixed = BAD.read_text(encoding="utf-8").replace(
+        "RGL gl g2 100\n", f"RGL gl g2 100\nCGS2 g2 0 {value}\n"
+    )
+    assert lint(fixed) == []
+    # and it is counted into C_gs: one size smaller still fires, as a warning at most
+    smaller = fixed.replace(f"CGS2 g2 0 {value}", "CGS2 g2 0 470p")
+    (still,) = lint(smaller)
+    assert still.values["c_gs"].value == pytest.approx(2.47e-9)
+    assert "cgs2" in still.values["c_gs"].origin
+
+
+def test_a_totem_pole_low_side_is_not_judged() -> None:
+    # the low side's gate driven by a discrete emitter-follower pair: not a path the rule
+    # understands, so it stays quiet rather than guess
+    text = BAD.read_text(encoding="utf-8").replace(
+        "RGL gl g2 100\n",
+        "RGL gl gb 100\nQ1 vcc gb g2 npn1\nQ2 0 gb g2 pnp1\n.model npn1 NPN\n.model pnp1 PNP\n",
+    )
+    assert lint(text) == []
