@@ -32,6 +32,8 @@ from drivelint.stages.model import DriveStage
 # Miller plateau is taken this far above the threshold (power MOSFETs at moderate current:
 # about 1–2 V above V_th, from memory; the lower end gives the faster, worse edge).
 PLATEAU_OVERDRIVE_DEFAULT = 1.0
+# A suggested negative turn-off bias is rounded to this step.
+BIAS_STEP = 0.5
 # Gate paths are followed through at most this many series resistors.
 MAX_SERIES_STEPS = 4
 
@@ -741,16 +743,21 @@ def _fix(edge: Edge, r_max: float, allowed: float, margin: float) -> str:
     if c_add is not None and c_add > 0:
         chosen = next_preferred(c_add, "E12")
         c_iss = victim.c_gs.value + victim.c_gd.value
+        ratio = (c_iss + chosen) / c_iss
+        slower = f"{(ratio - 1) * 100:.0f} % longer" if ratio < 1.5 else f"{ratio:.2g}× as long"
         options.append(
             f"or a {format_si(chosen, 'F')} capacitor from gate to source of {name}: its gate "
             f"then holds {format_si(c_iss + chosen, 'F')} instead of {format_si(c_iss, 'F')}, so "
-            f"its own turn-on and turn-off delays grow about {(c_iss + chosen) / c_iss:.2g}× "
-            "and its driver delivers that much more charge"
+            f"its own turn-on and turn-off delays become about {slower}, and its driver "
+            "delivers that much more charge"
         )
     bias = victim.vth.value - margin - _peak(edge, off.resistance.value)
     if bias < 0:
+        # in half-volt steps: a split driver supply is a few volts, not millivolts
+        step = -BIAS_STEP * math.ceil(-bias / BIAS_STEP)
         options.append(
-            f"or a turn-off bias of {_v(bias)} or lower on {name}'s gate (a split driver supply)"
+            f"or a turn-off bias of {_v(step)} or lower on {name}'s gate (a split driver supply; "
+            f"{_v(bias)} is the least that holds it)"
         )
     rate = None if edge.rate_given else _allowed_rate(edge, allowed)
     if rate is not None:

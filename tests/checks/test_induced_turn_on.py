@@ -22,6 +22,7 @@ OUTSIDE = Path(__file__).resolve().parent / "outside"
 DECKS = Path(__file__).resolve().parent / "induced"
 BAD = DECKS / "leg48_slow_low_hold.cir"
 GOOD = DECKS / "leg48_firm_low_hold.cir"
+NEAR = DECKS / "leg48_vdmos_near_threshold.cir"
 CARD = registry()[RULE]
 
 
@@ -114,6 +115,24 @@ def test_against_ngspice(deck: Path, tmp_path: Path) -> None:
     rate, peak = _edge_measure(deck, tmp_path)
     assert edge.dv_dt.value == pytest.approx(rate, rel=0.20)
     assert computed_peak == pytest.approx(peak, rel=0.20)
+
+
+def test_against_ngspice_with_a_voltage_dependent_c_gd(tmp_path: Path) -> None:
+    # VDMOS switches (C_gd 1 nF at V_DS = 0 down to 50 pF): the rule takes C_gd averaged by
+    # charge over the swing, which gives the right charge into the off gate but not the
+    # shape of the edge. ngspice 39: peak 2.69 V against the rule's 2.51 V (nominal); the
+    # node slews 34 V/ns between 20 % and 80 % of the swing (where C_gd is small) against the
+    # charge-averaged 13.8 V/ns, so only the peak is held to ±20 % here.
+    stage, facts = facts_of(NEAR, "m1")
+    (edge,) = [e for e in induced.edges(stage, facts) if e.victim.device.name == "m2"]
+    computed_peak = edge.victim_off.level.value + induced._peak(
+        edge, edge.victim_off.resistance.value
+    )
+    rate, peak = _edge_measure(NEAR, tmp_path)
+    assert computed_peak == pytest.approx(peak, rel=0.20)
+    assert rate > edge.dv_dt.value  # the fast middle of the edge, as the comment says
+    (finding,) = lint(NEAR.read_text(encoding="utf-8"))
+    assert finding.severity == Severity.WARNING and finding.device == "rgl"
 
 
 def test_examples_and_outside_decks() -> None:
