@@ -9,10 +9,10 @@ current:
     (C_gs + C_gd)·dV/dt + V/R = C_gd·dv/dt
 
 so V(t) = C_gd·(dv/dt)·R·(1 − exp(−t/(R·(C_gs + C_gd)))) during a ramp that starts with the
-gate held at its off level (textbook RC step response to a constant current; power-MOSFET
-application notes give its two limits, the resistive C_gd·dv/dt·R and the capacitive divider
-ΔV·C_gd/(C_gd + C_gs), e.g. Vishay Siliconix AN608A and the "dv/dt induced turn-on" sections of
-power-MOSFET application notes, from memory).
+gate held at its off level (textbook RC step response to a constant current). Its two limits,
+the resistive C_gd·dv/dt·R and the capacitive divider ΔV·C_gd/(C_gd + C_gs), are the ones
+power-MOSFET and gate-driver application notes give for dv/dt-induced turn-on (common
+practice; from memory).
 """
 
 from __future__ import annotations

@@ -2,9 +2,9 @@
 
 Sources: the first-order RC response of a node to a constant current (textbook circuit
 theory); the resistive limit C_gd·(dv/dt)·R and the capacitive divider ΔV·C_gd/(C_gd + C_gs)
-of dv/dt-induced turn-on in power-MOSFET application notes (e.g. Vishay Siliconix AN608A,
-from memory); dV_DS/dt = I_g/C_gd on the Miller plateau (gate-charge description of MOSFET
-switching, standard texts).
+of dv/dt-induced turn-on in power-MOSFET and gate-driver application notes (common practice,
+from memory); dV_DS/dt = I_g/C_gd on the Miller plateau (Vishay Siliconix AN608A, from
+memory; the gate-charge description of MOSFET switching in standard texts).
 """
 
 # Physics functions are typed with float aliases but are called here with pint quantities
