@@ -514,11 +514,9 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
     the end of the off-time) and as the low side turns on (its highest), for a node whose
     load is one inductor into resistors (and capacitors) to fixed levels; None otherwise.
 
-    At steady state the inductor carries I_avg = (V_node,avg − V_ref)/R with V_node,avg =
-    D·V_bus + (1 − D)·V_sw,low, and ripples by ΔI = (V_bus − V_node,avg)·D/(f·L) (textbook
-    buck relations, Erickson & Maksimović). A current out of the node at the high side's
-    turn-on must be taken from the bus by it (a hard edge); a current into the node at the
-    low side's turn-on, likewise by the low side. A modulated command (the duty is the
+    ``physics.dvdt.load_current_at_edges`` gives the two currents. A current out of the
+    node at the high side's turn-on must be taken from the bus by it (a hard edge); a current
+    into the node at the low side's turn-on, likewise by the low side. A modulated command (the duty is the
     loop's) is not estimated.
     """
     if facts.modulated or facts.v_bus is None:
@@ -553,11 +551,10 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
                 return None
             conductance += 1.0 / ohms
             pulled += level / ohms
-    bus, low = facts.v_bus.value, facts.v_sw_low.value
-    average = duty.value * bus + (1.0 - duty.value) * low
-    i_avg = (average - pulled / conductance) * conductance if conductance else 0.0
-    ripple = (bus - average) * duty.value / (fsw.value * henries)
-    return i_avg - ripple / 2, i_avg + ripple / 2
+    v_ref = pulled / conductance if conductance else 0.0
+    return dvdt.load_current_at_edges(
+        facts.v_bus.value, facts.v_sw_low.value, duty.value, fsw.value, henries, v_ref, conductance
+    )
 
 
 def _partner_edge_hard(stage: DriveStage, facts: StageFacts) -> bool:

@@ -117,6 +117,34 @@ def peak_induced_voltage(
     return induced_gate_voltage(c_gd, c_gs, r_off, dv_dt, edge_time(v_swing, dv_dt))
 
 
+def load_current_at_edges(
+    v_bus: Volts,
+    v_low: Volts,
+    duty: float,
+    f_sw: float,
+    inductance: float,
+    v_ref: Volts,
+    conductance: float,
+) -> tuple[Amps, Amps]:
+    """The inductor current out of the switch node at the two edges of a leg, in steady state.
+
+    The node is at V_bus for D of each period and at V_low for the rest, so it averages
+    V_avg = D·V_bus + (1 − D)·V_low; the inductor into a load of conductance G to V_ref then
+    carries I_avg = (V_avg − V_ref)·G (a load of capacitors only carries none), rising by
+    ΔI = (V_bus − V_avg)·D/(f·L) while the high side conducts (textbook steady-state relations,
+    Erickson & Maksimović, Fundamentals of Power Electronics). Returns (I_avg − ΔI/2,
+    I_avg + ΔI/2): the current as the high side turns on (end of the off-time) and as the low
+    side turns on (end of the on-time).
+
+    v_bus, v_low: the node's two levels [V]; duty: D; f_sw: [Hz]; inductance: L [H];
+    v_ref: the level the load returns to [V]; conductance: G [S].
+    """
+    average = duty * v_bus + (1.0 - duty) * v_low
+    i_avg = (average - v_ref) * conductance
+    ripple = (v_bus - average) * duty / (f_sw * inductance)
+    return i_avg - ripple / 2, i_avg + ripple / 2
+
+
 def largest_off_resistance(
     c_gd: Farads,
     c_gs: Farads,

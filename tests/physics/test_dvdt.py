@@ -100,3 +100,20 @@ def test_previous_preferred() -> None:
     assert previous_preferred(4.7) == 4.7
     assert previous_preferred(0.99) == 0.82
     assert previous_preferred(120.5) == 120.0
+
+
+def test_load_current_at_edges_textbook_buck(ureg: pint.UnitRegistry) -> None:
+    # Erickson & Maksimović, steady state: 48 V at D = 0.25 into 22 µH and 3 Ω at 100 kHz:
+    # V_avg 12 V, I_avg 4 A, ΔI = 36 V·0.25/(100 kHz·22 µH) = 4.09 A: 1.95 A and 6.05 A
+    low, high = dvdt.load_current_at_edges(48.0, 0.0, 0.25, 100e3, 22e-6, 0.0, 1 / 3)
+    assert low == pytest.approx(4.0 - 4.0909 / 2, rel=1e-4)
+    assert high == pytest.approx(4.0 + 4.0909 / 2, rel=1e-4)
+    # a half bridge at 50 % into an RL load to its midpoint: no average, ± half the ripple
+    low, high = dvdt.load_current_at_edges(400.0, 0.0, 0.5, 60e3, 2e-3, 200.0, 1 / 40)
+    assert low == pytest.approx(-high) and high == pytest.approx(200 * 0.5 / (60e3 * 2e-3) / 2)
+    u = ureg
+    low_q, high_q = dvdt.load_current_at_edges(
+        48 * u.V, 0 * u.V, 0.25, 100 * u.kHz, 22 * u.uH, 0 * u.V, 1 / (3 * u.ohm)
+    )
+    assert low_q.to("A").magnitude == pytest.approx(4.0 - 4.0909 / 2, rel=1e-4)
+    assert high_q.check("[current]")
