@@ -516,8 +516,8 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
 
     ``physics.dvdt.load_current_at_edges`` gives the two currents. A current out of the
     node at the high side's turn-on must be taken from the bus by it (a hard edge); a current
-    into the node at the low side's turn-on, likewise by the low side. A modulated command (the duty is the
-    loop's) is not estimated.
+    into the node at the low side's turn-on, likewise by the low side. A modulated command
+    (the duty is the loop's) is not estimated.
     """
     if facts.modulated or facts.v_bus is None:
         return None
