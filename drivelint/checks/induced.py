@@ -418,7 +418,6 @@ class Edge:
     v_swing: Value
     i_gate: Value
     dv_dt: Value
-    what: str  # "the high side turns on" ...
 
     @property
     def rate_given(self) -> bool:
@@ -432,7 +431,6 @@ def _edge(
     victim_off: GatePathFigure,
     aggressor: Device,
     aggressor_on: GatePathFigure,
-    what: str,
 ) -> Edge | None:
     swing = facts.v_switched
     if swing <= 0 or facts.v_bus is None:
@@ -470,9 +468,7 @@ def _edge(
     if given is not None:
         # an edge rate known from the bench or set by a snubber wins over the gate's estimate
         dv_dt = Value(given.value, "V/s", f"condition dv_dt ({given.origin})")
-    return Edge(
-        victim_sw, victim_off, aggressor_sw, aggressor_on, plateau, v_swing, i_gate, dv_dt, what
-    )
+    return Edge(victim_sw, victim_off, aggressor_sw, aggressor_on, plateau, v_swing, i_gate, dv_dt)
 
 
 def edges(stage: DriveStage, facts: StageFacts) -> list[Edge]:
@@ -499,11 +495,11 @@ def edges(stage: DriveStage, facts: StageFacts) -> list[Edge]:
         currents is None and _partner_edge_hard(stage, facts)
     )
     if high_on is not None and high_hard:
-        found = _edge(facts, partner, partner_off, facts.switch, high_on, "turns on")
+        found = _edge(facts, partner, partner_off, facts.switch, high_on)
         if found is not None:
             out.append(found)
     if high_off is not None and partner_on.level.value > 0 and low_hard:
-        found = _edge(facts, facts.switch, high_off, partner, partner_on, "turns on")
+        found = _edge(facts, facts.switch, high_off, partner, partner_on)
         if found is not None:
             out.append(found)
     return out
@@ -645,11 +641,8 @@ def _judge(edge: Edge, ctx: CheckContext, margin: float) -> Finding | None:
         "v_resistive": computed(resistive, "V", "computed: C_gd·(dv/dt)·R_off"),
         "v_divider": computed(divider, "V", "computed: ΔV·C_gd/(C_gd + C_gs)"),
     }
-    device = (
-        off.resistors[-1]
-        if len(off.resistors) == 1
-        else (off.resistors[0] if off.resistors else name)
-    )
+    # the gate resistor nearest the gate, else the switch itself (its hold is missing)
+    device = off.resistors[0] if off.resistors else name
     where = (
         f"through {', '.join(off.resistors)} and {off.driver}"
         if off.resistors
