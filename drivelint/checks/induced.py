@@ -708,7 +708,8 @@ def _fix(edge: Edge, r_max: float, allowed: float, margin: float) -> str:
             else "leaves only the diode's forward drop (about 0.6 V) on the off path"
         )
         options.append(
-            f"or put a turn-off diode across {single} (cathode towards the driver), which {left}"
+            f"or, to keep {single} for the turn-on, a turn-off diode across it (cathode "
+            f"towards the driver), which {left}"
         )
     elif off.resistors:
         single = " + ".join(off.resistors)

@@ -38,6 +38,7 @@ from drivelint.testbench.bench import (
     design_schedule,
     held_supplies,
     matches,
+    partner_dead_time,
     periodic_conditions,
     stimulus,
 )
@@ -1235,8 +1236,10 @@ INDUCED_WINDOW = 1e-6
 
 
 def induced_turn_on(ctx: BenchContext) -> Bench | Declined:
-    """The leg switching at the design's own command; the low side's highest V_GS while the
-    high side turns on, against its threshold."""
+    """The leg switching at the design's own command (or the rule's pulse train); the off
+    switch's highest V_GS during its partner's turn-on edge, against its threshold: the low
+    side's while the high side turns on, the high side's once the dead time after its own
+    turn-off has passed and the low side turns on."""
     from drivelint.checks.induced import edges
 
     r_off = ctx.value("r_off")
@@ -1244,16 +1247,14 @@ def induced_turn_on(ctx: BenchContext) -> Bench | Declined:
     found = [
         e
         for e in edges(ctx.stage, ctx.facts)
-        if e.victim.device.name != ctx.stage.switch
-        and r_off is not None
+        if r_off is not None
         and math.isclose(e.victim_off.resistance.value, r_off, rel_tol=1e-6)
+        and math.isclose(e.victim.vth.value, vth or 0.0, rel_tol=1e-9)
     ]
-    if not found or vth is None:
-        return Declined(
-            "the finding is about the high side off while its partner turns on: that edge "
-            "depends on the direction of the load current at that instant, not laid out"
-        )
-    victim = found[0].victim.device
+    if len(found) != 1 or vth is None:
+        return Declined("the finding's edge is not one the rule finds on this stage")
+    edge = found[0]
+    victim = edge.victim.device
     gate, source = victim.net("g"), victim.net("s")
     if gate is None or source is None:
         return Declined(f"{victim.name}'s gate or source cannot be probed")
@@ -1265,22 +1266,28 @@ def induced_turn_on(ctx: BenchContext) -> Bench | Declined:
     if isinstance(window, Declined):
         return window
     start, end = window
-    stop_read = min(start + INDUCED_WINDOW, start + 0.5 * (end - start))
-    stop = min(end + SETTLE_AFTER, MAX_STOP)
-    cards = [
-        extreme(
-            "vgs_peak",
-            "MAX",
-            difference(gate, source),
-            start,
-            stop_read,
-            f"highest V_GS of {victim.name} while {ctx.stage.switch} turns on",
-        )
-    ]
+    if victim.name == ctx.stage.switch:
+        # the partner turns on a dead time after the high side's own turn-off, whose gate
+        # has fallen by then; read until half-way to the next turn-on
+        dead = partner_dead_time(ctx, schedule)
+        if dead <= 0:
+            return Declined("the low side's turn-on is not commanded apart from the high side's")
+        off_time = (schedule.period or 0.0) - (end - start)
+        read_from = end + dead
+        read_to = read_from + min(INDUCED_WINDOW, 0.5 * (off_time - dead))
+        what = f"highest V_GS of {victim.name} while {edge.aggressor.device.name} turns on"
+    else:
+        read_from = start
+        read_to = start + min(INDUCED_WINDOW, 0.5 * (end - start))
+        what = f"highest V_GS of {victim.name} while {ctx.stage.switch} turns on"
+    if read_to <= read_from:
+        return Declined("no time between the edges to read the off gate in")
+    stop = min(max(end, read_to) + SETTLE_AFTER, MAX_STOP)
+    cards = [extreme("vgs_peak", "MAX", difference(gate, source), read_from, read_to, what)]
     return Bench(
         edits=edits,
         stop=stop,
-        step=analysis_step(ctx.design, stop, stop_read - start),
+        step=analysis_step(ctx.design, stop, read_to - read_from),
         cards=tuple(cards),
         claims=tuple(_claims(ctx)),
         limits=(
