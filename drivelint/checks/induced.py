@@ -169,6 +169,16 @@ def _plateau(facts: StageFacts, device: Device, vth: Value) -> Value:
     if found is not None:
         return found
     load = facts.condition("load_current")
+    gfs = facts.ratings.get(device, "gfs")
+    if load is not None and gfs is not None and gfs.value > 0:
+        # a datasheet's g_fs is a linear slope at its test current (common practice)
+        over = load.value / (gfs.value * _multiplier(device))
+        return computed(
+            vth.value + over,
+            "V",
+            f"computed: V_th + I_load/g_fs = {vth.text()} + {load.text()}/{gfs.text()} "
+            f"({gfs.origin})",
+        )
     model = device.model
     params = model.params if model else {}
     if load is not None and model is not None and params.get("kp"):

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 from drivelint.diagnostics import positional_reduce
 
 # SI units drivelint reports in ("1" is dimensionless).
-UNITS = frozenset({"V", "A", "F", "C", "s", "Hz", "K", "W", "1", "Ohm", "K/W", "H", "V/s"})
+UNITS = frozenset({"V", "A", "F", "C", "s", "Hz", "K", "W", "1", "Ohm", "K/W", "H", "V/s", "S"})
 
 
 @dataclass(frozen=True, slots=True)

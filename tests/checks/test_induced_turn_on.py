@@ -261,3 +261,20 @@ def test_the_falling_edge_against_ngspice(tmp_path: Path) -> None:
     peak = max(waves["v(g)"][i] - sw[i] for i in range(lo, hi))
     assert edge.dv_dt.value == pytest.approx(rate, rel=0.20)
     assert computed_peak == pytest.approx(peak, rel=0.20)
+
+
+def test_the_plateau_from_gfs_and_the_load_current() -> None:
+    # with load_current 4 A and g_fs 10 S: V_pl = 3 + 0.4 = 3.4 V, so the high side's gate
+    # current is (V_drive − 3.4 V)/2.2 Ω; without gfs the model's square law gives
+    # 3 + √(2·4/50) = 3.4 V as well (β = 50 µA/V²·1 m/1 µm = 50 A/V²)
+    base = BAD.read_text(encoding="utf-8")
+    with_gfs = base.replace(
+        ".end\n", "* drivelint: conditions load_current=4\n* drivelint: part m1 gfs=10S\n.end\n"
+    )
+    (finding,) = lint(with_gfs)
+    plateau = finding.values["v_plateau_partner"]
+    assert plateau.value == pytest.approx(3.4) and "I_load/g_fs" in plateau.origin
+    square = base.replace(".end\n", "* drivelint: conditions load_current=4\n.end\n")
+    (finding,) = lint(square)
+    assert finding.values["v_plateau_partner"].value == pytest.approx(3.4)
+    assert "√(2·I_load/β)" in finding.values["v_plateau_partner"].origin
