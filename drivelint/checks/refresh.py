@@ -12,7 +12,7 @@ from drivelint.checks.facts import StageFacts
 from drivelint.checks.printed import sum_line
 from drivelint.netlist.values import format_si
 from drivelint.physics import bootstrap as boot_physics
-from drivelint.physics.preferred import preferred_values
+from drivelint.physics.preferred import preferred_at_most
 from drivelint.ratings.values import Value, computed
 from drivelint.stages.model import DriveStage, Refresh
 
@@ -141,20 +141,6 @@ def _recharge_drop(facts: StageFacts, i_mean: float) -> Value:
     the mean current of a partial recharge, not at the small one that ends a full one.
     """
     return facts.diode_vf_at(i_mean, "the mean recharge current")
-
-
-def _largest_preferred_at_most(value: float, series: str = "E12") -> float | None:
-    """The largest IEC 60063 value of ``series`` that is ≤ ``value`` (None for ≤ 0)."""
-    if not (value > 0 and math.isfinite(value)):
-        return None
-    decade = math.floor(math.log10(value))
-    best: float | None = None
-    for exponent in (decade - 1, decade):
-        for step in preferred_values(series):
-            candidate = float(f"{step!r}e{exponent}")
-            if candidate <= value * (1 + 1e-9):
-                best = candidate
-    return best
 
 
 @dataclass(frozen=True, slots=True)
@@ -355,7 +341,7 @@ def _not_sustained(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
     fixed_part = r_diode.value + path.resistance.value
     if supply.series_resistors and r_max > fixed_part:
         allowed = r_max - fixed_part
-        chosen = _largest_preferred_at_most(allowed)
+        chosen = preferred_at_most(allowed)
         names = "+".join(supply.series_resistors)
         fix += f", or lower {names} from {r_series.text()} to ≤ {format_si(allowed, 'Ω')}" + (
             f" (e.g. {format_si(chosen, 'Ω')})" if chosen else ""

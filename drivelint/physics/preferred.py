@@ -65,17 +65,33 @@ def next_preferred(value: float, series: str = "E12") -> float:
 
 
 def preferred_at_most(value: float, series: str = "E12") -> float | None:
-    """Largest value of ``series`` that is ≤ ``value``, in any decade (None for a value
-    that is not positive and finite): the rounding for a part that must not exceed it."""
+    """:func:`previous_preferred`, or None for a value that is not positive and finite
+    (where no part value can meet the limit)."""
     if not (value > 0 and math.isfinite(value)):
         return None
-    decade = math.floor(math.log10(value))
-    for power in (decade + 1, decade, decade - 1):
-        fits = [_compose(step, power) for step in preferred_values(series)]
-        fits = [v for v in fits if v <= value * (1 + _TOLERANCE)]
-        if fits:
-            return max(fits)
-    return None
+    return previous_preferred(value, series)
+
+
+def previous_preferred(value: float, series: str = "E12") -> float:
+    """Largest value of ``series`` that is ≤ ``value``, in any decade (for a part that must
+    not exceed a limit, such as a resistor at most so large).
+
+    value: a positive value in any unit; the result is in the same unit.
+    Raises ValueError for a value that is not positive and finite.
+    """
+    if hasattr(value, "units") and hasattr(value, "magnitude"):
+        quantity = cast(Any, value)
+        rounded = previous_preferred(float(quantity.magnitude), series)
+        return cast(float, type(quantity)(rounded, quantity.units))
+    up = next_preferred(value, series)
+    if up <= value * (1.0 + _TOLERANCE):
+        return up
+    table = preferred_values(series)
+    decade = math.floor(math.log10(up) + _TOLERANCE)
+    index = table.index(min(table, key=lambda step: abs(step - up / 10.0**decade)))
+    if index == 0:
+        return _compose(table[-1], decade - 1)
+    return _compose(table[index - 1], decade)
 
 
 def _compose(step: float, decade: int) -> float:

@@ -22,6 +22,8 @@ CONDITION_KEYS: Mapping[str, str] = {
     "v_aux": "V",
     "ambient": "K",
     "load_current": "A",
+    # the switch node's edge rate, where it is known (measured, or set by a snubber)
+    "dv_dt": "V/s",
     # tolerance corners (drivelint/checks/corners.py)
     "corners": "1",
     "as_corner": "1",
@@ -60,6 +62,7 @@ CONDITION_RANGES: Mapping[str, tuple[float, float, bool]] = {
     # kelvin: -100 °C to 300 °C, wider than any rated part; the diode laws lose meaning beyond
     "ambient": (173.0, 574.0, True),
     "load_current": (0.0, 1e6, True),
+    "dv_dt": (0.0, 1e12, False),  # up to 1000 V/ns
     # tolerance corners: fractions, and a temperature (drivelint/checks/corners.py)
     **CORNER_RANGES,
 }

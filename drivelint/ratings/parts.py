@@ -72,6 +72,8 @@ def _keys() -> dict[str, KeySpec]:
         "qg": KeySpec("C", switch, help="total gate charge at vgs_qg"),
         "qgd": KeySpec("C", switch, help="gate-drain (Miller) charge"),
         "qgs": KeySpec("C", switch, help="gate-source charge"),
+        "crss": KeySpec("F", switch, help="reverse transfer (gate-drain) capacitance C_rss"),
+        "gfs": KeySpec("S", switch, help="forward transconductance g_fs"),
         "rds_on": KeySpec("Ohm", switch, help="on-resistance"),
         "rg_internal": KeySpec("Ohm", switch, closed=True, help="internal gate resistance"),
         "t_off": KeySpec(

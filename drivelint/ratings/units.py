@@ -53,10 +53,11 @@ _UNITS: Mapping[str, str] = {
     "K": "K",
     "K/W": "K/W",
     "H": "H",
+    "S": "S",
 }
 _QUANTITY = re.compile(
     r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*"
-    r"(T|G|M|k|m|u|µ|μ|n|p|f)?(V|A|F|C|s|Hz|Ohm|ohm|Ω|W|K/W|K|H)?\s*"
+    r"(T|G|M|k|m|u|µ|μ|n|p|f)?(V|A|F|C|s|Hz|Ohm|ohm|Ω|W|K/W|K|H|S)?\s*"
 )
 _CELSIUS = re.compile(r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(?:degC|°C|celsius)\s*")
 _PINT_UNITS: Mapping[str, str] = {
@@ -71,6 +72,8 @@ _PINT_UNITS: Mapping[str, str] = {
     "K": "kelvin",
     "K/W": "kelvin/watt",
     "H": "henry",
+    "V/s": "volt/second",
+    "S": "siemens",
     "1": "",
 }
 
@@ -80,7 +83,7 @@ class UnitError(ValueError):
 
 
 def parse_quantity(raw: str | float, unit: str, *, bare_celsius: bool = False) -> float:
-    """``raw`` in SI base units of ``unit`` (one of V A F C s Hz Ohm W K K/W H 1).
+    """``raw`` in SI base units of ``unit`` (one of V A F C s Hz Ohm W K K/W H V/s S 1).
 
     One reader for everything people type, in a parts file, a configuration or a netlist
     directive:
@@ -204,6 +207,8 @@ _EXAMPLES: Mapping[str, str] = {
     "K": "175 degC",
     "K/W": "62 K/W",
     "H": "10 uH",
+    "V/s": "20 V/ns",
+    "S": "50 S",
     "1": "0.95",
 }
 

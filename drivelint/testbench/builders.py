@@ -41,6 +41,7 @@ from drivelint.testbench.bench import (
     design_schedule,
     held_supplies,
     matches,
+    partner_dead_time,
     periodic_conditions,
     stimulus,
 )
@@ -109,12 +110,14 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "level-shift-contention/contention": ("shifter_sink",),
     "cross-conduction/overlap": ("command_overlap", "shoot_through_bound"),
     "cross-conduction/dead time": ("t_switch_off",),
+    "induced-turn-on": ("vgs_peak",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
 # every rule.
 STRESS_KINDS = frozenset(
     {
+        "induced-turn-on",
         "bootstrap-diode-voltage",
         "gate-overvoltage/negative",
         "gate-overvoltage/positive",
@@ -1850,7 +1853,76 @@ def build(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+# The off switch's gate is read for this long after the high side's command edge: the
+# driver's delay and the edge itself, well short of any on-time worth switching.
+INDUCED_WINDOW = 1e-6
+
+
+def induced_turn_on(ctx: BenchContext) -> Bench | Declined:
+    """The leg switching at the design's own command (or the rule's pulse train); the off
+    switch's highest V_GS during its partner's turn-on edge, against its threshold: the low
+    side's while the high side turns on, the high side's once the dead time after its own
+    turn-off has passed and the low side turns on."""
+    from drivelint.checks.induced import edges
+
+    r_off = ctx.value("r_off")
+    vth = ctx.value("vth")
+    found = [
+        e
+        for e in edges(ctx.stage, ctx.facts)
+        if r_off is not None
+        and math.isclose(e.victim_off.resistance.value, r_off, rel_tol=1e-6)
+        and math.isclose(e.victim.vth.value, vth or 0.0, rel_tol=1e-9)
+    ]
+    if len(found) != 1 or vth is None:
+        return Declined("the finding's edge is not one the rule finds on this stage")
+    edge = found[0]
+    victim = edge.victim.device
+    gate, source = victim.net("g"), victim.net("s")
+    if gate is None or source is None:
+        return Declined(f"{victim.name}'s gate or source cannot be probed")
+    laid_out = _own_or_periodic(ctx, "the leg switching at its own command")
+    if isinstance(laid_out, Declined):
+        return laid_out
+    schedule, edits, notes = laid_out
+    window = _window(schedule, 1)
+    if isinstance(window, Declined):
+        return window
+    start, end = window
+    if victim.name == ctx.stage.switch:
+        # the partner turns on a dead time after the high side's own turn-off, whose gate
+        # has fallen by then; read until half-way to the next turn-on
+        dead = partner_dead_time(ctx, schedule)
+        if dead <= 0:
+            return Declined("the low side's turn-on is not commanded apart from the high side's")
+        off_time = (schedule.period or 0.0) - (end - start)
+        read_from = end + dead
+        read_to = read_from + min(INDUCED_WINDOW, 0.5 * (off_time - dead))
+        what = f"highest V_GS of {victim.name} while {edge.aggressor.device.name} turns on"
+    else:
+        read_from = start
+        read_to = start + min(INDUCED_WINDOW, 0.5 * (end - start))
+        what = f"highest V_GS of {victim.name} while {ctx.stage.switch} turns on"
+    if read_to <= read_from:
+        return Declined("no time between the edges to read the off gate in")
+    stop = min(max(end, read_to) + SETTLE_AFTER, MAX_STOP)
+    cards = [extreme("vgs_peak", "MAX", difference(gate, source), read_from, read_to, what)]
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, read_to - read_from),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(
+            Limit("vgs_peak", vth, "<=", f"{victim.name}'s gate stays below its threshold", "V"),
+        ),
+        notes=notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
 BUILDERS: Mapping[str, Builder] = {
+    "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
     "bootstrap-diode-voltage": diode_voltage,

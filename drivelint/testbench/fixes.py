@@ -658,7 +658,29 @@ def _moved_on_edge(
     return element.span, Edit(lines=(line,), note=note)
 
 
+def induced_turn_on(ctx: BenchContext) -> Fix | Declined:
+    """The off switch's gate resistor set to the finding's suggested value."""
+    suggested = ctx.value("suggested_gate_resistor")
+    name = ctx.finding.device
+    device = ctx.circuit.devices.get(name)
+    if suggested is None or device is None or device.kind != "resistor":
+        return Declined("the finding suggests no gate resistor value")
+    element = _element(ctx, name)
+    if isinstance(element, Declined):
+        return element
+    if len(element.fields) < 3 or not isinstance(element.fields[2], Word):
+        return Declined(f"{name}'s value is not written as a plain number")
+    text = number(suggested * device.multiplier)
+    old = (device.value or 0.0) / device.multiplier
+    return Fix(
+        f"{name}: {format_si(old, 'Ω')} -> {format_si(suggested, 'Ω')} (the finding's "
+        "suggested_gate_resistor)" + _shared(ctx, element),
+        {element.span: Edit(fields=((element.fields[2], text),), note=f"fix: {name} = {text}")},
+    )
+
+
 APPLIERS: Mapping[str, Applier] = {
+    "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
     "bootstrap-diode-voltage": diode_voltage,

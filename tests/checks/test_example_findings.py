@@ -23,6 +23,9 @@ EXPECTED = {
     ("loadswitch24v_dc_enable.cir", "dc-hold", "ven", 38),
     ("loadswitch24v_dc_enable.cir", "gate-overvoltage", "q4", 52),
     ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-no-refresh", "vhia", 38),
+    # the high side's edge (1.76 V/ns) lifts the low side's gate, held through R_GL 15 Ω
+    # and the driver, to V_th (ngspice: 4.4 V at the core's gate, against V_th 3 V)
+    ("mower48v_hbridge_wrapped_fets.cir", "induced-turn-on", "xlega.r_gl", 51),
     ("mower48v_hbridge_wrapped_fets.cir", "bootstrap-diode-voltage", "xlega.d_bt", 47),
     # leg A's 100 ns dead times against hard turn-offs through 15 Ω gate resistors (warning)
     ("mower48v_hbridge_wrapped_fets.cir", "cross-conduction", "vlia", 39),

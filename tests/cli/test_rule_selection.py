@@ -18,9 +18,10 @@ ROOT = Path(__file__).resolve().parents[2]
 EXAMPLES = ROOT / "examples"
 # examples/README.md: leg A of the mower H-bridge has an under-rated bootstrap diode
 # (bootstrap-diode-voltage) and a 99.2 % duty the refresh cannot keep up with
-# (bootstrap-no-refresh), and dead times short of its hard turn-offs (cross-conduction, a
-# warning); the load switch a DC enable (dc-hold) and a pull-down to
-# ground (gate-overvoltage).
+# (bootstrap-no-refresh), dead times short of its hard turn-offs (cross-conduction, a
+# warning), and its 15 Ω low-side gate resistor lets the high side's edge lift the low
+# side's gate to its threshold (induced-turn-on); the load switch a DC enable (dc-hold)
+# and a pull-down to ground (gate-overvoltage).
 MOWER = "mower48v_hbridge_wrapped_fets.cir"
 SWITCH = "loadswitch24v_dc_enable.cir"
 
@@ -45,12 +46,17 @@ def project(tmp_path: Path, config: str = "") -> Path:
 
 def test_select_and_ignore_on_the_command_line() -> None:
     every = rules_in(run(str(EXAMPLES / MOWER)).stdout)
-    assert every == {"bootstrap-diode-voltage", "bootstrap-no-refresh", "cross-conduction"}
+    assert every == {
+        "bootstrap-diode-voltage",
+        "bootstrap-no-refresh",
+        "cross-conduction",
+        "induced-turn-on",
+    }
     selected = run("--select", "bootstrap-diode-voltage", str(EXAMPLES / MOWER))
     assert rules_in(selected.stdout) == {"bootstrap-diode-voltage"} and selected.exit_code == 1
     ignored = run(
         "--ignore",
-        "bootstrap-diode-voltage,bootstrap-no-refresh,cross-conduction",
+        "bootstrap-diode-voltage,bootstrap-no-refresh,cross-conduction,induced-turn-on",
         str(EXAMPLES / MOWER),
     )
     assert rules_in(ignored.stdout) == set() and ignored.exit_code == 0
@@ -82,6 +88,7 @@ def test_severity_off_switches_a_rule_off(tmp_path: Path) -> None:
     assert rules_in(run(str(folder / MOWER)).stdout) == {
         "bootstrap-diode-voltage",
         "cross-conduction",
+        "induced-turn-on",
     }
     with pytest.raises(ConfigError, match="expected error, warning, note or off"):
         (folder / "drivelint.toml").write_text('[rule.dc-hold]\nseverity = "of"\n')
@@ -132,7 +139,7 @@ def test_rules_per_path(tmp_path: Path) -> None:
     by_file: dict[str, set[tuple[str, str]]] = {}
     for f in payload["findings"]:
         by_file.setdefault(Path(f["path"]).name, set()).add((f["rule"], f["severity"]))
-    assert by_file[MOWER] == {("bootstrap-diode-voltage", "warning")}
+    assert by_file[MOWER] == {("bootstrap-diode-voltage", "warning"), ("induced-turn-on", "error")}
     assert by_file[SWITCH] == {("dc-hold", "error")}
 
 

@@ -68,7 +68,10 @@ def test_designs_are_collapsed_and_carry_their_filter_keys(
     assert page.count('<details class="design-details">') == len(library)  # closed
     mower = next(a for a in articles if "mower48v" in a)
     assert 'data-status="findings"' in mower
-    assert 'data-rules="bootstrap-diode-voltage bootstrap-no-refresh cross-conduction"' in mower
+    assert (
+        'data-rules="bootstrap-diode-voltage bootstrap-no-refresh cross-conduction '
+        'induced-turn-on"' in mower
+    )
     for result in library:
         for finding in result.findings:
             assert f'data-rule="{finding.rule}" data-severity="{finding.severity.label}"' in card(

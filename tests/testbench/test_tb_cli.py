@@ -72,6 +72,7 @@ def test_rule_and_device_select_findings(project: Path, tmp_path: Path) -> None:
         "vhia",
         "vlia",
         "xlega.d_bt",
+        "xlega.r_gl",
     ]
 
 

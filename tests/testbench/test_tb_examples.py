@@ -159,6 +159,7 @@ def test_the_examples_have_findings_to_prove() -> None:
         "gate-headroom",
         "voltage-stress",
         "gate-overvoltage",
+        "induced-turn-on",
     }
 
 

@@ -72,6 +72,7 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("dead_time", "dead_time_needed"),
         ("command_overlap", "dead_time_needed"),
     ),
+    "induced-turn-on": (("vgs_peak", "vth"), ("r_off", "r_off_max")),
 }
 
 
