@@ -64,6 +64,28 @@ def next_preferred(value: float, series: str = "E12") -> float:
     return _compose(table[0], decade + 1)
 
 
+def previous_preferred(value: float, series: str = "E12") -> float:
+    """Largest value of ``series`` that is ≤ ``value``, in any decade (the round-down twin of
+    :func:`next_preferred`: for a part whose value must not exceed a bound).
+
+    value: a positive finite value in any unit (a pint quantity keeps its unit).
+    """
+    if hasattr(value, "units") and hasattr(value, "magnitude"):
+        quantity = cast(Any, value)
+        rounded = previous_preferred(float(quantity.magnitude), series)
+        return cast(float, type(quantity)(rounded, quantity.units))
+    up = next_preferred(value, series)
+    if up <= value * (1.0 + _TOLERANCE):
+        return up
+    table = preferred_values(series)
+    decade = math.floor(math.log10(up))
+    mantissa = up / 10.0**decade
+    index = min(range(len(table)), key=lambda i: abs(table[i] - mantissa))
+    if index == 0:
+        return _compose(table[-1], decade - 1)
+    return _compose(table[index - 1], decade)
+
+
 def _compose(step: float, decade: int) -> float:
     """``step × 10**decade`` as the float nearest the decimal value.
 

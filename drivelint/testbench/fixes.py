@@ -459,6 +459,43 @@ def _raised_isolated(
     )
 
 
+def gate_pulldown(ctx: BenchContext) -> Fix | Declined:
+    """The suggested gate–source resistor, added after the switch's statement, between the
+    gate and the source as they are named there."""
+    stage = ctx.stage
+    if "vgs_pulled_on" in ctx.finding.values:
+        return Declined(
+            "the fix is a default-off drive (the pull-up made active, the gate tied to its "
+            "source): a different circuit rather than a value or a part"
+        )
+    ohms = ctx.value("suggested_r_gs")
+    if ohms is None:
+        return Declined("the finding suggests no resistor value")
+    switch = ctx.circuit.devices.get(stage.switch)
+    element = _element(ctx, stage.switch)
+    if isinstance(element, Declined) or switch is None:
+        return Declined(f"{stage.switch}'s statement cannot be found")
+    gate = ctx.design.local_net(stage.gate, switch.instance)
+    source = ctx.design.local_net(stage.source, switch.instance)
+    if gate is None or source is None:
+        return Declined("the gate or the source cannot be named where the switch is written")
+    taken = {n.rsplit(".", 1)[-1] for n in ctx.design.circuit.devices}
+    name = "r_gs_fix"
+    while name in taken:
+        name += "_"
+    text = format_si(ohms, "Ω")
+    return Fix(
+        f"{name}: {text} from {stage.switch}'s gate to its source (the finding's suggested "
+        "gate–source resistor)" + _shared(ctx, element),
+        {
+            element.span: Edit(
+                after=(f"{name.upper()} {gate} {source} {number(ohms)}",),
+                note=f"fix: {name} = {text} from gate to source",
+            )
+        },
+    )
+
+
 APPLIERS: Mapping[str, Applier] = {
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,
@@ -467,4 +504,5 @@ APPLIERS: Mapping[str, Applier] = {
     "dc-hold": dc_hold,
     "gate-overvoltage": gate_overvoltage,
     "gate-headroom": gate_headroom,
+    "gate-pulldown-missing": gate_pulldown,
 }
