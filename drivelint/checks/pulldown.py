@@ -327,8 +327,8 @@ def _pulled_on(
     if facts.v_boot0 is not None:
         values["v_boot"] = facts.v_boot0
     message = (
-        f"the only passive paths from {stage.switch}'s gate ({paths}) pull it on: with the "
-        f"floating supply charged and the active pull-down unpowered (a controller in reset, "
+        f"the only passive paths from {stage.switch}'s gate ({paths}) pull it on: with "
+        f"{pull_up.what} up and the active pull-down unpowered (a controller in reset, "
         f"a missing logic supply), V_GS reaches {_v(level)} with the source low, above the "
         f"{vth.text()} threshold, so the switch turns on uncommanded (and holds "
         f"{_v(settled)} once on)"
@@ -497,6 +497,7 @@ def _fix_text(
     supply = stage.supply
     if supply.kind in ("bootstrap", "charge-pump", "isolated") and facts.v_boot0 is not None:
         current = facts.v_boot0.value / ohms
+        values["v_boot"] = facts.v_boot0
         values["r_gs_drain"] = computed(
             current, "A", "computed: V_boot,0/R_GS, drawn from the floating supply while on"
         )
