@@ -53,6 +53,7 @@ class Anchor:
     devices: tuple[str, ...]
     volts: float  # against the source at its low level
     what: str
+    rides: bool = False  # moves with the source (the source itself, a floating supply)
 
 
 def passive_reach(stage: DriveStage, facts: StageFacts) -> dict[str, tuple[float, tuple[str, ...]]]:
@@ -97,11 +98,18 @@ def anchors(stage: DriveStage, facts: StageFacts) -> list[Anchor]:
     found = []
     for net, (ohms, devices) in sorted(passive_reach(stage, facts).items()):
         if net == stage.source:
-            found.append(Anchor(net, ohms, devices, 0.0, "the switch's source"))
+            found.append(Anchor(net, ohms, devices, 0.0, "the switch's source", rides=True))
         elif net == stage.supply.boot_net:
             boot = facts.v_boot0
             level = boot.value if boot is not None else 0.0
-            found.append(Anchor(net, ohms, devices, level, f"the floating supply's net {net}"))
+            supply = stage.supply
+            if supply.kind == "charge-pump" and not supply.riding:
+                # a reservoir to ground: its output stays put while the source moves
+                what = f"the pump output {net}"
+                found.append(Anchor(net, ohms, devices, level + facts.v_switched, what))
+            else:
+                what = f"the floating supply's net {net}"
+                found.append(Anchor(net, ohms, devices, level, what, rides=True))
         elif net == GROUND:
             found.append(Anchor(net, ohms, devices, -low, "ground"))
         elif net in facts.circuit.rails:
@@ -284,7 +292,7 @@ def settled_level(found: list[Anchor], facts: StageFacts, vth: float) -> tuple[f
     its source."""
     swing = facts.v_switched
     moved = [
-        Anchor(a.net, a.ohms, a.devices, a.volts - (0.0 if _rides(a, facts) else swing), a.what)
+        Anchor(a.net, a.ohms, a.devices, a.volts - (0.0 if a.rides else swing), a.what, a.rides)
         for a in found
     ]
     level = held_level(moved)
@@ -297,11 +305,6 @@ def settled_level(found: list[Anchor], facts: StageFacts, vth: float) -> tuple[f
         "computed: the switch's threshold, where a source follower settles (the passive "
         f"paths alone would give {_v(level)} with the source at the bus)"
     )
-
-
-def _rides(anchor: Anchor, facts: StageFacts) -> bool:
-    stage = facts.stage
-    return anchor.net in (stage.source, stage.supply.boot_net)
 
 
 def _pulled_on(

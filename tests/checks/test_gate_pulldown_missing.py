@@ -261,7 +261,7 @@ def test_what_each_example_yields(example: str) -> None:
     assert found == EXAMPLE_FINDINGS.get(example, set())
 
 
-# -- ngspice: the induced voltage against an independent simulator ----------------------------------
+# -- ngspice: the induced voltage against an independent simulator ------------------------------
 
 CROSS_DECK = """floating gate, drain ramped, source held at ground
 VD d 0 PWL(0 0 1u 0 {end} {bus})
