@@ -367,7 +367,14 @@ def _floating(stage: DriveStage, ctx: CheckContext, vth: Value | None) -> Findin
     bus = facts.v_bus
     delta_v = facts.v_switched if bus is not None else 0.0
     caps = capacitances(stage, facts, delta_v) if delta_v > 0 else None
-    active = sorted({d for p in stage.pulldowns for d in p.devices})
+    active = sorted(
+        {
+            name
+            for path in stage.pulldowns
+            for name in path.devices
+            if (device := facts.device(name)) is None or device.kind not in _PASSIVE_KINDS
+        }
+    )
     held_by = (
         f" (only {', '.join(active)}, active parts that hold nothing unpowered)" if active else ""
     )
