@@ -285,7 +285,7 @@ def check_gate_pulldown(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
     yield _floating(stage, ctx, vth)
 
 
-def settled_level(found: list[Anchor], facts: StageFacts, vth: float) -> tuple[float, str]:
+def settled_level(found: list[Anchor], facts: StageFacts, vth: float) -> tuple[float | None, str]:
     """V_GS once the switch is on and its source has risen to the bus: the source and the
     floating supply ride with it, ground and the rails stay behind by the swing. Below the
     threshold the switch is a source follower whose gate stays about a threshold above
@@ -301,9 +301,9 @@ def settled_level(found: list[Anchor], facts: StageFacts, vth: float) -> tuple[f
             "computed: the resistive divider of the gate's passive paths with the floating "
             "supply charged, every active pull-down unpowered and the source up at the bus"
         )
-    return vth, (
-        "computed: the switch's threshold, where a source follower settles (the passive "
-        f"paths alone would give {_v(level)} with the source at the bus)"
+    return None, (
+        f"the passive paths alone would give {_v(level)} with the source at the bus: the "
+        "switch conducts as a source follower, its gate about a threshold above its source"
     )
 
 
@@ -318,7 +318,6 @@ def _pulled_on(
     )
     pull_up = max(found, key=lambda a: a.volts)
     values: dict[str, Value] = {
-        "vgs_pulled_on": computed(settled, "V", how),
         "vgs_turn_on": computed(
             level,
             "V",
@@ -327,16 +326,30 @@ def _pulled_on(
         ),
         "vth": vth,
     }
+    if settled is not None:
+        values["vgs_pulled_on"] = computed(settled, "V", how)
     if facts.v_boot0 is not None:
         values["v_boot"] = facts.v_boot0
+    held = f"holds {_v(settled)} once on" if settled is not None else how.split(": ", 1)[1]
     message = (
-        f"the only passive paths from {stage.switch}'s gate ({paths}) pull it on: with "
-        f"{pull_up.what} up and the active pull-down unpowered (a controller in reset, "
-        f"a missing logic supply), V_GS reaches {_v(level)} with the source low, above the "
-        f"{vth.text()} threshold, so the switch turns on uncommanded (and holds "
-        f"{_v(settled)} once on)"
+        f"the only passive paths from {stage.switch}'s gate ({paths}) pull it on: with the "
+        f"source at its low level ({facts.v_sw_low.text()}), "
+        + (
+            "the floating supply charged "
+            if pull_up.rides
+            else ("" if pull_up.net == GROUND else f"{pull_up.what} up ")
+        )
+        + "and the active pull-down unpowered (a controller in reset, a missing logic "
+        f"supply), V_GS reaches {_v(level)} with the source low, above the "
+        f"{vth.text()} threshold, so the switch turns on uncommanded ({held})"
     )
-    fix = (
+    returned = ""
+    if not pull_up.rides and len(pull_up.devices) == 1:
+        returned = (
+            f"return {pull_up.devices[0]} to the source {stage.source} instead of "
+            f"{pull_up.what}, or "
+        )
+    fix = returned + (
         f"make the passive default off: drive the pull-up {pull_up.devices[0]} actively (a "
         "transistor that the command turns on) and tie the gate to its source with a "
         "resistor (10 kΩ–100 kΩ, common practice), or use a driver whose output is held "
@@ -349,7 +362,7 @@ def _pulled_on(
     derivation = (
         "V_GS,held = Σ(V_k/R_k)/Σ(1/R_k) over the passive paths: "
         + ", ".join(f"{_v(a.volts)} through {format_si(a.ohms, 'Ω')}" for a in found),
-        f"= {_v(level)} ≥ V_th {vth.text()} ({vth.origin}); once on: {_v(settled)}",
+        f"= {_v(level)} ≥ V_th {vth.text()} ({vth.origin}); once on: {held}",
     )
     return ctx.finding(stage.switch, message, values, fix=fix, derivation=derivation)
 

@@ -429,7 +429,7 @@ def finding_kind(finding: Finding, stage: DriveStage) -> str:
     values = finding.values
     if finding.rule == "bootstrap-no-refresh" and "sustained_boot_voltage" not in values:
         return "bootstrap-no-refresh/no path"
-    if finding.rule == "gate-pulldown-missing" and "vgs_pulled_on" in values:
+    if finding.rule == "gate-pulldown-missing" and "vgs_turn_on" in values:
         return "gate-pulldown-missing/pulled on"
     if finding.rule != "gate-overvoltage":
         return finding.rule
@@ -1356,7 +1356,7 @@ def _design_stop(ctx: BenchContext) -> float:
 
 
 def gate_pulldown(ctx: BenchContext) -> Bench | Declined:
-    if "vgs_pulled_on" in ctx.finding.values:
+    if "vgs_turn_on" in ctx.finding.values:
         return _pulled_on(ctx)
     vth, fraction = ctx.value("vth"), ctx.value("hold_fraction")
     rise = ctx.value("bus_rise_time")
@@ -1422,16 +1422,23 @@ def _pulled_on(ctx: BenchContext) -> Bench | Declined:
     vth = ctx.value("vth")
     if vth is None:
         return Declined("the finding gives no threshold")
+    driver = _open_driver_output(ctx)
+    if isinstance(driver, Declined):
+        return driver
     opened = _open_active_pulldowns(ctx)
-    if isinstance(opened, Declined):
+    if isinstance(opened, Declined) and not driver[0]:
         return opened
-    edits, notes = opened
+    edits, notes = dict(driver[0]), [driver[1]] if driver[1] else []
+    if not isinstance(opened, Declined):
+        edits = merge_edits(edits, opened[0])
+        notes += opened[1]
     settle = charge_time(ctx)
     stop = min(max(2 * settle, _design_stop(ctx)), MAX_STOP)
     start = PULLED_ON_WINDOW * stop
+    name = "vgs_pulled_on" if "vgs_pulled_on" in ctx.finding.values else "tb_vgs_late"
     cards = [
         extreme(
-            "vgs_pulled_on",
+            name,
             "MAX",
             _vgs(ctx),
             start,
@@ -1447,7 +1454,7 @@ def _pulled_on(ctx: BenchContext) -> Bench | Declined:
         step=analysis_step(ctx.design, stop, settle / 10),
         cards=tuple(cards),
         claims=tuple(_claims(ctx)),
-        limits=(Limit("vgs_pulled_on", vth, "<=", "the switch stays off uncommanded", "V"),),
+        limits=(Limit(name, vth, "<=", "the switch stays off uncommanded", "V"),),
         notes=(*notes, "the design's own stimulus; the supply charges as the design lets it"),
         uic=ctx.design.uses_uic(),
     )

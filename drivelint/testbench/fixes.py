@@ -463,7 +463,7 @@ def gate_pulldown(ctx: BenchContext) -> Fix | Declined:
     """The suggested gate–source resistor, added after the switch's statement, between the
     gate and the source as they are named there."""
     stage = ctx.stage
-    if "vgs_pulled_on" in ctx.finding.values:
+    if "vgs_turn_on" in ctx.finding.values:
         return Declined(
             "the fix is a default-off drive (the pull-up made active, the gate tied to its "
             "source): a different circuit rather than a value or a part"

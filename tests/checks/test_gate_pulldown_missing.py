@@ -310,3 +310,43 @@ def test_the_card_example_against_ngspice(tmp_path: Path) -> None:
     ).replace("VTO=3", "VTO=2")
     waves = run_transient(deck, ["v(g)"], tmp_path)
     assert finding.values["vgs_induced"].value == pytest.approx(max(waves["v(g)"]), rel=0.2)
+
+
+# -- decks of our own (tests/checks/pulldown) ------------------------------------------------------
+
+OWN = Path(__file__).resolve().parent / "pulldown"
+
+
+def test_a_gate_resistor_returned_to_ground_on_a_split_rail_turns_the_switch_on() -> None:
+    result = check_path(OWN / "split_rail_gate_to_ground.cir")
+    (finding,) = [f for f in result.findings if f.rule == RULE]
+    assert (finding.device, finding.span.line, finding.severity) == ("m_h", 15, Severity.ERROR)
+    # the source low at -40 V, the gate at 0 V through R_GP: V_GS = +40 V
+    assert finding.values["vgs_turn_on"].value == pytest.approx(40.0)
+    # once on, the switch follows its gate: no settled V_GS is claimed
+    assert "vgs_pulled_on" not in finding.values
+    assert "source follower" in finding.message
+    assert finding.fix.startswith("return r_gp to the source sw instead of ground")
+
+
+def test_a_driver_that_holds_its_output_by_its_parts_entry_is_clean() -> None:
+    # parts.toml beside the deck gives HOLDDRV r_hold_unpowered = 100 kOhm
+    result = check_path(OWN / "driver_holds_low.cir")
+    assert not [d for d in result.diagnostics if d.severity.label == "error"]
+    assert [f for f in result.findings if f.rule == RULE] == []
+    # without the entry the same deck draws the finding
+    bare = check_text((OWN / "driver_holds_low.cir").read_text(encoding="utf-8"))
+    assert [f.device for f in bare.findings if f.rule == RULE] == ["m_h"]
+
+
+def test_the_parts_key_is_validated(tmp_path: Path) -> None:
+    from drivelint.ratings.parts import PartsError, load_parts
+
+    bad = tmp_path / "parts.toml"
+    bad.write_text('[part.X]\nkind = "driver"\nr_hold_unpowered = "-5 Ohm"\n', encoding="utf-8")
+    with pytest.raises(PartsError, match="r_hold_unpowered"):
+        load_parts(bad)
+    wrong = tmp_path / "wrong.toml"
+    wrong.write_text('[part.X]\nkind = "nmos"\nr_hold_unpowered = "10 kOhm"\n', encoding="utf-8")
+    with pytest.raises(PartsError, match="r_hold_unpowered"):
+        load_parts(wrong)

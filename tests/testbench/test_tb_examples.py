@@ -201,7 +201,7 @@ def test_fixed_deck_removes_the_finding(built: Outcome, finding: Finding) -> Non
         assert record.fixed_reason
         if finding.rule == "gate-pulldown-missing":
             assert "default-off drive" in record.fixed_reason
-            assert "vgs_pulled_on" in finding.values
+            assert "vgs_turn_on" in finding.values
         else:
             assert finding.rule == "dc-hold" and "charge pump" in record.fixed_reason
         return

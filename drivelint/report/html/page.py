@@ -58,7 +58,7 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("vgs_max_negative", "vgs_limit_negative"),
     ),
     "gate-headroom": (("vgs_on_worst", "vgs_needed"),),
-    "gate-pulldown-missing": (("vgs_induced", "vth"), ("vgs_pulled_on", "vth")),
+    "gate-pulldown-missing": (("vgs_induced", "vth"), ("vgs_turn_on", "vth")),
 }
 
 
