@@ -511,10 +511,15 @@ def _fix_text(
         if caps.vdmos is not None
         else "computed: R·C_gd·(ΔV/t_r)·(1 − e^(−t_r/τ)), τ = R·(C_gs + C_gd)",
     )
+    how = (
+        "(C_gs + C_gd(V))·dV/dt = C_gd(V)·ΔV/t_r − V/R over the ramp"
+        if caps.vdmos is not None
+        else "R·C_gd·(ΔV/t_r)·(1 − e^(−t_r/τ))"
+    )
     derivation.append(
         f"with R_GS = {format_si(ohms, 'Ω')}: τ = R·(C_gs + C_gd) = {format_si(tau, 's')}, peak "
-        f"R·C_gd·(ΔV/t_r)·(1 − e^(−t_r/τ)) = {_v(peak)} for t_r = {format_si(rise, 's')}, "
-        f"within {fraction:g} × V_th = {_v(bound)}"
+        f"of {how} = {_v(peak)} for t_r = {format_si(rise, 's')}, within {fraction:g} × V_th "
+        f"= {_v(bound)}"
     )
     drain = ""
     supply = stage.supply
@@ -530,8 +535,9 @@ def _fix_text(
         )
     return (
         f"add {format_si(ohms, 'Ω')} from {stage.switch}'s gate to its source (the largest "
-        f"{FIX_SERIES} value that holds the gate at or below {_v(peak)}, {fraction:g} × V_th, "
-        f"for a bus rising in {format_si(rise, 's')}; τ = {format_si(tau, 's')}){drain}; or "
+        f"{FIX_SERIES} value that holds the gate within {fraction:g} × V_th = {_v(bound)} for "
+        f"a bus rising in {format_si(rise, 's')}: its peak is {_v(peak)}, τ = "
+        f"{format_si(tau, 's')}){drain}; or "
         "use a driver whose output is held low when unpowered." + caution
     )
 
