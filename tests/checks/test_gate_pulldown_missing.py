@@ -350,3 +350,13 @@ def test_the_parts_key_is_validated(tmp_path: Path) -> None:
     wrong.write_text('[part.X]\nkind = "nmos"\nr_hold_unpowered = "10 kOhm"\n', encoding="utf-8")
     with pytest.raises(PartsError, match="r_hold_unpowered"):
         load_parts(wrong)
+
+
+def test_the_html_card_leads_with_the_induced_voltage_against_the_threshold() -> None:
+    from drivelint.report.html.page import key_pairs
+
+    (floating,) = lint(CARD.bad)
+    assert [(c, limit) for c, _, limit, _ in key_pairs(floating)] == [("vgs_induced", "vth")]
+    result = check_path(EXAMPLES / "lev48_phase_leg_npn_shifter.cir")
+    (pulled,) = [f for f in result.findings if f.rule == RULE]
+    assert [(c, limit) for c, _, limit, _ in key_pairs(pulled)] == [("vgs_turn_on", "vth")]
