@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from drivelint.physics._units import Amps, Coulombs, Farads, Ohms, Ratio, Volts, _ratio
+from drivelint.physics._units import Amps, Coulombs, Farads, Ohms, Ratio, Seconds, Volts, _ratio
 
 
 def gate_charge_estimate(c_gs: Farads, c_gd: Farads, v_drive: Volts, v_bus: Volts) -> Coulombs:
@@ -275,3 +275,100 @@ def base_resistor_for(
     current below ``i_collector``).
     """
     return beta * (v_drive - v_be) / i_collector - (beta + 1.0) * r_emitter
+
+
+def induced_gate_voltage(delta_v: Volts, c_gd: Farads, c_gs: Farads) -> Volts:
+    """Gate voltage a drain step couples onto a gate that nothing holds:
+    ΔV_DS·C_gd/(C_gd + C_gs), the capacitive divider of the two gate capacitances (charge
+    conservation on the floating gate node; textbook relation).
+
+    delta_v: the drain's step against the source [V]; c_gd: gate–drain capacitance over
+    that step [F]; c_gs: gate–source capacitance (plus anything else from the gate to the
+    source's side) [F].
+    """
+    return delta_v * c_gd / (c_gd + c_gs)
+
+
+def induced_gate_voltage_ramp(
+    delta_v: Volts, rise_time: Seconds, c_gd: Farads, c_gs: Farads, r_gs: Ohms
+) -> Volts:
+    """Peak gate voltage a linear drain ramp (ΔV over ``rise_time``) couples onto a gate held
+    to its source by ``r_gs``.
+
+    The gate node obeys (C_gs + C_gd)·dV/dt + V/R = C_gd·S with S = ΔV/t_r, so
+    V(t) = R·C_gd·S·(1 − e^(−t/τ)) with τ = R·(C_gs + C_gd): an RC differentiator, whose
+    peak is at the end of the ramp. A resistor far above t_r/(C_gs + C_gd) leaves the
+    divider of :func:`induced_gate_voltage`; a small one holds the gate near R·C_gd·S.
+
+    delta_v: drain step [V]; rise_time: its duration, > 0 [s]; c_gd, c_gs: [F];
+    r_gs: gate–source resistance, > 0 [Ohm].
+    """
+    tau = r_gs * (c_gs + c_gd)
+    slope = delta_v / rise_time
+    return r_gs * c_gd * slope * -math.expm1(-_ratio(rise_time, tau))
+
+
+def vdmos_average_gate_drain_capacitance(
+    delta_v: Volts, cgd_min: Farads, cgd_max: Farads, a: float
+) -> Farads:
+    """The gate–drain capacitance of the ngspice VDMOS model averaged over the drain rising
+    ``delta_v`` above a gate that stays near its source: (Q_gd(0) − Q_gd(−ΔV))/ΔV, the
+    charge the step moves through C_gd over the step (:func:`vdmos_gate_drain_charge`).
+
+    delta_v: drain step, > 0 [V]; cgd_min, cgd_max: [F]; a: shape parameter [1/V].
+    """
+    return -vdmos_gate_drain_charge(-delta_v, cgd_min, cgd_max, a) / delta_v
+
+
+RAMP_STEPS = 1000  # integration steps over the ramp (midpoint rule)
+
+
+def induced_gate_voltage_ramp_vdmos(
+    delta_v: Volts,
+    rise_time: Seconds,
+    cgs: Farads,
+    cgd_min: Farads,
+    cgd_max: Farads,
+    a: float,
+    r_gs: Ohms,
+) -> Volts:
+    """Peak gate voltage of :func:`induced_gate_voltage_ramp` with the ngspice VDMOS model's
+    voltage-dependent C_gd (:func:`vdmos_gate_drain_capacitance`), integrated over the ramp.
+
+    (C_gs + C_gd(V_G − V_D))·dV_G/dt = C_gd(V_G − V_D)·S − V_G/R with V_D = S·t: C_gd is
+    largest while the drain is still near the gate, so a resistor small enough to hold the
+    gate sees its highest voltage early in the ramp, not at its end; the integration (the
+    midpoint rule over ``RAMP_STEPS`` steps) follows that. ``r_gs`` may be ``math.inf``.
+
+    delta_v: drain step [V]; rise_time: [s]; cgs, cgd_min, cgd_max: [F]; a: [1/V];
+    r_gs: [Ohm].
+    """
+    unit = delta_v / _magnitude_si(delta_v, "V") if _magnitude_si(delta_v, "V") else delta_v
+    dv = _magnitude_si(delta_v, "V")
+    tr = _magnitude_si(rise_time, "s")
+    c_s, c_lo, c_hi = (_magnitude_si(c, "F") for c in (cgs, cgd_min, cgd_max))
+    shape = _magnitude_si(a, "1/V")
+    conductance = (
+        0.0 if math.isinf(_magnitude_si(r_gs, "ohm")) else 1.0 / _magnitude_si(r_gs, "ohm")
+    )
+    slope = dv / tr
+    step = tr / RAMP_STEPS
+
+    def rate(t: float, v: float) -> float:
+        c_gd = vdmos_gate_drain_capacitance(v - slope * t, c_lo, c_hi, shape)
+        return (c_gd * slope - v * conductance) / (c_s + c_gd)
+
+    v = peak = 0.0
+    for index in range(RAMP_STEPS):
+        t = index * step
+        half = v + rate(t, v) * step / 2
+        v += rate(t + step / 2, half) * step
+        peak = max(peak, v)
+    return peak * unit
+
+
+def _magnitude_si(value: float, unit: str) -> float:
+    """A float in SI ``unit`` from a float or a pint quantity."""
+    if hasattr(value, "units") and hasattr(value, "to"):
+        return float(value.to(unit).magnitude)
+    return float(value)

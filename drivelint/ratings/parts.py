@@ -94,6 +94,9 @@ def _keys() -> dict[str, KeySpec]:
         "i_sink": KeySpec("A", driver, help="output sink current"),
         "r_source": KeySpec("Ohm", driver, help="output pull-up resistance"),
         "r_sink": KeySpec("Ohm", driver, help="output pull-down resistance"),
+        "r_hold_unpowered": KeySpec(
+            "Ohm", driver, help="passive pull-down of the high output to its return, unpowered"
+        ),
         "uvlo": KeySpec("V", driver, help="supply under-voltage lockout threshold"),
         "uvlo_boot": KeySpec("V", driver, help="boot supply under-voltage lockout threshold"),
         "iq_boot": KeySpec("A", driver, closed=True, help="boot supply quiescent current"),

@@ -111,6 +111,9 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "cross-conduction/overlap": ("command_overlap", "shoot_through_bound"),
     "cross-conduction/dead time": ("t_switch_off",),
     "induced-turn-on": ("vgs_peak",),
+    "gate-pulldown-missing": ("vgs_induced",),
+    "gate-pulldown-missing/fixed": ("vgs_induced_with_fix",),
+    "gate-pulldown-missing/pulled on": ("vgs_pulled_on",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
@@ -119,6 +122,7 @@ STRESS_KINDS = frozenset(
     {
         "induced-turn-on",
         "bootstrap-diode-voltage",
+        "gate-pulldown-missing",
         "gate-overvoltage/negative",
         "gate-overvoltage/positive",
         "gate-overvoltage/output short",
@@ -461,6 +465,8 @@ def finding_kind(finding: Finding, stage: DriveStage) -> str:
         return f"level-shift-contention/{shift_kind(values)}"
     if finding.rule == "cross-conduction":
         return "cross-conduction/" + ("overlap" if "command_overlap" in values else "dead time")
+    if finding.rule == "gate-pulldown-missing" and "vgs_turn_on" in values:
+        return "gate-pulldown-missing/pulled on"
     if finding.rule != "gate-overvoltage":
         return finding.rule
     return f"gate-overvoltage/{_gate_kind(finding, stage)}"
@@ -1792,6 +1798,295 @@ def cross_conduction(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+# ---------------------------------------------------------------- gate-pulldown-missing
+
+# The bus comes up this long after the run starts (the design's initial state settles
+# first), and the run goes on this many rise times after the ramp.
+PULLDOWN_DELAY = 1e-6
+PULLDOWN_AFTER = 3
+# The switch node held at its low level through this resistance while the bus rises, as a
+# discharged output or the other switch of the leg holds it at power-up; more than the
+# 0.1 Ω that drivelint would merge as a wire, so the stage stays a floating one.
+SOURCE_HOLD_OHMS = 0.2
+# A floating gate has no DC path in a simulator; this stands in for its leakage, far above
+# what the rule counts as a hold (checks.pulldown.HOLD_MAX_OHMS).
+GATE_LEAK_OHMS = 1e12
+OPEN_SUFFIX = "_tb_open"
+# Terminal order of the elements whose gate-side terminal a testbench may open.
+_TERMINAL_FIELDS = {"bjt": ("c", "b", "e"), "mosfet": ("d", "g", "s", "b")}
+
+
+def _fresh(ctx: BenchContext, base: str) -> str:
+    taken = {n.rsplit(".", 1)[-1] for n in (*ctx.design.circuit.nets, *ctx.design.circuit.devices)}
+    name = base
+    while name in taken:
+        name += "_"
+    return name
+
+
+def _open_driver_output(ctx: BenchContext) -> tuple[dict[Span, Edit], str] | Declined:
+    """The driver's high output cut from the gate network: unpowered, it is high
+    impedance. Its field on the instance line is given a net of its own."""
+    driver = ctx.stage.driver
+    if driver is None:
+        return {}, ""
+    output = driver.pins.get("high_out")
+    instance = ctx.circuit.instances.get(driver.device)
+    element = ctx.design.element_of(driver.device)
+    if output is None or instance is None or element is None:
+        return Declined(f"the driver {driver.device}'s output cannot be found where it is written")
+    ports = [i for i, (_, net) in enumerate(instance.ports) if net == output]
+    if len(ports) != 1 or ports[0] >= len(element.fields):
+        return Declined(f"the driver {driver.device}'s high output is not one field of its line")
+    field = element.fields[ports[0]]
+    if not isinstance(field, Word):
+        return Declined(f"the driver {driver.device}'s high output is not a plain node name")
+    net = _fresh(ctx, f"{field.raw}{OPEN_SUFFIX}")
+    note = f"the driver {driver.device}'s high output opened (unpowered, it holds nothing)"
+    return {element.span: Edit(fields=((field, net),), note=note)}, note
+
+
+def _open_active_pulldowns(ctx: BenchContext) -> tuple[dict[Span, Edit], list[str]] | Declined:
+    """Every transistor on the gate's pull-down paths cut from the gate side: unpowered,
+    it conducts nothing."""
+    from drivelint.checks.pulldown import passive_reach
+
+    stage, circuit = ctx.stage, ctx.circuit
+    near = {stage.gate, *passive_reach(stage, ctx.facts)}
+    edits: dict[Span, Edit] = {}
+    notes: list[str] = []
+    for path in stage.pulldowns:
+        for name in path.devices:
+            device = circuit.devices.get(name)
+            if device is None or device.kind not in _TERMINAL_FIELDS:
+                continue
+            element = ctx.design.element_of(name)
+            order = _TERMINAL_FIELDS[device.kind]
+            pins = [p for p in order if device.net(p) in near and p != order[1]]
+            if element is None or not pins or element.span in edits:
+                continue
+            field = element.fields[order.index(pins[0])]
+            if not isinstance(field, Word):
+                return Declined(f"{name}'s terminal is not a plain node name")
+            net = _fresh(ctx, f"{field.raw}{OPEN_SUFFIX}")
+            note = f"{name} opened at its {pins[0]} terminal (unpowered, it pulls nothing)"
+            edits[element.span] = Edit(fields=((field, net),), note=note)
+            notes.append(note)
+    if not edits:
+        return Declined("no active pull-down on the gate's paths can be opened in its statement")
+    return edits, notes
+
+
+def _low_net(ctx: BenchContext) -> str:
+    """The net the switch node is held at while it is low (ground, or the negative rail of
+    a split supply), as the facts' v_sw_low takes it."""
+    stage, facts = ctx.stage, ctx.facts
+    for refresh in stage.refresh:
+        if refresh.kind not in ("low-side switch", "freewheel diode"):
+            continue
+        net = refresh.reference or GROUND
+        volts = 0.0 if net == GROUND else ctx.circuit.rails.get(net)
+        if volts is not None and math.isclose(volts, facts.v_sw_low.value, abs_tol=1e-9):
+            return net
+    return GROUND
+
+
+def _rail_ramp(
+    ctx: BenchContext, net: str, level: Value, start: float, rise: float, base: float = 0.0
+) -> tuple[dict[Span, Edit], str] | Declined:
+    """The source from ``net`` to ground rewritten as a ramp from 0 V to ``level`` (the
+    supplies stacked on it follow it up)."""
+    found = sorted(
+        (
+            d
+            for d in ctx.circuit.devices.values()
+            if d.kind == "vsource" and {d.net("p"), d.net("n")} == {net, GROUND}
+        ),
+        key=lambda d: d.name,
+    )
+    element = ctx.design.element_of(found[0].name) if found else None
+    if not found or element is None or len(element.fields) < 2:
+        return Declined(f"no independent source sets the rail {net} against ground")
+    device = found[0]
+    first, second = element.fields[:2]
+    if not isinstance(first, Word) or not isinstance(second, Word):
+        return Declined(f"{device.name}'s nodes are not plain node names")
+    sign = 1.0 if device.net("p") == net else -1.0
+    line = (
+        f"{ctx.design.raw_name(element)} {first.raw} {second.raw} PWL(0 {number(sign * base)} "
+        f"{number(start)} {number(sign * base)} {number(start + rise)} "
+        f"{number(sign * level.value)})"
+    )
+    note = (
+        f"the rail {net} rises from {format_si(base, 'V')} to {level.text()} in "
+        f"{format_si(rise, 's')} at {format_si(start, 's')} (power-up)"
+    )
+    return {element.span: Edit(lines=(line,), note=note)}, note
+
+
+def _power_up(
+    ctx: BenchContext, start: float, rise: float
+) -> tuple[dict[Span, Edit], list[str]] | Declined:
+    """The bus ramped up from the switch node's low level: the drain–source step the rule
+    takes, V_bus − V_sw,low. On a split supply the negative rail stays where it is and the
+    bus starts from it, the same step as both rails rising together."""
+    stage, facts = ctx.stage, ctx.facts
+    if stage.bus is None or facts.v_bus is None:
+        return Declined("the stage has no bus whose rise can be simulated")
+    made = _rail_ramp(ctx, stage.bus.net, facts.v_bus, start, rise, facts.v_sw_low.value)
+    if isinstance(made, Declined):
+        return made
+    return made[0], [made[1]]
+
+
+def _held_source(ctx: BenchContext) -> tuple[dict[Span, Edit], str] | Declined:
+    """A leakage stand-in on the gate and the switch node held at its low level, added
+    after the switch's statement."""
+    stage, facts = ctx.stage, ctx.facts
+    switch = ctx.circuit.devices.get(stage.switch)
+    element = ctx.design.element_of(stage.switch)
+    if switch is None or element is None:
+        return Declined(f"{stage.switch}'s statement cannot be found")
+    scope = switch.instance
+    gate = ctx.design.local_net(stage.gate, scope)
+    source = ctx.design.local_net(stage.source, scope)
+    low_net = _low_net(ctx)
+    low = ctx.design.local_net(low_net, scope)
+    if gate is None or source is None or low is None:
+        return Declined("the gate, source or low rail cannot be named where the switch is written")
+    leak, hold = _fresh(ctx, "r_tb_gleak"), _fresh(ctx, "r_tb_hold")
+    note = (
+        f"{leak}: {format_si(GATE_LEAK_OHMS, 'Ω')} from gate to source, the gate's leakage (a "
+        f"floating node needs a DC path); {hold}: {format_si(SOURCE_HOLD_OHMS, 'Ω')} holds the "
+        f"source at {facts.v_sw_low.text()} while the bus rises"
+    )
+    lines = (
+        f"{leak.upper()} {gate} {source} {number(GATE_LEAK_OHMS)}",
+        f"{hold.upper()} {source} {low} {number(SOURCE_HOLD_OHMS)}",
+    )
+    return {element.span: Edit(after=lines, note=note)}, note
+
+
+# A pulled-on gate is read over the last fifth of the run: the supply has charged by then.
+PULLED_ON_WINDOW = 0.8
+
+
+def _design_stop(ctx: BenchContext) -> float:
+    """The stop time of the design's own transient analysis, 0 when it gives none."""
+    from drivelint.netlist.values import parse_number
+
+    tran = ctx.design.design_tran()
+    if tran is None or len(tran.fields) < 2 or not isinstance(tran.fields[1], Word):
+        return 0.0
+    parsed = parse_number(tran.fields[1].text)
+    return parsed if parsed and parsed > 0 else 0.0
+
+
+def gate_pulldown(ctx: BenchContext) -> Bench | Declined:
+    if "vgs_turn_on" in ctx.finding.values:
+        return _pulled_on(ctx)
+    vth, fraction = ctx.value("vth"), ctx.value("hold_fraction")
+    rise = ctx.value("bus_rise_time")
+    if vth is None or fraction is None or rise is None or "vgs_induced" not in ctx.finding.values:
+        return Declined("the finding gives no induced gate voltage to simulate")
+    opened = _open_driver_output(ctx)
+    ramp = _power_up(ctx, PULLDOWN_DELAY, rise)
+    held = _held_source(ctx)
+    for made in (opened, ramp, held):
+        if isinstance(made, Declined):
+            return made
+    assert not isinstance(opened, Declined) and not isinstance(ramp, Declined)
+    assert not isinstance(held, Declined)
+    stop = PULLDOWN_DELAY + (1 + PULLDOWN_AFTER) * rise
+    bound = fraction * vth
+    claims = [c for c in _claims(ctx)]
+    key = "vgs_induced_with_fix" if ctx.fix is not None else "vgs_induced"
+    cards = [
+        extreme(key, "MAX", _vgs(ctx), 0.0, stop, "highest V_GS as the bus comes up"),
+        extreme(
+            "tb_vgs_left",
+            "MAX",
+            _vgs(ctx),
+            PULLDOWN_DELAY + PULLDOWN_AFTER * rise,
+            stop,
+            "highest V_GS over the last rise time of the run: the charge left on the gate",
+        ),
+        extreme(
+            "tb_vds_step",
+            "MAX",
+            difference(ctx.stage.drain, ctx.stage.source),
+            0.0,
+            stop,
+            "the drain–source step",
+        ),
+    ]
+    return Bench(
+        edits=merge_edits(opened[0], ramp[0], held[0]),
+        stop=stop,
+        step=analysis_step(ctx.design, stop, rise),
+        cards=tuple(cards),
+        claims=tuple(claims),
+        limits=(
+            Limit(
+                "tb_vgs_left",
+                bound,
+                "<=",
+                f"the gate returns within {fraction:g} × V_th after the bus has come up (a "
+                "floating gate keeps the charge the step put on it)",
+                "V",
+            ),
+        ),
+        notes=(
+            *(n for n in (opened[1], *ramp[1], held[1]) if n),
+            "no initial conditions (uic) are used: the run starts from the operating point "
+            "with the bus at 0 V, as at power-up",
+        ),
+        uic=False,
+    )
+
+
+def _pulled_on(ctx: BenchContext) -> Bench | Declined:
+    vth = ctx.value("vth")
+    if vth is None:
+        return Declined("the finding gives no threshold")
+    driver = _open_driver_output(ctx)
+    if isinstance(driver, Declined):
+        return driver
+    opened = _open_active_pulldowns(ctx)
+    if isinstance(opened, Declined) and not driver[0]:
+        return opened
+    edits, notes = dict(driver[0]), [driver[1]] if driver[1] else []
+    if not isinstance(opened, Declined):
+        edits = merge_edits(edits, opened[0])
+        notes += opened[1]
+    settle = charge_time(ctx)
+    stop = min(max(2 * settle, _design_stop(ctx)), MAX_STOP)
+    start = PULLED_ON_WINDOW * stop
+    name = "vgs_pulled_on" if "vgs_pulled_on" in ctx.finding.values else "tb_vgs_late"
+    cards = [
+        extreme(
+            name,
+            "MAX",
+            _vgs(ctx),
+            start,
+            stop,
+            "highest V_GS over the end of the run, the floating supply charged and the "
+            "active pull-downs open",
+        ),
+        at("tb_vgs_window", _vgs(ctx), start, "V_GS as the measuring window opens"),
+    ]
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, settle / 10),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=(Limit(name, vth, "<=", "the switch stays off uncommanded", "V"),),
+        notes=(*notes, "the design's own stimulus; the supply charges as the design lets it"),
+        uic=ctx.design.uses_uic(),
+    )
+
+
 def traces_for(ctx: BenchContext, kind: str) -> tuple[Trace, ...]:
     """The series of the waveform file, the quantity the claims are about first: the boot
     supply for hold, refresh and headroom findings, V_GS for gate findings, the diode's
@@ -1837,7 +2132,12 @@ def build(ctx: BenchContext) -> Bench | Declined:
     if isinstance(held, Declined):
         return held
     fixed = ctx.fix.edits if ctx.fix is not None else {}
-    supplies = {span: edit for span, edit in held.edits.items() if span not in fixed}
+    # a supply the fix or the bench itself rewrites keeps that edit (a bus ramped at power-up)
+    supplies = {
+        span: edit
+        for span, edit in held.edits.items()
+        if span not in fixed and not (span in bench.edits and bench.edits[span].lines is not None)
+    }
     corner = corner_deck(ctx, STRESS if stress else HOLD, skip=fixed, uses=uses)
     if isinstance(corner, Declined):
         return corner
@@ -1934,6 +2234,7 @@ BUILDERS: Mapping[str, Builder] = {
     "level-shift-contention": level_shift,
     "driver-decoupling": driver_decoupling,
     "cross-conduction": cross_conduction,
+    "gate-pulldown-missing": gate_pulldown,
 }
 
 # Rules whose failure no simulation of the circuit can show, with the reason.

@@ -679,6 +679,43 @@ def induced_turn_on(ctx: BenchContext) -> Fix | Declined:
     )
 
 
+def gate_pulldown(ctx: BenchContext) -> Fix | Declined:
+    """The suggested gate–source resistor, added after the switch's statement, between the
+    gate and the source as they are named there."""
+    stage = ctx.stage
+    if "vgs_turn_on" in ctx.finding.values:
+        return Declined(
+            "the fix is a default-off drive (the pull-up made active, the gate tied to its "
+            "source): a different circuit rather than a value or a part"
+        )
+    ohms = ctx.value("suggested_r_gs")
+    if ohms is None:
+        return Declined("the finding suggests no resistor value")
+    switch = ctx.circuit.devices.get(stage.switch)
+    element = _element(ctx, stage.switch)
+    if isinstance(element, Declined) or switch is None:
+        return Declined(f"{stage.switch}'s statement cannot be found")
+    gate = ctx.design.local_net(stage.gate, switch.instance)
+    source = ctx.design.local_net(stage.source, switch.instance)
+    if gate is None or source is None:
+        return Declined("the gate or the source cannot be named where the switch is written")
+    taken = {n.rsplit(".", 1)[-1] for n in ctx.design.circuit.devices}
+    name = "r_gs_fix"
+    while name in taken:
+        name += "_"
+    text = format_si(ohms, "Ω")
+    return Fix(
+        f"{name}: {text} from {stage.switch}'s gate to its source (the finding's suggested "
+        "gate–source resistor)" + _shared(ctx, element),
+        {
+            element.span: Edit(
+                after=(f"{name.upper()} {gate} {source} {number(ohms)}",),
+                note=f"fix: {name} = {text} from gate to source",
+            )
+        },
+    )
+
+
 APPLIERS: Mapping[str, Applier] = {
     "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,
@@ -692,4 +729,5 @@ APPLIERS: Mapping[str, Applier] = {
     "level-shift-contention": level_shift,
     "driver-decoupling": driver_decoupling,
     "cross-conduction": cross_conduction,
+    "gate-pulldown-missing": gate_pulldown,
 }

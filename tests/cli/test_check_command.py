@@ -16,7 +16,7 @@ from drivelint.cli import main
 ROOT = Path(__file__).resolve().parents[2]
 EXAMPLES = ROOT / "examples"
 FLAWED = "mower48v_hbridge_wrapped_fets.cir"  # has bootstrap-diode-voltage errors
-CLEAN = "lev48_phase_leg_npn_shifter.cir"
+CLEAN = "induction325_half_bridge_driver.cir"
 
 
 def run(*args: str, stdin: str | None = None):  # type: ignore[no-untyped-def]

@@ -186,7 +186,7 @@ def test_exit_codes_follow_check(here: Path) -> None:
         "json",
         "--output",
         "clean.json",
-        "lib/lev48_phase_leg_npn_shifter.cir",
+        "lib/induction325_half_bridge_driver.cir",
     )
     assert only_clean.exit_code == 0
     assert run("merge", "clean.json").exit_code == 0

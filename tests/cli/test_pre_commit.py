@@ -94,7 +94,7 @@ def refuses_then_passes(repo: Path, env: dict[str, str]) -> None:
     _git(repo, "reset", "-q", "leg.cir")
     flawed.unlink()
     clean = repo / "phase.cir"
-    shutil.copy(EXAMPLES / "lev48_phase_leg_npn_shifter.cir", clean)
+    shutil.copy(EXAMPLES / "induction325_half_bridge_driver.cir", clean)
     _git(repo, "add", "phase.cir")
     passed = commit(repo, env, "add phase leg")
     assert passed.returncode == 0, passed.stdout + passed.stderr

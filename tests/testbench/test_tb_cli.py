@@ -13,7 +13,7 @@ from testbench_support import EXAMPLES, needs_ngspice
 from drivelint.cli import main
 
 LOADSWITCH = "loadswitch24v_dc_enable.cir"  # dc-hold on ven, gate-overvoltage on q4
-CLEAN = "lev48_phase_leg_npn_shifter.cir"
+CLEAN = "induction325_half_bridge_driver.cir"
 
 
 def run(*args: str) -> Result:

@@ -160,6 +160,7 @@ def test_the_examples_have_findings_to_prove() -> None:
         "voltage-stress",
         "gate-overvoltage",
         "induced-turn-on",
+        "gate-pulldown-missing",
     }
 
 
@@ -227,8 +228,12 @@ def test_fixed_deck_removes_the_finding(built: Outcome, finding: Finding) -> Non
     record = _record(built, finding)
     if record.fixed is None:
         # Only a fix that is a different circuit may leave no fixed deck, and it says so.
-        assert finding.rule == "dc-hold" and record.fixed_reason
-        assert "charge pump" in record.fixed_reason
+        assert record.fixed_reason
+        if finding.rule == "gate-pulldown-missing":
+            assert "default-off drive" in record.fixed_reason
+            assert "vgs_turn_on" in finding.values
+        else:
+            assert finding.rule == "dc-hold" and "charge pump" in record.fixed_reason
         return
     assert record.fix
     # drivelint, with the parts copied beside the decks (read as their parts.toml)

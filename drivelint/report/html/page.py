@@ -73,6 +73,7 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("command_overlap", "dead_time_needed"),
     ),
     "induced-turn-on": (("vgs_peak", "vth"), ("r_off", "r_off_max")),
+    "gate-pulldown-missing": (("vgs_induced", "vth"), ("vgs_turn_on", "vth")),
 }
 
 
