@@ -7,6 +7,7 @@ pre-commit run on no files stay fast.
 from __future__ import annotations
 
 import sys
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
 
@@ -299,20 +300,41 @@ def _write_output(text: str, output: Path | None, checked: list[Path]) -> None:
         raise
 
 
+def _report_format_options(command: Callable[..., Any]) -> Callable[..., Any]:
+    """--format and --output, shared by the commands that write a report."""
+    command = click.option(
+        "--output",
+        type=click.Path(path_type=Path, dir_okay=False),
+        help="Write the report here (atomically).",
+    )(command)
+    return click.option(
+        "--format",
+        "fmt",
+        default="text",
+        show_default=True,
+        type=click.Choice(["text", "json", "sarif", "junit", "github", "html"]),
+    )(command)
+
+
+def _report_render_options(command: Callable[..., Any]) -> Callable[..., Any]:
+    """--show-accepted and --testbench, shared by the commands that write a report."""
+    command = click.option(
+        "--testbench",
+        "testbench_dir",
+        type=click.Path(path_type=Path, file_okay=False),
+        default=None,
+        help="HTML: link each finding to its decks in this `drivelint testbench` folder.",
+    )(command)
+    return click.option(
+        "--show-accepted",
+        is_flag=True,
+        help="Text: also list the findings an acceptance directive accepted, with the reason.",
+    )(command)
+
+
 @main.command("check")
 @click.argument("paths", nargs=-1, required=True)
-@click.option(
-    "--format",
-    "fmt",
-    default="text",
-    show_default=True,
-    type=click.Choice(["text", "json", "sarif", "junit", "github", "html"]),
-)
-@click.option(
-    "--output",
-    type=click.Path(path_type=Path, dir_okay=False),
-    help="Write the report here (atomically).",
-)
+@_report_format_options
 @_parts_option
 @click.option("--explain", is_flag=True, help="Show each finding's inputs, origins and formula.")
 @click.option(
@@ -353,18 +375,7 @@ def _write_output(text: str, output: Path | None, checked: list[Path]) -> None:
     metavar="RULE,…",
     help="Do not report these rules (ids or their first words); repeatable.",
 )
-@click.option(
-    "--show-accepted",
-    is_flag=True,
-    help="Text: also list the findings an acceptance directive accepted, with the reason.",
-)
-@click.option(
-    "--testbench",
-    "testbench_dir",
-    type=click.Path(path_type=Path, file_okay=False),
-    default=None,
-    help="HTML: link each finding to its decks in this `drivelint testbench` folder.",
-)
+@_report_render_options
 @click.option(
     "--with-includers",
     is_flag=True,
@@ -692,18 +703,7 @@ def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> frozenset[
 
 @main.command("merge")
 @click.argument("reports", nargs=-1, required=True, type=click.Path(path_type=Path, dir_okay=False))
-@click.option(
-    "--format",
-    "fmt",
-    default="text",
-    show_default=True,
-    type=click.Choice(["text", "json", "sarif", "junit", "github", "html"]),
-)
-@click.option(
-    "--output",
-    type=click.Path(path_type=Path, dir_okay=False),
-    help="Write the report here (atomically).",
-)
+@_report_format_options
 @click.option("--explain", is_flag=True, help="Show each finding's inputs, origins and formula.")
 @click.option(
     "--fail-on",
@@ -716,18 +716,7 @@ def _rule_filter(select: tuple[str, ...], ignore: tuple[str, ...]) -> frozenset[
 )
 @click.option("--strict", is_flag=True, help="Exit 2 when any file could not be checked.")
 @click.option("--no-color", is_flag=True, help="Plain text even on a terminal.")
-@click.option(
-    "--show-accepted",
-    is_flag=True,
-    help="Text: also list the findings an acceptance directive accepted, with the reason.",
-)
-@click.option(
-    "--testbench",
-    "testbench_dir",
-    type=click.Path(path_type=Path, file_okay=False),
-    default=None,
-    help="HTML: link each finding to its decks in this `drivelint testbench` folder.",
-)
+@_report_render_options
 def merge_command(
     reports: tuple[Path, ...],
     fmt: str,

@@ -1228,9 +1228,42 @@ def _one_turn_on(ctx: BenchContext, why: str) -> tuple[float, float, float, Stim
     return start, end, stop, made
 
 
+def _settled_with_ringing(
+    ctx: BenchContext,
+    made: Stimulus,
+    times: tuple[float, float, float],
+    measured: tuple[str, str, str],
+    holds: str,
+) -> Bench:
+    """A deck that measures a settled stress (``measured``: its claim key, vector and
+    words, over ``times``' window) and holds it, plus the rule's ringing allowance, to the
+    finding's derated limit; the run stops at ``times[2]``."""
+    t0, t1, stop = times
+    key, vector, what = measured
+    ringing = ctx.value("ringing_margin") or 0.0
+    with_ringing = f"tb_{key.removesuffix('_steady')}_with_ringing"
+    cards = [
+        extreme(key, "MAX", vector, t0, t1, f"{what} (the edge has settled)"),
+        expression(
+            with_ringing,
+            f"{key}+{number(ringing)}",
+            f"the settled value plus the rule's ringing allowance ({format_si(ringing, 'V')})",
+        ),
+    ]
+    return Bench(
+        edits=made.edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=_stress_limit(ctx, with_ringing, holds, "V"),
+        notes=made.notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
 def _switch_stress(ctx: BenchContext) -> Bench | Declined:
     device = ctx.circuit.devices.get(ctx.finding.device)
-    ringing = ctx.value("ringing_margin") or 0.0
     if device is None or device.net("d") is None or device.net("s") is None:
         return Declined("the finding's switch cannot be found")
     timed = _one_turn_on(
@@ -1245,38 +1278,12 @@ def _switch_stress(ctx: BenchContext) -> Bench | Declined:
     own = device.name == ctx.stage.switch
     t0, t1 = ((end + stop) / 2, stop) if own else ((start + end) / 2, end)
     vds = difference(device.net("d") or "", device.net("s") or "")
-    cards = [
-        extreme(
-            "vds_off_steady",
-            "MAX",
-            vds,
-            t0,
-            t1,
-            f"{device.name}'s V_DS in the second half of its off-state (the edge has settled)",
-        ),
-        extreme(
-            "tb_vds_peak", "MAX", vds, start, stop, f"highest V_DS of {device.name}, edges included"
-        ),
-        expression(
-            "tb_vds_with_ringing",
-            f"vds_off_steady+{number(ringing)}",
-            f"the settled V_DS plus the rule's ringing allowance ({format_si(ringing, 'V')})",
-        ),
-    ]
-    return Bench(
-        edits=made.edits,
-        stop=stop,
-        step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
-        cards=tuple(cards),
-        claims=tuple(_claims(ctx)),
-        limits=_stress_limit(
-            ctx,
-            "tb_vds_with_ringing",
-            f"{device.name}'s V_DS, with the ringing allowance, stays within its derated rating",
-            "V",
-        ),
-        notes=made.notes,
-        uic=ctx.design.uses_uic(),
+    return _settled_with_ringing(
+        ctx,
+        made,
+        (t0, t1, stop),
+        ("vds_off_steady", vds, f"{device.name}'s V_DS in the second half of its off-state"),
+        f"{device.name}'s V_DS, with the ringing allowance, stays within its derated rating",
     )
 
 
@@ -1394,36 +1401,16 @@ def _shifter_blocking(ctx: BenchContext) -> Bench | Declined:
         return timed
     start, end, stop, made = timed
     across = difference(collector, emitter)
-    ringing = ctx.value("ringing_margin") or 0.0
-    cards = [
-        extreme(
+    return _settled_with_ringing(
+        ctx,
+        made,
+        ((start + end) / 2, end, stop),
+        (
             "shifter_voltage_steady",
-            "MAX",
             across,
-            (start + end) / 2,
-            end,
             f"{device.name}'s collector–emitter voltage in the second half of the on-time",
         ),
-        expression(
-            "tb_shifter_with_ringing",
-            f"shifter_voltage_steady+{number(ringing)}",
-            f"the settled voltage plus the rule's ringing allowance ({format_si(ringing, 'V')})",
-        ),
-    ]
-    return Bench(
-        edits=made.edits,
-        stop=stop,
-        step=analysis_step(ctx.design, stop, ONE_SHOT_ON),
-        cards=tuple(cards),
-        claims=tuple(_claims(ctx)),
-        limits=_stress_limit(
-            ctx,
-            "tb_shifter_with_ringing",
-            f"{device.name}'s voltage, with the ringing allowance, stays within its derated rating",
-            "V",
-        ),
-        notes=made.notes,
-        uic=ctx.design.uses_uic(),
+        f"{device.name}'s voltage, with the ringing allowance, stays within its derated rating",
     )
 
 

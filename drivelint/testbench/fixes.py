@@ -481,7 +481,7 @@ def _raised_isolated(
 # What a voltage-stress finding rates, by its kind: the key of the new rating and its unit.
 _STRESS_RATINGS = {"switch": ("vds_max", "V"), "part": ("v_max", "V"), "power": ("p_max", "W")}
 _STRESS_APPLIED = {"switch": "vds_off", "part": "v_part", "power": "p_resistor"}
-_STRESS_BOUNDS = {"switch": "tb_vds_with_ringing", "part": "v_part", "power": "p_resistor"}
+_STRESS_BOUNDS = {"switch": "tb_vds_off_with_ringing", "part": "v_part", "power": "p_resistor"}
 
 
 def voltage_stress(ctx: BenchContext) -> Fix | Declined:
@@ -555,7 +555,7 @@ def level_shift(ctx: BenchContext) -> Fix | Declined:
             + _shared(ctx, element),
             {},
             _part_directives(ctx, element, (key,), {key: rating}),
-            bounds={"tb_shifter_with_ringing": rating * derating},
+            bounds={"tb_shifter_voltage_with_ringing": rating * derating},
         )
     from drivelint.checks.levelshift import base_resistor, pull_up_resistors
 
