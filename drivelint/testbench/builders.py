@@ -206,6 +206,29 @@ def _vgs(ctx: BenchContext) -> str:
     return difference(ctx.stage.gate, ctx.stage.source)
 
 
+def series_ammeter(
+    ctx: BenchContext, device: Device, suffix: str, where: str
+) -> tuple[str, dict[Span, Edit]] | Declined:
+    """A 0 V source in series with the device's first terminal (``where`` names it in
+    words), and the vector of its current: ngspice's way to a current that ``.meas`` and a
+    ``par()`` expression may read (in batch mode ``.meas`` cannot read ``@q1[ic]``, and a
+    C(V) has no ``@c[i]``). It changes nothing electrically."""
+    element = ctx.design.element_of(device.name)
+    first = element.fields[0] if element is not None and element.fields else None
+    if element is None or not isinstance(first, Word):
+        return Declined(f"{device.name}'s {where} is not a plain node name")
+    local = device.name.rsplit(".", 1)[-1]
+    source, node = f"{SENSE_PREFIX}{local}", f"tb_{local}_{suffix}"
+    flat = f"{device.instance}.{source}" if device.instance else source
+    return source_current(flat), {
+        element.span: Edit(
+            fields=((first, node),),
+            after=(f"{source.upper()} {first.raw} {node} 0",),
+            note=f"a 0 V ammeter in series with {device.name}'s {where} (probe only)",
+        )
+    }
+
+
 def capacitor_current(ctx: BenchContext, cap: Device) -> tuple[str, dict[Span, Edit]] | Declined:
     """The vector of the current into the capacitor's first node, and the edits it needs:
     ngspice's ``@c[i]`` for a plain capacitor; a behavioural one (C(V)) is expanded by
@@ -213,20 +236,7 @@ def capacitor_current(ctx: BenchContext, cap: Device) -> tuple[str, dict[Span, E
     ammeter, changing nothing electrically) carries the current instead."""
     if cap.behaviour is None:
         return device_vector(cap.name, "i"), {}
-    element = ctx.design.element_of(cap.name)
-    first = element.fields[0] if element is not None and element.fields else None
-    if element is None or not isinstance(first, Word):
-        return Declined(f"{cap.name}'s first node is not a plain node name")
-    local = cap.name.rsplit(".", 1)[-1]
-    source, node = f"{SENSE_PREFIX}{local}", f"tb_{local}_p"
-    flat = f"{cap.instance}.{source}" if cap.instance else source
-    return source_current(flat), {
-        element.span: Edit(
-            fields=((first, node),),
-            after=(f"{source.upper()} {first.raw} {node} 0",),
-            note=f"a 0 V ammeter in series with {cap.name} (probe only: a C(V) has no @c[i])",
-        )
-    }
+    return series_ammeter(ctx, cap, "p", "first node")
 
 
 # ---------------------------------------------------------------- bootstrap-capacitor-small
@@ -1018,24 +1028,9 @@ def sense_names(ctx: BenchContext, diode: Device) -> tuple[str, str, str]:
 
 
 def _ammeter(ctx: BenchContext, diode: Device) -> dict[Span, Edit] | Declined:
-    """A 0 V source in series with the diode's anode: ngspice's way to a current that a
-    ``par()`` expression may use."""
-    element = ctx.design.element_of(diode.name)
-    if element is None or not element.fields:
-        return Declined(f"{diode.name}'s statement cannot be found")
-    anode = element.fields[0]
-    from drivelint.netlist.statements import Word
-
-    if not isinstance(anode, Word):
-        return Declined(f"{diode.name}'s anode is not a plain node name")
-    source, node, _ = sense_names(ctx, diode)
-    return {
-        element.span: Edit(
-            fields=((anode, node),),
-            after=(f"{source.upper()} {anode.raw} {node} 0",),
-            note=f"a 0 V ammeter in series with {diode.name}'s anode (probe only)",
-        )
-    }
+    """A 0 V source in series with the diode's anode (``sense_names`` names it)."""
+    made = series_ammeter(ctx, diode, "a", "anode")
+    return made if isinstance(made, Declined) else made[1]
 
 
 def diode_slow(ctx: BenchContext) -> Bench | Declined:
@@ -1433,7 +1428,7 @@ def _shifter_contention(ctx: BenchContext) -> Bench | Declined:
         window[1] + (period - on_time) * 0.25,
         window[1] + (period - on_time) * 0.75,
     )
-    probe = _collector_ammeter(ctx, device)
+    probe = series_ammeter(ctx, device, "c", "collector")
     if isinstance(probe, Declined):
         return probe
     current, ammeter = probe
@@ -1480,27 +1475,6 @@ def _shifter_contention(ctx: BenchContext) -> Bench | Declined:
         notes=notes,
         uic=ctx.design.uses_uic(),
     )
-
-
-def _collector_ammeter(
-    ctx: BenchContext, device: Device
-) -> tuple[str, dict[Span, Edit]] | Declined:
-    """A 0 V source in series with the transistor's collector, and the vector of its
-    current (ngspice's .meas cannot read a device's @q[ic] in batch mode)."""
-    element = ctx.design.element_of(device.name)
-    first = element.fields[0] if element is not None and element.fields else None
-    if element is None or not isinstance(first, Word):
-        return Declined(f"{device.name}'s collector is not a plain node name")
-    local = device.name.rsplit(".", 1)[-1]
-    source, node = f"{SENSE_PREFIX}{local}", f"tb_{local}_c"
-    flat = f"{device.instance}.{source}" if device.instance else source
-    return source_current(flat), {
-        element.span: Edit(
-            fields=((first, node),),
-            after=(f"{source.upper()} {first.raw} {node} 0",),
-            note=f"a 0 V ammeter in series with {device.name}'s collector (probe only)",
-        )
-    }
 
 
 def level_shift(ctx: BenchContext) -> Bench | Declined:
