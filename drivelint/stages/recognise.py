@@ -88,6 +88,16 @@ class _Node:
     driver: DriverInfo | None
 
 
+def _inside(name: str, drivers: Mapping[str, object]) -> bool:
+    """True when ``name`` is a device within one of ``drivers`` (a "<driver>." prefix)."""
+    dot = name.find(".")
+    while dot > 0:
+        if name[:dot] in drivers:
+            return True
+        dot = name.find(".", dot + 1)
+    return False
+
+
 class _View:
     """The circuit as recognition sees it: driver ICs opaque, terminals indexed by net."""
 
@@ -97,10 +107,12 @@ class _View:
         self.rails = dict(circuit.rails)
         self.rails[GROUND] = 0.0
         self.drivers = find_drivers(circuit, parts)
-        hidden = tuple(name + "." for name in self.drivers)
+        # A device inside a driver is named "<driver>.<...>": look each dotted prefix of its
+        # name up among the drivers (one test per dot, not one per driver).
+        drivers = self.drivers
         self.devices: Mapping[str, Device] = (
-            {n: d for n, d in circuit.devices.items() if not n.startswith(hidden)}
-            if hidden
+            {n: d for n, d in circuit.devices.items() if not _inside(n, drivers)}
+            if drivers
             else circuit.devices
         )
         # Terminals by net: the circuit graph's net-to-device adjacency, with each driver's
