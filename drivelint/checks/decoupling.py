@@ -71,9 +71,7 @@ def _return_net(stage: DriveStage, facts: StageFacts) -> str:
 
 
 def _across(facts: StageFacts, a: str, b: str) -> list[Device]:
-    return [
-        d for d in facts.by_net.get(a, ()) if _capacitance(d) is not None and set(d.nets) == {a, b}
-    ]
+    return [d for d in facts.between(a, b) if _capacitance(d) is not None]
 
 
 def _inside_driver(stage: DriveStage, device: Device) -> bool:
@@ -90,8 +88,8 @@ def supply_of(stage: DriveStage, facts: StageFacts) -> Supply | None:
         return None
     direct = tuple(sorted(_across(facts, net, ret), key=lambda d: d.name))
     behind: list[tuple[Device, Device]] = []
-    for resistor in facts.by_net.get(net, ()):
-        if resistor.kind != "resistor" or not resistor.value or _inside_driver(stage, resistor):
+    for resistor in facts.of_kind(net, "resistor"):
+        if not resistor.value or _inside_driver(stage, resistor):
             continue
         far = _other(resistor, net)
         if far is None or far == ret or far == stage.supply.boot_net:
@@ -108,8 +106,8 @@ def _source_on(facts: StageFacts, supply: Supply) -> bool:
     """An independent voltage source from the supply net to ground or a rail: the netlist
     models the supply as stiff there."""
     held = {supply.ret, GROUND, *facts.circuit.rails}
-    for device in facts.by_net.get(supply.net, ()):
-        if device.kind == "vsource" and set(device.nets) - {supply.net} <= held:
+    for device in facts.of_kind(supply.net, "vsource"):
+        if set(device.nets) - {supply.net} <= held:
             return True
     return False
 

@@ -108,9 +108,40 @@ def _driver_default(facts: StageFacts, key: str, amount: float | None = None) ->
     )
 
 
-def devices_by_net(circuit: Circuit) -> dict[str, list[Device]]:
+class NetIndex(dict[str, list[Device]]):
+    """Every device touching each net, and (built when first asked) the devices of one kind
+    on a net and the two-terminal devices between two nets: a rule that looks along a net
+    every stage shares (a gate rail, ground) reads an index, not the whole net per stage."""
+
+    def __init__(self, devices: Mapping[str, Device]) -> None:
+        super().__init__()
+        self._devices = devices
+        self._kinds: dict[tuple[str, str], list[Device]] = {}
+        self._pairs: dict[frozenset[str], list[Device]] | None = None
+
+    def of_kind(self, net: str, kind: str) -> Sequence[Device]:
+        """The devices of ``kind`` on ``net``, in circuit order."""
+        key = (net, kind)
+        found = self._kinds.get(key)
+        if found is None:
+            found = self._kinds[key] = [d for d in self.get(net, ()) if d.kind == kind]
+        return found
+
+    def between(self, a: str, b: str) -> Sequence[Device]:
+        """The devices whose terminals are on ``a`` and ``b`` and nowhere else (a != b)."""
+        if self._pairs is None:
+            pairs: dict[frozenset[str], list[Device]] = {}
+            for device in self._devices.values():
+                nets = frozenset(device.nets)
+                if len(nets) == 2:
+                    pairs.setdefault(nets, []).append(device)
+            self._pairs = pairs
+        return self._pairs.get(frozenset((a, b)), ())
+
+
+def devices_by_net(circuit: Circuit) -> NetIndex:
     """Every device touching each net; built once per circuit and shared by its stages."""
-    index: dict[str, list[Device]] = {}
+    index = NetIndex(circuit.devices)
     for device in circuit.devices.values():
         for net in set(device.nets):
             index.setdefault(net, []).append(device)
@@ -171,6 +202,18 @@ class StageFacts:
 
     def device(self, name: str | None) -> Device | None:
         return self.circuit.devices.get(name) if name else None
+
+    @cached_property
+    def _index(self) -> NetIndex:
+        return self.by_net if isinstance(self.by_net, NetIndex) else devices_by_net(self.circuit)
+
+    def of_kind(self, net: str, kind: str) -> Sequence[Device]:
+        """The devices of ``kind`` on ``net``, in circuit order (indexed once per circuit)."""
+        return self._index.of_kind(net, kind)
+
+    def between(self, a: str, b: str) -> Sequence[Device]:
+        """The devices with terminals on ``a`` and ``b`` only, in circuit order."""
+        return self._index.between(a, b)
 
     @cached_property
     def switch(self) -> Device:

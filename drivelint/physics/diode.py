@@ -9,6 +9,7 @@ SPICE diode model uses.
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 from drivelint.physics._units import Amps, Coulombs, Kelvin, Ratio, Seconds, Volts, _coerce, _ratio
 
@@ -165,7 +166,15 @@ def recharge_end_current(
     c_hold: hold capacitance [F]; n_vt: N·V_T [V]; tt: transit time TT [s]; q_cycle: charge
     put back per off-time [C]; t_off: off-time [s]. Plain floats only (it iterates).
     """
-    c, k, t, q, tau = float(c_hold), float(n_vt), float(t_off), float(q_cycle), float(tt)
+    return _recharge_end_current(
+        float(c_hold), float(n_vt), float(tt), float(q_cycle), float(t_off)
+    )
+
+
+@lru_cache(maxsize=4096)
+def _recharge_end_current(c: float, k: float, tau: float, q: float, t: float) -> float:
+    """:func:`recharge_end_current` on plain floats; remembered, because the legs of one
+    circuit are often copies of one another and each solve is a few thousand steps."""
     if q <= 0 or t <= 0 or c <= 0 or k <= 0:
         return 0.0
     cnv = c * k

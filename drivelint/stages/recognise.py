@@ -88,6 +88,16 @@ class _Node:
     driver: DriverInfo | None
 
 
+def _inside(name: str, drivers: Mapping[str, object]) -> bool:
+    """True when ``name`` is a device within one of ``drivers`` (a "<driver>." prefix)."""
+    dot = name.find(".")
+    while dot > 0:
+        if name[:dot] in drivers:
+            return True
+        dot = name.find(".", dot + 1)
+    return False
+
+
 class _View:
     """The circuit as recognition sees it: driver ICs opaque, terminals indexed by net."""
 
@@ -97,10 +107,12 @@ class _View:
         self.rails = dict(circuit.rails)
         self.rails[GROUND] = 0.0
         self.drivers = find_drivers(circuit, parts)
-        hidden = tuple(name + "." for name in self.drivers)
+        # A device inside a driver is named "<driver>.<...>": look each dotted prefix of its
+        # name up among the drivers (one test per dot, not one per driver).
+        drivers = self.drivers
         self.devices: Mapping[str, Device] = (
-            {n: d for n, d in circuit.devices.items() if not n.startswith(hidden)}
-            if hidden
+            {n: d for n, d in circuit.devices.items() if not _inside(n, drivers)}
+            if drivers
             else circuit.devices
         )
         # Terminals by net: the circuit graph's net-to-device adjacency, with each driver's
@@ -738,27 +750,37 @@ class _StageBuilder:
         Pull-up current flows from the end into the gate, pull-down current from the gate
         to the end, so a transistor or diode on the path must conduct in that direction.
         """
-        view = self.view
         found: list[GatePath] = []
         stop = ends | {self.source, GROUND, self.boot_net}
-        excluded = {self.switch.name}
-
-        def walk(net: str, path: list[str], visited: set[str]) -> None:
-            if len(path) >= MAX_PATH_DEVICES:
-                return
-            for name, pin in view.at(net):
-                if name in excluded or name in path:
-                    continue
-                far = self.step(name, pin, net, up)
-                if far is None or far in visited:
-                    continue
-                if far in ends:
-                    found.append(GatePath(tuple(path + [name]), far, far))
-                elif far not in stop and not view.is_rail(far):
-                    walk(far, path + [name], visited | {far})
-
-        walk(self.gate, [], {self.gate})
+        # A method, not a nested function calling itself: that closure would be a reference
+        # cycle keeping this builder, and through it the whole view, alive while the
+        # collector is paused (and then frozen).
+        self._walk(self.gate, [], {self.gate}, ends, stop, up, found)
         return found
+
+    def _walk(
+        self,
+        net: str,
+        path: list[str],
+        visited: set[str],
+        ends: set[str],
+        stop: set[str],
+        up: bool,
+        found: list[GatePath],
+    ) -> None:
+        if len(path) >= MAX_PATH_DEVICES:
+            return
+        view = self.view
+        for name, pin in view.at(net):
+            if name == self.switch.name or name in path:
+                continue
+            far = self.step(name, pin, net, up)
+            if far is None or far in visited:
+                continue
+            if far in ends:
+                found.append(GatePath(tuple(path + [name]), far, far))
+            elif far not in stop and not view.is_rail(far):
+                self._walk(far, path + [name], visited | {far}, ends, stop, up, found)
 
     def step(self, name: str, pin: str, net: str, up: bool) -> str | None:
         """The net reached through device ``name`` entered at ``pin``, if it conducts that way."""
