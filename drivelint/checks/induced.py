@@ -469,6 +469,8 @@ def _edge(
         how += f", at most the driver's rated {limit.text()}"
     i_gate = computed(current, "A", how)
     rate = dvdt.plateau_slew_rate(current, aggressor_sw.c_gd.value)
+    if not (math.isfinite(rate) and rate > 0):
+        return None  # an edge that does not slew (a capacitance beyond any real part)
     dv_dt = computed(
         rate,
         "V/s",
@@ -802,10 +804,12 @@ def _allowed_rate(edge: Edge, allowed: float) -> float | None:
     ):
         return None
     low, high = edge.dv_dt.value * 1e-6, edge.dv_dt.value
+    if not low > 0:
+        return None  # a rate so small its millionth underflows: no edge to slow
     if _peak(edge, r, rate=high) <= allowed:
         return None
     for _ in range(200):
-        middle = math.sqrt(low * high)
+        middle = math.sqrt(low) * math.sqrt(high)  # no underflow of the product
         if _peak(edge, r, rate=middle) > allowed:
             high = middle
         else:
