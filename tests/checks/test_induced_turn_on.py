@@ -278,3 +278,20 @@ def test_the_plateau_from_gfs_and_the_load_current() -> None:
     (finding,) = lint(square)
     assert finding.values["v_plateau_partner"].value == pytest.approx(3.4)
     assert "√(2·I_load/β)" in finding.values["v_plateau_partner"].origin
+
+
+def test_a_gate_drain_capacitance_beyond_any_part_is_a_quiet_edge(tmp_path: Path) -> None:
+    """A C_gd of 1e300 F (the hardening campaign's revalued design) slews at ~0 V/s: the
+    rule judges no edge there instead of dividing by an underflowed rate."""
+    example = Path(__file__).resolve().parents[2] / "examples"
+    text = (example / "induction325_half_bridge_driver.cir").read_text(encoding="utf-8")
+    text = text.replace("Cgdmax=0.6n", "Cgdmax=1e300")
+    assert "Cgdmax=1e300" in text
+    (tmp_path / "drivelint.toml").write_text("", encoding="utf-8")
+    (tmp_path / "parts.toml").write_text(
+        (example / "parts.toml").read_text(encoding="utf-8"), encoding="utf-8"
+    )
+    deck = tmp_path / "deck.cir"
+    deck.write_text(text, encoding="utf-8")
+    result = check_path(deck)
+    assert not [d for d in result.diagnostics if d.code == "internal-error"]
