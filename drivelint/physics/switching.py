@@ -149,3 +149,52 @@ def resistor_share(p_edge: Watts, r: Ohms, r_path: Ohms) -> Watts:
     the driver's output and the switch's internal gate resistance included [Ohm].
     """
     return p_edge * _ratio(r, r_path)
+
+
+def edge_fraction(t_on: Seconds, t_off: Seconds, f: Hertz) -> Ratio:
+    """The part of each period the switch spends in transition: (t_on + t_off)·f.
+
+    t_on, t_off: the turn-on and turn-off transition times (current and voltage overlap)
+    [s]; f: switching frequency [Hz].
+    """
+    return (t_on + t_off) * f
+
+
+def current_rise_charge(q_gs: Coulombs) -> Coulombs:
+    """The part of Q_gs the gate takes between the threshold and the plateau, Q_gs2 ≈ ½·Q_gs.
+
+    The datasheet's Q_gs runs from 0 V to the plateau; the current only flows above V_th,
+    and power MOSFETs put the threshold roughly half-way up that charge (common practice,
+    e.g. Vishay Siliconix AN608A's gate-charge intervals — from memory). q_gs: gate–source
+    charge to the plateau [C].
+    """
+    return 0.5 * q_gs
+
+
+def rds_on_at_temperature(
+    r_ds_on: Ohms, t_junction: Kelvin, tempco: float, t_rated: Kelvin = 298.15
+) -> Ohms:
+    """On-resistance at the junction temperature: R_DS(on)·(1 + α·(T_j − T_rated)).
+
+    Silicon MOSFETs' R_DS(on) rises about 0.5–1 %/K, some 1.5–2× at 125 °C against 25 °C
+    (common practice; datasheets' normalised R_DS(on)-vs-T_j curves). r_ds_on: at
+    ``t_rated`` [Ohm]; t_junction: [K]; tempco: α [1/K]; t_rated: [K] (25 °C).
+    """
+    t_j = _coerce(t_junction, t_junction, "K", t_junction)
+    rise = t_j - _coerce(t_rated, t_rated, "K", t_j)
+    factor = 1.0 + tempco * rise
+    return r_ds_on * max(factor, 0.0 * factor)
+
+
+def heatsink_resistance_needed(
+    t_limit: Kelvin, t_ambient: Kelvin, p: Watts, r_th_jc: KelvinPerWatt
+) -> KelvinPerWatt:
+    """Case-to-ambient thermal resistance (interface + heatsink) that keeps T_j at t_limit:
+    R_th,ca = (T_limit − T_a)/P − R_thJC (the series thermal path, textbook).
+
+    t_limit: allowed junction temperature [K]; t_ambient: [K]; p: dissipation [W];
+    r_th_jc: junction-to-case thermal resistance [K/W]. Negative: no heatsink is enough.
+    """
+    t_lim = _coerce(t_limit, t_limit, "K", t_limit)
+    t_a = _coerce(t_ambient, t_ambient, "K", t_lim)
+    return (t_lim - t_a) / p - r_th_jc
