@@ -530,6 +530,24 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
     into the node at the low side's turn-on, likewise by the low side. A modulated command
     (the duty is the loop's) is not estimated.
     """
+    load = inductor_load(stage, facts)
+    if load is None or facts.v_bus is None or facts.duty_max is None or facts.fsw is None:
+        return None
+    henries, v_ref, conductance = load
+    return dvdt.load_current_at_edges(
+        facts.v_bus.value,
+        facts.v_sw_low.value,
+        facts.duty_max.value,
+        facts.fsw.value,
+        henries,
+        v_ref,
+        conductance,
+    )
+
+
+def inductor_load(stage: DriveStage, facts: StageFacts) -> tuple[float, float, float] | None:
+    """(L [H], V_ref [V], G [S]) of a switch node whose load is one inductor into resistors
+    (and capacitors) to fixed levels, with a steady duty and frequency; None otherwise."""
     if facts.modulated or facts.v_bus is None:
         return None
     duty, fsw = facts.duty_max, facts.fsw
@@ -563,9 +581,7 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
             conductance += 1.0 / ohms
             pulled += level / ohms
     v_ref = pulled / conductance if conductance else 0.0
-    return dvdt.load_current_at_edges(
-        facts.v_bus.value, facts.v_sw_low.value, duty.value, fsw.value, henries, v_ref, conductance
-    )
+    return henries, v_ref, conductance
 
 
 def _partner_edge_hard(stage: DriveStage, facts: StageFacts) -> bool:

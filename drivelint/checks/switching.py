@@ -23,13 +23,14 @@ from drivelint.checks.corners import HOLD, charge_spread, with_corner
 from drivelint.checks.facts import StageFacts
 from drivelint.checks.induced import (
     GatePathFigure,
-    edge_currents,
     high_side_path,
+    inductor_load,
     miller_plateau,
     switch_figures,
 )
 from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
+from drivelint.physics import dvdt
 from drivelint.physics import switching as sw
 from drivelint.physics.preferred import previous_preferred
 from drivelint.physics.stress import (
@@ -43,6 +44,8 @@ from drivelint.stages.model import DriveStage
 # The corner the figures take: the gate supply at its lowest and the gate charge at the top
 # of its spread (the slower edges), the bus at its highest (the larger swing).
 CORNER_USES = frozenset({"supply", "charge", "bus"})
+# A load whose L/R is under this share of the on- and the off-time is taken as resistive.
+RESISTIVE_TAU_SHARE = 0.1
 # T_j is found again with R_DS(on) at the last estimate this many times (it settles fast:
 # the conduction loss is a part of the total and the coefficient is under 1 %/K).
 THERMAL_ITERATIONS = 3
@@ -198,22 +201,50 @@ class OperatingPoint:
 
 def operating_point(stage: DriveStage, facts: StageFacts) -> OperatingPoint | None:
     """The condition load_current, else the steady state of an inductor from the switch
-    node into resistors to fixed levels; None otherwise (the losses are then not judged)."""
+    node into resistors to fixed levels; None otherwise (the losses are then not judged).
+
+    The inductor's current is a triangle (textbook buck relations) only where its L/R is long
+    against the off-time: the ripple then stays within the average (ΔI ≤ I_avg). Where L/R
+    is short against both the on- and the off-time (a resistive load with its lead
+    inductance) the current follows the resistor: (V_bus − V_ref)/R while on, decayed to
+    nothing by the next turn-on. In between it is not estimated.
+    """
     given = facts.condition("load_current")
     if given is not None:
         return OperatingPoint(given, given, given)
-    currents = edge_currents(stage, facts)
-    if currents is None:
+    load = inductor_load(stage, facts)
+    bus, duty, fsw = facts.v_bus, facts.duty_max, facts.fsw
+    if load is None or bus is None or duty is None or fsw is None:
         return None
-    low, high = currents
-    average, ripple = (low + high) / 2, high - low
-    how = "computed: the steady-state inductor current at the switch node"
-    rms = math.sqrt(average * average + ripple * ripple / 12)
-    return OperatingPoint(
-        computed(low, "A", f"{how}, I_avg − ΔI/2 (as the switch turns on)"),
-        computed(high, "A", f"{how}, I_avg + ΔI/2 (as the switch turns off)"),
-        computed(rms, "A", f"{how}: √(I_avg² + ΔI²/12), I_avg {_a(average)}, ΔI {_a(ripple)}"),
+    henries, v_ref, conductance = load
+    if conductance <= 0:
+        return None
+    low, high = dvdt.load_current_at_edges(
+        bus.value, facts.v_sw_low.value, duty.value, fsw.value, henries, v_ref, conductance
     )
+    average, ripple = (low + high) / 2, high - low
+    tau = henries * conductance
+    period = 1.0 / fsw.value
+    shortest = min(duty.value, 1.0 - duty.value) * period
+    if average > 0 and ripple <= average:
+        how = "computed: the steady-state inductor current at the switch node"
+        rms = math.sqrt(average * average + ripple * ripple / 12)
+        return OperatingPoint(
+            computed(low, "A", f"{how}, I_avg − ΔI/2 (as the switch turns on)"),
+            computed(high, "A", f"{how}, I_avg + ΔI/2 (as the switch turns off)"),
+            computed(rms, "A", f"{how}: √(I_avg² + ΔI²/12), I_avg {_a(average)}, ΔI {_a(ripple)}"),
+        )
+    if tau <= RESISTIVE_TAU_SHARE * shortest:
+        amps = (bus.value - v_ref) * conductance
+        how = (
+            f"computed: (V_bus − V_ref)/R = ({bus.text()} − {format_si(v_ref, 'V')})·"
+            f"{format_si(conductance, 'S')}, a resistive load (L/R {_s(tau)} short against "
+            "the on- and off-time)"
+        )
+        on_current = computed(amps, "A", how)
+        zero = Value(0.0, "A", f"the load current decays within the off-time (L/R {_s(tau)})")
+        return OperatingPoint(zero, on_current, on_current)
+    return None
 
 
 def gate_paths(
