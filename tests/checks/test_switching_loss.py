@@ -214,3 +214,35 @@ def test_card_options() -> None:
     assert CARD.options["edge_fraction"].default == pytest.approx(0.02)
     assert CARD.options["tj_margin"].default == pytest.approx(40.0)
     assert CARD.options["rds_tempco"].default == pytest.approx(0.007)
+
+
+def test_the_html_card_leads_with_the_junction_and_the_edges() -> None:
+    from drivelint.report.html.page import key_pairs
+
+    found = _by_kind(lint(CARD.bad))
+    assert [(c, limit) for c, _, limit, _ in key_pairs(found["junction"])] == [
+        ("t_junction", "t_junction_limit")
+    ]
+    assert [(c, limit) for c, _, limit, _ in key_pairs(found["edge"])] == [
+        ("edge_fraction", "edge_fraction_max")
+    ]
+
+
+def test_a_driver_current_limit_caps_the_gate_current() -> None:
+    # a parts entry for the driver with i_source 50 mA: the turn-on's plateau current is
+    # capped there (from 74 mA through 100 Ω), and the fix asks for a stronger driver
+    text = BAD.read_text(encoding="utf-8").replace("RG hgate g 100", "RG hgate g 10")
+    stage, facts = _facts(text)
+    paths = switching.gate_paths(stage, facts)
+    assert paths is not None
+    on, off = paths
+    from dataclasses import replace
+
+    from drivelint.ratings.values import Value
+
+    limited = replace(on, current_limit=Value(0.05, "A", "test"))
+    found = switching.transitions(facts, "m1", limited, off, facts.v_switched)
+    assert found is not None and found.limited
+    assert found.i_on.value == pytest.approx(0.05)
+    text_fix, value = switching.faster_fix(found, 0.5, "test")
+    assert value is None and "stronger driver" in text_fix and "100 mA source" in text_fix
