@@ -26,8 +26,10 @@ from drivelint.checks.induced import (
     high_side_path,
     inductor_load,
     miller_plateau,
+    partner_paths,
     switch_figures,
 )
+from drivelint.circuit.model import Device
 from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
 from drivelint.physics import dvdt
@@ -46,9 +48,6 @@ from drivelint.stages.model import DriveStage
 CORNER_USES = frozenset({"supply", "charge", "bus"})
 # A load whose L/R is under this share of the on- and the off-time is taken as resistive.
 RESISTIVE_TAU_SHARE = 0.1
-# T_j is found again with R_DS(on) at the last estimate this many times (it settles fast:
-# the conduction loss is a part of the total and the coefficient is under 1 %/K).
-THERMAL_ITERATIONS = 3
 CAUTION = (
     "A review aid, not a substitute for a qualified engineer, the parts' datasheets or local "
     "codes: mains and high-voltage stages can kill, and a quiet rule does not make one safe."
@@ -197,6 +196,7 @@ class OperatingPoint:
     i_turn_on: Value
     i_turn_off: Value
     i_rms: Value
+    resistive: bool = False  # the current follows a resistor (none through the partner)
 
 
 def operating_point(stage: DriveStage, facts: StageFacts) -> OperatingPoint | None:
@@ -243,7 +243,7 @@ def operating_point(stage: DriveStage, facts: StageFacts) -> OperatingPoint | No
         )
         on_current = computed(amps, "A", how)
         zero = Value(0.0, "A", f"the load current decays within the off-time (L/R {_s(tau)})")
-        return OperatingPoint(zero, on_current, on_current)
+        return OperatingPoint(zero, on_current, on_current, resistive=True)
     return None
 
 
@@ -283,10 +283,62 @@ def check_switching_loss(stage: DriveStage, ctx: CheckContext) -> Iterator[Findi
     edge = _edge_finding(found, facts, ctx)
     if edge is not None:
         yield with_corner(edge, facts, HOLD, CORNER_USES)
-    if point is not None:
-        heat = _junction_finding(found, point, facts, ctx)
+    if point is None or facts.duty_max is None:
+        return
+    subjects = [Subject(facts.switch, facts.duty_max, point, found, found.rds_on)]
+    partner = _partner_subject(stage, facts, point)
+    if partner is not None:
+        subjects.append(partner)
+    for subject in subjects:
+        heat = _junction_finding(subject, facts, ctx)
         if heat is not None:
-            yield with_corner(heat, facts, HOLD, CORNER_USES)
+            # a partner whose edges are soft depends on the bus alone (its conduction)
+            uses = CORNER_USES if subject.found is not None else frozenset({"bus"})
+            yield with_corner(heat, facts, HOLD, uses)
+
+
+def _partner_subject(stage: DriveStage, facts: StageFacts, point: OperatingPoint) -> Subject | None:
+    """The low-side partner of the leg, conducting the rest of the period: the same load
+    current, flowing the other way through its edges (a current out of the node at the high
+    side's turn-off is one the partner's body diode takes before it turns on: a soft edge).
+    Its edges are worked out only where one is hard, through its own gate path; a load whose
+    current follows a resistor is not judged (what the partner carries then is not known)."""
+    name = next(
+        (r.devices[0] for r in stage.refresh if r.kind == "low-side switch" and r.devices), None
+    )
+    partner = facts.device(name)
+    duty = facts.duty_max
+    if partner is None or partner.kind != "mosfet" or point.resistive or duty is None:
+        return None
+    into = OperatingPoint(
+        computed(
+            -point.i_turn_off.value,
+            "A",
+            f"computed: −I as {stage.switch} turns off ({point.i_turn_off.text()} out of the node)",
+        ),
+        computed(
+            -point.i_turn_on.value,
+            "A",
+            f"computed: −I as {stage.switch} turns on ({point.i_turn_on.text()} out of the node)",
+        ),
+        point.i_rms,
+    )
+    share = computed(
+        1.0 - duty.value, "1", f"computed: 1 − D ({duty.text()}), the dead times not counted"
+    )
+    paths = partner_paths(stage, facts, partner)
+    drive = paths[0].level.value if paths is not None else None
+    rds = facts.ratings.get(partner, "rds_on")
+    if rds is None and drive is not None:
+        rds = facts.switch_gate(partner, drive, facts.v_switched).rds_on
+    found: Transitions | None = None
+    if into.i_turn_on.value > 0 or into.i_turn_off.value > 0:
+        if paths is None:
+            return None
+        found = transitions(facts, partner.name, *paths, facts.v_switched, point.i_rms)
+        if found is None:
+            return None
+    return Subject(partner, share, into, found, rds)
 
 
 def _common_values(found: Transitions, facts: StageFacts) -> dict[str, Value]:
@@ -412,43 +464,58 @@ class Heat:
 
 
 def _heat(
-    found: Transitions,
+    found: Transitions | None,
     point: OperatingPoint,
     facts: StageFacts,
     rth: float,
     tempco: float,
     rds: float,
+    duty: float | None = None,
 ) -> Heat:
     fsw = facts.fsw
-    duty = facts.duty_max
-    assert fsw is not None and duty is not None
+    share = facts.duty_max.value if duty is None and facts.duty_max else duty
+    assert fsw is not None and share is not None
     v = facts.v_switched
     # an edge whose current flows the other way is soft: the body diode of the partner
     # (or its own) moves the node, and the switch makes no overlap loss on it
-    p_sw = sw.switching_loss(
-        v, max(point.i_turn_on.value, 0.0), found.t_on.value, 0.0, fsw.value
-    ) + sw.switching_loss(v, max(point.i_turn_off.value, 0.0), 0.0, found.t_off.value, fsw.value)
+    p_sw = 0.0
+    if found is not None:
+        p_sw = sw.switching_loss(
+            v, max(point.i_turn_on.value, 0.0), found.t_on.value, 0.0, fsw.value
+        ) + sw.switching_loss(
+            v, max(point.i_turn_off.value, 0.0), 0.0, found.t_off.value, fsw.value
+        )
     t_a = facts.temperature.value
-    t_j, hot, p_cond = t_a, rds, 0.0
-    for _ in range(THERMAL_ITERATIONS):
-        hot = sw.rds_on_at_temperature(rds, t_j, tempco)
-        p_cond = sw.conduction_loss(point.i_rms.value, hot, duty.value)
-        t_j = sw.junction_temperature(t_a, p_sw + p_cond, rth)
-    return Heat(p_sw, p_cond, hot, t_j)
+    rated = sw.conduction_loss(point.i_rms.value, rds, share)
+    t_j = sw.junction_temperature_self_heating(t_a, p_sw, rated, rth, tempco)
+    if not math.isfinite(t_j):
+        return Heat(p_sw, math.inf, math.inf, t_j)
+    hot = sw.rds_on_at_temperature(rds, t_j, tempco)
+    return Heat(p_sw, sw.conduction_loss(point.i_rms.value, hot, share), hot, t_j)
 
 
-def _junction_finding(
-    found: Transitions, point: OperatingPoint, facts: StageFacts, ctx: CheckContext
-) -> Finding | None:
-    name = facts.stage.switch
-    device = facts.switch
+@dataclass(frozen=True, slots=True)
+class Subject:
+    """One switch whose junction is judged: the floating switch, or its low-side partner."""
+
+    device: Device
+    duty: Value  # the share of the period it conducts
+    point: OperatingPoint  # the currents it turns on and off (positive: a hard edge)
+    found: Transitions | None  # its edges, None when both are soft
+    rds_on: Value | None
+
+
+def _junction_finding(subject: Subject, facts: StageFacts, ctx: CheckContext) -> Finding | None:
+    device, duty, point, found = subject.device, subject.duty, subject.point, subject.found
+    name = device.name
     rth = facts.ratings.get(device, "rth_ja")
-    duty = facts.duty_max
-    if rth is None or rth.value <= 0 or duty is None:
+    fsw = facts.fsw
+    if rth is None or rth.value <= 0 or fsw is None:
         return None
     tempco = ctx.options["rds_tempco"]
-    rds = found.rds_on.value if found.rds_on is not None else 0.0
-    heat = _heat(found, point, facts, rth.value, tempco, rds)
+    rds_on = subject.rds_on
+    rds = rds_on.value if rds_on is not None else 0.0
+    heat = _heat(found, point, facts, rth.value, tempco, rds, duty.value)
     rule = TemperatureLimit(
         NASA_JUNCTION_LIMIT.cap,
         ctx.options["tj_margin"],
@@ -459,10 +526,16 @@ def _junction_finding(
     limit = junction_temperature_limit(tj_max.value, rule) if tj_max else rule.cap
     if heat.t_j <= limit:
         return None
+    runaway = not math.isfinite(heat.t_j)
+    # R_DS(on) and the conduction loss with the junction at its limit: what a fix must meet
+    hot_limit = sw.rds_on_at_temperature(rds, limit, tempco)
+    p_at_limit = heat.p_sw + sw.conduction_loss(point.i_rms.value, hot_limit, duty.value)
+    if runaway:
+        heat = Heat(heat.p_sw, p_at_limit - heat.p_sw, hot_limit, heat.t_j)
     severity = ctx.severity if tj_max is not None and heat.t_j > tj_max.value else Severity.WARNING
     t_a = facts.temperature
     p_total = heat.p_sw + heat.p_cond
-    values = _common_values(found, facts)
+    values = _common_values(found, facts) if found is not None else {"fsw": fsw}
     values.update(
         {
             "i_turn_on": point.i_turn_on,
@@ -473,9 +546,19 @@ def _junction_finding(
             "p_switching": computed(heat.p_sw, "W", "computed: ½·V·(I_on·t_on + I_off·t_off)·f_sw"),
             "p_conduction": computed(heat.p_cond, "W", "computed: I_rms²·R_DS(on)(T_j)·D"),
             "p_switch": computed(p_total, "W", "computed: P_sw + P_cond"),
+            "p_switch_cold": computed(
+                heat.p_sw + sw.conduction_loss(point.i_rms.value, rds, duty.value),
+                "W",
+                "computed: P_sw + I_rms²·R_DS(on)·D with R_DS(on) as rated (25 °C), what a "
+                "simulation at its nominal temperature dissipates",
+            ),
             "rth_ja": rth,
             "ambient": t_a,
-            "t_junction": computed(heat.t_j, "K", "computed: T_a + (P_sw + P_cond)·R_thJA"),
+            "thermal_gain": computed(
+                rth.value * sw.conduction_loss(point.i_rms.value, rds, duty.value) * tempco,
+                "1",
+                "computed: R_thJA·P_cond(25 °C)·α (at 1 or more, no steady temperature)",
+            ),
             "t_junction_limit": computed(
                 limit,
                 "K",
@@ -489,14 +572,20 @@ def _junction_finding(
     )
     if tj_max is not None:
         values["tj_max"] = tj_max
-    if found.rds_on is not None:
-        values["rds_on"] = found.rds_on
+    if not runaway:
+        values["t_junction"] = computed(
+            heat.t_j,
+            "K",
+            "computed: T_a + (P_sw + P_cond(T_j))·R_thJA, R_DS(on) rising with T_j (closed form)",
+        )
+    if rds_on is not None:
+        values["rds_on"] = rds_on
         values["rds_on_hot"] = computed(
             heat.rds_hot, "Ohm", "computed: R_DS(on)·(1 + α·(T_j − 25 °C))"
         )
     p_allowed = (limit - t_a.value) / rth.value
     fixes: list[str] = []
-    if 0 < p_allowed and heat.p_sw > 0 and heat.p_cond < p_allowed:
+    if found is not None and 0 < p_allowed and heat.p_sw > 0 and heat.p_cond < p_allowed:
         factor = (p_allowed - heat.p_cond) / heat.p_sw
         text, value = faster_fix(
             found, min(factor, 0.95), f"switching loss down to {_w(p_allowed - heat.p_cond)}"
@@ -506,13 +595,13 @@ def _junction_finding(
             values["suggested_gate_resistor"] = computed(
                 value, "Ohm", "computed: the E12 value whose edges bring T_j to its limit"
             )
-    if found.rds_on is not None and heat.p_sw < p_allowed and point.i_rms.value > 0:
-        share = heat.rds_hot / found.rds_on.value if found.rds_on.value > 0 else 1.0
+    if rds_on is not None and heat.p_sw < p_allowed and point.i_rms.value > 0:
+        share = hot_limit / rds_on.value if rds_on.value > 0 else 1.0
         needed = (p_allowed - heat.p_sw) / (point.i_rms.value**2 * duty.value * share)
         fixes.append(f"a part with R_DS(on) of {_ohm(needed)} or less at 25 °C")
     rth_jc = facts.ratings.get(device, "rth_jc")
     if rth_jc is not None:
-        r_ca = sw.heatsink_resistance_needed(limit, t_a.value, p_total, rth_jc.value)
+        r_ca = sw.heatsink_resistance_needed(limit, t_a.value, p_at_limit, rth_jc.value)
         if r_ca > 0:
             values["rth_case_ambient_needed"] = computed(
                 r_ca, "K/W", "computed: (T_limit − T_a)/P − R_thJC"
@@ -527,23 +616,42 @@ def _junction_finding(
             f"dissipate {_w(max(p_allowed, 0.0))}"
         )
     over = "its rating" if severity is not Severity.WARNING else "its derated limit"
-    message = (
-        f"{name} dissipates {_w(p_total)} ({_w(heat.p_sw)} switching, {_w(heat.p_cond)} "
-        f"conduction) at {point.i_rms.text()} and {facts.fsw.text() if facts.fsw else ''}: "
+    reaches = (
         f"its junction reaches {_c(heat.t_j)} through {rth.text()} from {_c(t_a.value)}, "
         f"above {over} of {_c(tj_max.value if tj_max and over == 'its rating' else limit)}"
+        if not runaway
+        else f"through {rth.text()} from {_c(t_a.value)} its junction has no steady "
+        "temperature (thermal runaway: each kelvin raises R_DS(on) and the loss by more than "
+        "a kelvin's worth)"
     )
-    fsw = facts.fsw
-    assert fsw is not None
+    at = " with the junction at its limit" if runaway else ""
+    message = (
+        f"{name} dissipates {_w(p_total)}{at} ({_w(heat.p_sw)} switching, "
+        f"{_w(heat.p_cond)} conduction) at {point.i_rms.text()} and {fsw.text()}: {reaches}"
+    )
+    switching_lines = (
+        (
+            *_time_lines(found),
+            f"P_sw = ½·V·(I_on·t_on + I_off·t_off)·f = ½ × {format_si(facts.v_switched, 'V')} "
+            f"× ({point.i_turn_on.text()} × {found.t_on.text()} + {point.i_turn_off.text()} × "
+            f"{found.t_off.text()}) × {fsw.text()} = {_w(heat.p_sw)}",
+        )
+        if found is not None
+        else (
+            f"P_sw = 0: both edges of {name} are soft (the load current moves the node: "
+            f"{point.i_turn_on.text()} as it turns on, {point.i_turn_off.text()} as it turns "
+            "off)",
+        )
+    )
     derivation = (
-        *_time_lines(found),
-        f"P_sw = ½·V·(I_on·t_on + I_off·t_off)·f = ½ × {format_si(facts.v_switched, 'V')} × "
-        f"({point.i_turn_on.text()} × {found.t_on.text()} + {point.i_turn_off.text()} × "
-        f"{found.t_off.text()}) × {fsw.text()} = {_w(heat.p_sw)}",
+        *switching_lines,
         f"P_cond = I_rms²·R_DS(on)(T_j)·D = ({point.i_rms.text()})² × {_ohm(heat.rds_hot)} × "
         f"{duty.value:.3g} = {_w(heat.p_cond)}",
         f"T_j = T_a + P·R_thJA = {_c(t_a.value)} + {_w(p_total)} × {rth.text()} = "
-        f"{_c(heat.t_j)} against {_c(limit)}",
+        f"{_c(heat.t_j)} against {_c(limit)}"
+        if not runaway
+        else "T_j = (T_a + R_th·(P_sw + P_cond,25(1 − α·T_25)))/(1 − R_th·P_cond,25·α): "
+        f"R_th·P_cond,25·α = {values['thermal_gain'].value:.3g} ≥ 1, no steady T_j",
     )
     text = "; or ".join(fixes)
     return ctx.finding(

@@ -18,6 +18,7 @@ from drivelint.physics._units import (
     Watts,
     _coerce,
     _ratio,
+    _unit_of,
 )
 
 
@@ -198,3 +199,31 @@ def heatsink_resistance_needed(
     t_lim = _coerce(t_limit, t_limit, "K", t_limit)
     t_a = _coerce(t_ambient, t_ambient, "K", t_lim)
     return (t_lim - t_a) / p - r_th_jc
+
+
+def junction_temperature_self_heating(
+    t_ambient: Kelvin,
+    p_fixed: Watts,
+    p_cond_rated: Watts,
+    r_th_ja: KelvinPerWatt,
+    tempco: float,
+    t_rated: Kelvin = 298.15,
+) -> Kelvin:
+    """Steady T_j with a conduction loss that rises with it: the fixed point of
+    T_j = T_a + R_th·(P_fixed + P_cond,rated·(1 + α·(T_j − T_rated))), in closed form
+    T_j = (T_a + R_th·(P_fixed + P_cond,rated·(1 − α·T_rated)))/(1 − R_th·P_cond,rated·α)
+    (the thermal Ohm's law with R_DS(on) linear in T_j, as :func:`rds_on_at_temperature`).
+    Infinite when R_th·P_cond,rated·α ≥ 1: each kelvin adds more than a kelvin (thermal
+    runaway), no steady temperature.
+
+    t_ambient [K]; p_fixed: the losses that do not depend on T_j (switching) [W];
+    p_cond_rated: the conduction loss with R_DS(on) at ``t_rated`` [W]; r_th_ja [K/W];
+    tempco: α [1/K]; t_rated: [K].
+    """
+    t_a = _coerce(t_ambient, t_ambient, "K", t_ambient)
+    t_r = _coerce(t_rated, t_rated, "K", t_a)
+    gain = _ratio(r_th_ja * p_cond_rated * tempco, 1.0)
+    if gain >= 1.0:
+        return math.inf * _unit_of(t_a)
+    numerator = t_a + r_th_ja * (p_fixed + p_cond_rated * (1.0 - tempco * t_r))
+    return numerator / (1.0 - gain)

@@ -115,7 +115,8 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "gate-pulldown-missing/fixed": ("vgs_induced_with_fix",),
     "gate-pulldown-missing/pulled on": ("vgs_pulled_on",),
     "switching-loss/edge": ("t_voltage_on", "t_voltage_off"),
-    "switching-loss/junction": ("p_switch", "t_voltage_on", "t_voltage_off"),
+    "switching-loss/junction": ("p_switch_cold", "t_voltage_on", "t_voltage_off"),
+    "switching-loss/partner junction": ("p_switch_cold",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
@@ -471,7 +472,10 @@ def finding_kind(finding: Finding, stage: DriveStage) -> str:
     if finding.rule == "gate-pulldown-missing" and "vgs_turn_on" in values:
         return "gate-pulldown-missing/pulled on"
     if finding.rule == "switching-loss":
-        return "switching-loss/" + ("edge" if "edge_fraction" in values else "junction")
+        if "edge_fraction" in values:
+            return "switching-loss/edge"
+        partner = finding.device != stage.switch
+        return "switching-loss/" + ("partner junction" if partner else "junction")
     if finding.rule != "gate-overvoltage":
         return finding.rule
     return f"gate-overvoltage/{_gate_kind(finding, stage)}"
@@ -2256,13 +2260,17 @@ def switching_loss(ctx: BenchContext) -> Bench | Declined:
     in: the switch node's 10–90 % rise at turn-on and fall at turn-off, scaled to the whole
     swing, and the switch's average dissipation V_DS·I_D over SWITCH_READ periods."""
     stage, facts = ctx.stage, ctx.facts
-    device = ctx.circuit.devices.get(stage.switch)
+    kind = finding_kind(ctx.finding, stage)
+    # the junction finding's switch (the floating one or its partner); the edges' finding
+    # names the gate resistor, and the floating switch is probed
+    judged = ctx.finding.device if kind.endswith("junction") else stage.switch
+    device = ctx.circuit.devices.get(judged)
     fsw, bus = facts.fsw, facts.v_bus
     if device is None or device.kind != "mosfet" or fsw is None or bus is None:
         return Declined("the finding's switch, frequency or bus cannot be found")
-    drain = device.net("d")
-    if drain is None:
-        return Declined(f"{device.name}'s drain cannot be probed")
+    drain, source = device.net("d"), device.net("s")
+    if drain is None or source is None:
+        return Declined(f"{device.name}'s drain or source cannot be probed")
     laid_out = _own_or_periodic(ctx, "the leg switching at its own command")
     if isinstance(laid_out, Declined):
         return laid_out
@@ -2289,17 +2297,17 @@ def switching_loss(ctx: BenchContext) -> Bench | Declined:
     ]
     limits: list[Limit] = []
     stop = end + SETTLE_AFTER
-    if finding_kind(ctx.finding, stage) == "switching-loss/junction":
+    if kind.endswith("junction"):
         probe = _collector_ammeter(ctx, device)
         if isinstance(probe, Declined):
             return probe
         current, ammeter = probe
         edits = merge_edits(edits, ammeter)
         read_to = start + SWITCH_READ * period
-        vds = f"(v({drain})-{'0' if stage.source == GROUND else node})"
+        vds = f"(v({drain})-{'0' if source == GROUND else voltage(source)})"
         cards.append(
             average(
-                "p_switch",
+                "p_switch_cold",
                 f"par('{vds}*{current}')",
                 start,
                 read_to,
@@ -2312,10 +2320,11 @@ def switching_loss(ctx: BenchContext) -> Bench | Declined:
         if limit is not None and ambient is not None and rth:
             limits.append(
                 Limit(
-                    "p_switch",
+                    "p_switch_cold",
                     (limit - ambient) / rth,
                     "<=",
-                    f"{device.name} dissipates no more than its junction's limit allows",
+                    f"{device.name} dissipates no more than its junction's limit allows "
+                    "(R_DS(on) as the model gives it: its rise with T_j is not simulated)",
                     "W",
                 )
             )

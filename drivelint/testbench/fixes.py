@@ -666,9 +666,21 @@ def induced_turn_on(ctx: BenchContext) -> Fix | Declined:
 def switching_loss(ctx: BenchContext) -> Fix | Declined:
     """The switch's gate resistor (the one its turn-on and turn-off share) set to the
     finding's suggested value."""
+    from drivelint.checks.induced import partner_paths
     from drivelint.checks.switching import gate_paths
 
-    paths = gate_paths(ctx.stage, ctx.facts)
+    name = ctx.finding.device
+    device = ctx.circuit.devices.get(name)
+    if device is not None and device.kind == "resistor":
+        return _suggested_gate_resistor(ctx, name)  # the edges' finding names it
+    if device is None or name == ctx.stage.switch:
+        paths = gate_paths(ctx.stage, ctx.facts)
+    else:
+        paths = partner_paths(ctx.stage, ctx.facts, device)
+    if ctx.value("suggested_gate_resistor") is None:
+        return Declined(
+            "the fix is another part (a lower R_DS(on)) or a heatsink, not a value in the netlist"
+        )
     if paths is None or not paths[0].resistors:
         return Declined("the finding's gate path has no resistor to change")
     return _suggested_gate_resistor(ctx, paths[0].resistors[0])

@@ -24,6 +24,7 @@ OUTSIDE = Path(__file__).resolve().parent / "outside"
 DECKS = Path(__file__).resolve().parent / "switching"
 BAD = DECKS / "buck48_slow_gate.cir"
 GOOD = DECKS / "buck48_firm_gate.cir"
+HOT_LOW = DECKS / "buck48_hot_low_side.cir"
 CARD = registry()[RULE]
 
 
@@ -246,3 +247,37 @@ def test_a_driver_current_limit_caps_the_gate_current() -> None:
     assert found.i_on.value == pytest.approx(0.05)
     text_fix, value = switching.faster_fix(found, 0.5, "test")
     assert value is None and "stronger driver" in text_fix and "100 mA source" in text_fix
+
+
+def test_the_low_side_partner_conducts_the_rest_of_the_period() -> None:
+    # M2 (KP·W/L = 2 A/V², 12 V drive: 1/(2 × 9) = 55.6 mΩ) carries the inductor's 4.05 A
+    # RMS for 1 − D of the period; both its edges are soft in a buck (the load current
+    # leaves the node), so it makes no switching loss
+    (finding,) = lint(HOT_LOW.read_text(encoding="utf-8"))
+    assert finding.device == "m2" and finding.span.line == 19 and finding.switch == "m1"
+    assert finding.severity == Severity.ERROR
+    values = finding.values
+    assert values["duty"].value == pytest.approx(0.749, abs=0.002)
+    assert values["rds_on"].value == pytest.approx(1 / 18, rel=1e-3)
+    assert values["p_switching"].value == 0.0
+    assert values["i_turn_on"].value == pytest.approx(-4.97, abs=0.02)
+    cold = 4.05**2 * (1 / 18) * values["duty"].value
+    assert values["p_switch_cold"].value == pytest.approx(cold, rel=0.01)
+    hot = values["rds_on_hot"].value
+    assert hot == pytest.approx((1 / 18) * (1 + 0.007 * (values["t_junction"].value - 298.15)))
+    assert "both edges of m2 are soft" in " ".join(finding.derivation)
+    assert "R_DS(on) of" in finding.fix
+    # the bad deck's partner has no thermal resistance: not judged
+    assert {f.device for f in lint(BAD.read_text(encoding="utf-8"))} == {"rg", "m1"}
+
+
+def test_thermal_runaway_has_no_steady_temperature() -> None:
+    # 300 K/W: R_th·P_cond(25 °C)·α = 300 × 0.68 W × 0.007 ≈ 1.4 ≥ 1
+    text = HOT_LOW.read_text(encoding="utf-8").replace("rth_ja=130", "rth_ja=300")
+    (finding,) = lint(text)
+    assert finding.severity == Severity.ERROR
+    assert "no steady temperature (thermal runaway" in finding.message
+    assert "t_junction" not in finding.values
+    assert finding.values["thermal_gain"].value == pytest.approx(
+        300 * finding.values["p_switch_cold"].value * 0.007, rel=1e-6
+    )

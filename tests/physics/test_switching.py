@@ -161,3 +161,19 @@ def test_buck_switching_and_conduction_worked_through() -> None:
     assert p == pytest.approx(0.881)
     # 62 K/W from 27 °C: 27 + 0.881·62 = 81.6 °C
     assert junction_temperature(300.15, p, 62.0) - 273.15 == pytest.approx(81.62, abs=0.01)
+
+
+def test_junction_temperature_with_self_heating(ureg: pint.UnitRegistry) -> None:
+    # 1 W switching + 0.5 W conduction at 25 °C, 50 K/W, 0.7 %/K, from 25 °C: the gain is
+    # 50 × 0.5 × 0.007 = 0.175, and T_j − 25 °C = 50 × 1.5/(1 − 0.175) = 90.9 K. The fixed
+    # point holds: 25 °C + 50 × (1 + 0.5 × (1 + 0.007 × 90.9)) = 115.9 °C.
+    from drivelint.physics.switching import junction_temperature_self_heating as heating
+
+    t = heating(298.15, 1.0, 0.5, 50.0, 0.007)
+    assert t - 298.15 == pytest.approx(75.0 / 0.825)
+    assert t == pytest.approx(298.15 + 50 * (1 + 0.5 * (1 + 0.007 * (t - 298.15))))
+    u = ureg
+    q = heating(u.Quantity(25, "degC"), 1 * u.W, 0.5 * u.W, 50 * u.K / u.W, 0.007 / u.K)
+    assert q.to("K").magnitude == pytest.approx(t)
+    # each kelvin bringing a kelvin back: no steady temperature
+    assert math.isinf(heating(298.15, 0.0, 2.0, 100.0, 0.005))

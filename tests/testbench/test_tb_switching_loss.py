@@ -38,11 +38,28 @@ def test_the_clean_leg_has_no_deck(built: Outcome) -> None:
     assert not [r for r in built.records if r.finding.span.path.endswith("buck48_firm_gate.cir")]
 
 
+def test_the_low_sides_dissipation_is_confirmed_and_no_fix_deck_written(built: Outcome) -> None:
+    # ngspice: m2 dissipates 691 mW at its model's 55.6 mΩ against the rule's 682 mW (R_DS(on)
+    # as rated: the simulation does not heat the junction); the fix is another part
+    (record,) = [
+        r
+        for r in built.records
+        if r.finding.span.path.endswith("buck48_hot_low_side.cir") and r.finding.rule == RULE
+    ]
+    assert record.deck is not None and record.fixed is None
+    assert "another part" in (record.fixed_reason or "")
+    assert tuple(c.key for c in record.deck.claims) == ("p_switch_cold",)
+    needs_ngspice()
+    (claim,) = record.deck.claims
+    assert claim.verdict(record.deck.measured("p_switch_cold")) == "confirmed"
+    assert record.deck.limits_hold() is False
+
+
 @pytest.mark.parametrize(
     ("device", "keys"),
     [
         ("rg", ("t_voltage_on", "t_voltage_off")),
-        ("m1", ("p_switch", "t_voltage_on", "t_voltage_off")),
+        ("m1", ("p_switch_cold", "t_voltage_on", "t_voltage_off")),
     ],
 )
 def test_claims_confirmed_failure_shown_and_fixed(
