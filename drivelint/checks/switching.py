@@ -9,7 +9,8 @@ same intervals backwards. The transition times give the hard-switching loss
 resistance the junction temperature. Two findings: edges that take more than a set part of
 the period (judged whenever the gate path is known), and a junction above its derated or its
 absolute limit (judged only where the load current is known: a condition, or the steady
-state of an inductor into resistors; never guessed).
+state of an inductor into resistors; never guessed), for the floating switch and for its
+low-side partner.
 """
 
 from __future__ import annotations
@@ -269,13 +270,14 @@ def check_switching_loss(stage: DriveStage, ctx: CheckContext) -> Iterator[Findi
         return
     fsw = facts.fsw
     device = facts.switch
-    if fsw is None or fsw.value <= 0 or device.kind != "mosfet" or facts.modulated:
+    if fsw is None or fsw.value <= 0 or device.kind != "mosfet":
         return
     paths = gate_paths(stage, facts)
     if paths is None:
         return
     on, off = paths
-    point = operating_point(stage, facts)
+    # a modulated command switches at its carrier, its duty the loop's: edges only
+    point = None if facts.modulated else operating_point(stage, facts)
     current = point.i_rms if point is not None else None
     found = transitions(facts, stage.switch, on, off, facts.v_switched, current)
     if found is None:

@@ -67,8 +67,9 @@ def test_claims_confirmed_failure_shown_and_fixed(
 ) -> None:
     # ngspice 39 at the finding's corner (gate supply −5 %, Q_g +20 %): the node 107 ns up
     # and 248 ns down against the rule's 117 ns and 254 ns; m1 dissipates 4.64 W against
-    # the rule's 4.37 W. The fixed decks (rg 47 Ω and 27 Ω, the suggestions at this corner) keep the
-    # edges within 2 % of the period and the dissipation within what 110 °C allows.
+    # the rule's 4.35 W (R_DS(on) as rated). The fixed decks (rg 47 Ω and 27 Ω, the
+    # suggestions at this corner) keep the edges within 2 % of the period and the
+    # dissipation within what 110 °C allows (1.18 W against 1.34 W).
     record = _record(built, device)
     assert record.deck is not None
     assert tuple(c.key for c in record.deck.claims) == keys
