@@ -281,3 +281,15 @@ def test_thermal_runaway_has_no_steady_temperature() -> None:
     assert finding.values["thermal_gain"].value == pytest.approx(
         300 * finding.values["p_switch_cold"].value * 0.007, rel=1e-6
     )
+
+
+def test_a_case_resistance_gives_the_heatsink_needed() -> None:
+    # R_thJC 2 K/W: the case-to-ambient path that keeps T_j at 110 °C from 27 °C with the
+    # dissipation at that temperature, (110 − 27)/P − 2 (the series thermal path)
+    text = HOT_LOW.read_text(encoding="utf-8").replace("rth_ja=130", "rth_ja=130 rth_jc=2")
+    (finding,) = lint(text)
+    values = finding.values
+    rds = values["rds_on"].value * (1 + 0.007 * (383.15 - 298.15))
+    p_limit = values["i_rms"].value ** 2 * rds * values["duty"].value
+    assert values["rth_case_ambient_needed"].value == pytest.approx(83.0 / p_limit - 2.0)
+    assert "a heatsink: case to ambient" in finding.fix
