@@ -85,7 +85,9 @@ def _internal_gate_resistance(facts: StageFacts, device: Device) -> tuple[float,
     return 0.0, None
 
 
-def _switch(facts: StageFacts, device: Device, v_swing: float, v_gate: float) -> Switch | None:
+def switch_figures(
+    facts: StageFacts, device: Device, v_swing: float, v_gate: float
+) -> Switch | None:
     """The capacitances and threshold of ``device`` over a drain swing of ``v_swing``,
     its gate at ``v_gate`` against its source; None when they are not known."""
     ratings = facts.ratings
@@ -162,13 +164,16 @@ def _switch(facts: StageFacts, device: Device, v_swing: float, v_gate: float) ->
     return Switch(device, c_gd, c_gs, tuple(names), vth)
 
 
-def _plateau(facts: StageFacts, device: Device, vth: Value) -> Value:
+def miller_plateau(
+    facts: StageFacts, device: Device, vth: Value, current: Value | None = None
+) -> Value:
     """The Miller plateau of the switch that turns on: parts vgs_plateau, else V_th plus
-    the overdrive of the load current through the model's square law, else a default."""
+    the overdrive of the load current (``current``, else the condition load_current)
+    through the model's square law, else a default."""
     found = facts.ratings.get(device, "vgs_plateau")
     if found is not None:
         return found
-    load = facts.condition("load_current")
+    load = current if current is not None else facts.condition("load_current")
     gfs = facts.ratings.get(device, "gfs")
     if load is not None and gfs is not None and gfs.value > 0:
         # a datasheet's g_fs is a linear slope at its test current (common practice)
@@ -189,8 +194,8 @@ def _plateau(facts: StageFacts, device: Device, vth: Value) -> Value:
         return computed(
             vth.value + over,
             "V",
-            f"computed: V_th + √(2·I_load/β) = {vth.text()} + {_v(over)} (load_current "
-            f"{load.text()}, model {model.name} KP)",
+            f"computed: V_th + √(2·I_load/β) = {vth.text()} + {_v(over)} (I_load "
+            f"{load.text()} ({load.origin}), model {model.name} KP)",
         )
     return computed(
         vth.value + PLATEAU_OVERDRIVE_DEFAULT,
@@ -223,7 +228,7 @@ def _driver_resistance(
     return 0.0, f"driver {key} not known, taken as 0 Ω", None
 
 
-def _high_side_path(
+def high_side_path(
     stage: DriveStage, facts: StageFacts, up: bool, level: Value, drive: float
 ) -> GatePathFigure | None:
     """The high side's on (``up``) or off path from the recognised pull-ups/pull-downs;
@@ -290,7 +295,7 @@ def _path_figure(
     )
 
 
-def _partner_paths(
+def partner_paths(
     stage: DriveStage, facts: StageFacts, partner: Device
 ) -> tuple[GatePathFigure, GatePathFigure] | None:
     """The low-side partner's (on, off) gate paths: series resistors from its gate to the
@@ -448,14 +453,14 @@ def _edge(
     v_swing = computed(swing, "V", f"computed: bus {facts.v_bus.text()} − {facts.v_sw_low.text()}")
     drive = aggressor_on.level.value
     off = victim_off.level.value
-    victim_sw = _switch(facts, victim, swing, off)
+    victim_sw = switch_figures(facts, victim, swing, off)
     if victim_sw is None:
         return None
     vth = facts.ratings.get(aggressor, "vth")
     if vth is None:
         return None
-    plateau = _plateau(facts, aggressor, vth)
-    aggressor_sw = _switch(facts, aggressor, swing, plateau.value)
+    plateau = miller_plateau(facts, aggressor, vth)
+    aggressor_sw = switch_figures(facts, aggressor, swing, plateau.value)
     if aggressor_sw is None or drive <= plateau.value or aggressor_on.resistance.value <= 0:
         return None
     current = gate_current_turn_on(drive, plateau.value, aggressor_on.resistance.value)
@@ -491,15 +496,15 @@ def edges(stage: DriveStage, facts: StageFacts) -> list[Edge]:
     partner = facts.device(partner_name)
     if partner is None or partner.kind != "mosfet" or stage.channel != "nmos":
         return []
-    paths = _partner_paths(stage, facts, partner)
+    paths = partner_paths(stage, facts, partner)
     drive = facts.v_boot_max
     out: list[Edge] = []
     if paths is None or drive is None:
         return out
     partner_on, partner_off = paths
-    high_on = _high_side_path(stage, facts, True, drive, drive.value)
+    high_on = high_side_path(stage, facts, True, drive, drive.value)
     zero = Value(0.0, "V", f"the pull-down returns to {stage.switch}'s source")
-    high_off = _high_side_path(stage, facts, False, zero, drive.value)
+    high_off = high_side_path(stage, facts, False, zero, drive.value)
     currents = edge_currents(stage, facts)
     # the high side's turn-on swings the node unless the load current flows into it then
     high_hard = currents is None or currents[0] > 0 or facts.modulated
@@ -527,6 +532,24 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
     into the node at the low side's turn-on, likewise by the low side. A modulated command
     (the duty is the loop's) is not estimated.
     """
+    load = inductor_load(stage, facts)
+    if load is None or facts.v_bus is None or facts.duty_max is None or facts.fsw is None:
+        return None
+    henries, v_ref, conductance = load
+    return dvdt.load_current_at_edges(
+        facts.v_bus.value,
+        facts.v_sw_low.value,
+        facts.duty_max.value,
+        facts.fsw.value,
+        henries,
+        v_ref,
+        conductance,
+    )
+
+
+def inductor_load(stage: DriveStage, facts: StageFacts) -> tuple[float, float, float] | None:
+    """(L [H], V_ref [V], G [S]) of a switch node whose load is one inductor into resistors
+    (and capacitors) to fixed levels, with a steady duty and frequency; None otherwise."""
     if facts.modulated or facts.v_bus is None:
         return None
     duty, fsw = facts.duty_max, facts.fsw
@@ -560,9 +583,7 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
             conductance += 1.0 / ohms
             pulled += level / ohms
     v_ref = pulled / conductance if conductance else 0.0
-    return dvdt.load_current_at_edges(
-        facts.v_bus.value, facts.v_sw_low.value, duty.value, fsw.value, henries, v_ref, conductance
-    )
+    return henries, v_ref, conductance
 
 
 def _partner_edge_hard(stage: DriveStage, facts: StageFacts) -> bool:

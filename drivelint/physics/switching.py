@@ -18,6 +18,7 @@ from drivelint.physics._units import (
     Watts,
     _coerce,
     _ratio,
+    _unit_of,
 )
 
 
@@ -149,3 +150,80 @@ def resistor_share(p_edge: Watts, r: Ohms, r_path: Ohms) -> Watts:
     the driver's output and the switch's internal gate resistance included [Ohm].
     """
     return p_edge * _ratio(r, r_path)
+
+
+def edge_fraction(t_on: Seconds, t_off: Seconds, f: Hertz) -> Ratio:
+    """The part of each period the switch spends in transition: (t_on + t_off)·f.
+
+    t_on, t_off: the turn-on and turn-off transition times (current and voltage overlap)
+    [s]; f: switching frequency [Hz].
+    """
+    return (t_on + t_off) * f
+
+
+def current_rise_charge(q_gs: Coulombs) -> Coulombs:
+    """The part of Q_gs the gate takes between the threshold and the plateau, Q_gs2 ≈ ½·Q_gs.
+
+    The datasheet's Q_gs runs from 0 V to the plateau; the current only flows above V_th,
+    and power MOSFETs put the threshold roughly half-way up that charge (common practice,
+    e.g. Vishay Siliconix AN608A's gate-charge intervals — from memory). q_gs: gate–source
+    charge to the plateau [C].
+    """
+    return 0.5 * q_gs
+
+
+def rds_on_at_temperature(
+    r_ds_on: Ohms, t_junction: Kelvin, tempco: float, t_rated: Kelvin = 298.15
+) -> Ohms:
+    """On-resistance at the junction temperature: R_DS(on)·(1 + α·(T_j − T_rated)).
+
+    Silicon MOSFETs' R_DS(on) rises about 0.5–1 %/K, some 1.5–2× at 125 °C against 25 °C
+    (common practice; datasheets' normalised R_DS(on)-vs-T_j curves). r_ds_on: at
+    ``t_rated`` [Ohm]; t_junction: [K]; tempco: α [1/K]; t_rated: [K] (25 °C).
+    """
+    t_j = _coerce(t_junction, t_junction, "K", t_junction)
+    rise = t_j - _coerce(t_rated, t_rated, "K", t_j)
+    factor = 1.0 + tempco * rise
+    return r_ds_on * max(factor, 0.0 * factor)
+
+
+def heatsink_resistance_needed(
+    t_limit: Kelvin, t_ambient: Kelvin, p: Watts, r_th_jc: KelvinPerWatt
+) -> KelvinPerWatt:
+    """Case-to-ambient thermal resistance (interface + heatsink) that keeps T_j at t_limit:
+    R_th,ca = (T_limit − T_a)/P − R_thJC (the series thermal path, textbook).
+
+    t_limit: allowed junction temperature [K]; t_ambient: [K]; p: dissipation [W];
+    r_th_jc: junction-to-case thermal resistance [K/W]. Negative: no heatsink is enough.
+    """
+    t_lim = _coerce(t_limit, t_limit, "K", t_limit)
+    t_a = _coerce(t_ambient, t_ambient, "K", t_lim)
+    return (t_lim - t_a) / p - r_th_jc
+
+
+def junction_temperature_self_heating(
+    t_ambient: Kelvin,
+    p_fixed: Watts,
+    p_cond_rated: Watts,
+    r_th_ja: KelvinPerWatt,
+    tempco: float,
+    t_rated: Kelvin = 298.15,
+) -> Kelvin:
+    """Steady T_j with a conduction loss that rises with it: the fixed point of
+    T_j = T_a + R_th·(P_fixed + P_cond,rated·(1 + α·(T_j − T_rated))), in closed form
+    T_j = (T_a + R_th·(P_fixed + P_cond,rated·(1 − α·T_rated)))/(1 − R_th·P_cond,rated·α)
+    (the thermal Ohm's law with R_DS(on) linear in T_j, as :func:`rds_on_at_temperature`).
+    Infinite when R_th·P_cond,rated·α ≥ 1: each kelvin adds more than a kelvin (thermal
+    runaway), no steady temperature.
+
+    t_ambient [K]; p_fixed: the losses that do not depend on T_j (switching) [W];
+    p_cond_rated: the conduction loss with R_DS(on) at ``t_rated`` [W]; r_th_ja [K/W];
+    tempco: α [1/K]; t_rated: [K].
+    """
+    t_a = _coerce(t_ambient, t_ambient, "K", t_ambient)
+    t_r = _coerce(t_rated, t_rated, "K", t_a)
+    gain = _ratio(r_th_ja * p_cond_rated * tempco, 1.0)
+    if gain >= 1.0:
+        return math.inf * _unit_of(t_a)
+    numerator = t_a + r_th_ja * (p_fixed + p_cond_rated * (1.0 - tempco * t_r))
+    return numerator / (1.0 - gain)

@@ -114,6 +114,9 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "gate-pulldown-missing": ("vgs_induced",),
     "gate-pulldown-missing/fixed": ("vgs_induced_with_fix",),
     "gate-pulldown-missing/pulled on": ("vgs_pulled_on",),
+    "switching-loss/edge": ("t_voltage_on", "t_voltage_off"),
+    "switching-loss/junction": ("p_switch_cold", "t_voltage_on", "t_voltage_off"),
+    "switching-loss/partner junction": ("p_switch_cold",),
 }
 # Kinds whose figures take the supplies at their highest (stresses); the others take the
 # auxiliary rail at its lowest (hold and headroom figures). The bus is at its highest in
@@ -142,6 +145,7 @@ STRESS_KINDS = frozenset(
 CORNER_USES: Mapping[str, frozenset[str]] = {
     "bootstrap-diode-voltage": frozenset({"bus"}),
     "driver-decoupling": frozenset(),
+    "switching-loss": frozenset({"supply", "charge", "bus"}),
 }
 # Claims that are bounds rather than estimates (the finding says "up to").
 SENSES: Mapping[str, str] = {
@@ -477,6 +481,11 @@ def finding_kind(finding: Finding, stage: DriveStage) -> str:
         return "cross-conduction/" + ("overlap" if "command_overlap" in values else "dead time")
     if finding.rule == "gate-pulldown-missing" and "vgs_turn_on" in values:
         return "gate-pulldown-missing/pulled on"
+    if finding.rule == "switching-loss":
+        if "edge_fraction" in values:
+            return "switching-loss/edge"
+        partner = finding.device != stage.switch
+        return "switching-loss/" + ("partner junction" if partner else "junction")
     if finding.rule != "gate-overvoltage":
         return finding.rule
     return f"gate-overvoltage/{_gate_kind(finding, stage)}"
@@ -2182,7 +2191,128 @@ def induced_turn_on(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+# ---------------------------------------------------------------- switching-loss
+
+# The edges and the dissipation are read this many periods in, after the design's own start
+# (its inductor and output capacitor near their steady state), over SWITCH_READ periods.
+SWITCH_CYCLES = 30
+SWITCH_READ = 2
+# 10–90 % of the swing: the middle of the plateau, clear of the edge's corners.
+EDGE_LOW, EDGE_HIGH = 0.1, 0.9
+
+
+def _edge_card(
+    name: str, vector: str, low: float, high: float, at_time: float, rises: bool
+) -> Card:
+    edge = "RISE=1" if rises else "FALL=1"
+    first, second = (low, high) if rises else (high, low)
+    return Card(
+        name,
+        f".meas tran {name} TRIG {vector} VAL={number(first)} TD={number(at_time)} {edge} "
+        f"TARG {vector} VAL={number(second)} TD={number(at_time)} {edge}",
+        f"the switch node's {'rise' if rises else 'fall'} from {EDGE_LOW:.0%} to "
+        f"{EDGE_HIGH:.0%} of its swing",
+    )
+
+
+def switching_loss(ctx: BenchContext) -> Bench | Declined:
+    """The leg at the design's own command (or the rule's pulse train), SWITCH_CYCLES periods
+    in: the switch node's 10–90 % rise at turn-on and fall at turn-off, scaled to the whole
+    swing, and the switch's average dissipation V_DS·I_D over SWITCH_READ periods."""
+    stage, facts = ctx.stage, ctx.facts
+    kind = finding_kind(ctx.finding, stage)
+    # the junction finding's switch (the floating one or its partner); the edges' finding
+    # names the gate resistor, and the floating switch is probed
+    judged = ctx.finding.device if kind.endswith("junction") else stage.switch
+    device = ctx.circuit.devices.get(judged)
+    fsw, bus = facts.fsw, facts.v_bus
+    if device is None or device.kind != "mosfet" or fsw is None or bus is None:
+        return Declined("the finding's switch, frequency or bus cannot be found")
+    drain, source = device.net("d"), device.net("s")
+    if drain is None or source is None:
+        return Declined(f"{device.name}'s drain or source cannot be probed")
+    laid_out = _own_or_periodic(ctx, "the leg switching at its own command")
+    if isinstance(laid_out, Declined):
+        return laid_out
+    schedule, edits, notes = laid_out
+    window = _window(schedule, SWITCH_CYCLES)
+    if isinstance(window, Declined):
+        return window
+    start, end = window
+    period = 1.0 / fsw.value
+    low, swing = facts.v_sw_low.value, facts.v_switched
+    node = voltage(stage.source)
+    level_low, level_high = low + EDGE_LOW * swing, low + EDGE_HIGH * swing
+    share = EDGE_HIGH - EDGE_LOW
+    cards = [
+        _edge_card("tb_rise", node, level_low, level_high, start, True),
+        _edge_card("tb_fall", node, level_low, level_high, end, False),
+        expression("t_voltage_on", f"tb_rise/{share:g}", "the turn-on swing, whole"),
+        expression("t_voltage_off", f"tb_fall/{share:g}", "the turn-off swing, whole"),
+        expression(
+            "tb_edge_fraction",
+            f"(t_voltage_on+t_voltage_off)*{number(fsw.value)}",
+            "the part of the period the node spends swinging (its current edges not counted)",
+        ),
+    ]
+    limits: list[Limit] = []
+    stop = end + SETTLE_AFTER
+    if kind.endswith("junction"):
+        probe = series_ammeter(ctx, device, "c", "drain")
+        if isinstance(probe, Declined):
+            return probe
+        current, ammeter = probe
+        edits = merge_edits(edits, ammeter)
+        read_to = start + SWITCH_READ * period
+        vds = f"(v({drain})-{'0' if source == GROUND else voltage(source)})"
+        cards.append(
+            average(
+                "p_switch_cold",
+                f"par('{vds}*{current}')",
+                start,
+                read_to,
+                f"{device.name}'s average V_DS·I_D over {SWITCH_READ} periods",
+            )
+        )
+        stop = max(stop, read_to + SETTLE_AFTER)
+        limit, ambient = ctx.value("t_junction_limit"), ctx.value("ambient")
+        rth = ctx.value("rth_ja")
+        if limit is not None and ambient is not None and rth:
+            limits.append(
+                Limit(
+                    "p_switch_cold",
+                    (limit - ambient) / rth,
+                    "<=",
+                    f"{device.name} dissipates no more than its junction's limit allows "
+                    "(R_DS(on) as the model gives it: its rise with T_j is not simulated)",
+                    "W",
+                )
+            )
+    else:
+        allowed = ctx.value("edge_fraction_max")
+        if allowed is not None:
+            limits.append(
+                Limit(
+                    "tb_edge_fraction",
+                    allowed,
+                    "<=",
+                    "the node's swings take no more than the allowed part of the period",
+                )
+            )
+    return Bench(
+        edits=edits,
+        stop=min(stop, MAX_STOP),
+        step=analysis_step(ctx.design, stop, period / 2000),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=tuple(limits),
+        notes=notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
 BUILDERS: Mapping[str, Builder] = {
+    "switching-loss": switching_loss,
     "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,

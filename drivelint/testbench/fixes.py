@@ -660,8 +660,35 @@ def _moved_on_edge(
 
 def induced_turn_on(ctx: BenchContext) -> Fix | Declined:
     """The off switch's gate resistor set to the finding's suggested value."""
-    suggested = ctx.value("suggested_gate_resistor")
+    return _suggested_gate_resistor(ctx, ctx.finding.device)
+
+
+def switching_loss(ctx: BenchContext) -> Fix | Declined:
+    """The switch's gate resistor (the one its turn-on and turn-off share) set to the
+    finding's suggested value."""
+    from drivelint.checks.induced import partner_paths
+    from drivelint.checks.switching import gate_paths
+
     name = ctx.finding.device
+    device = ctx.circuit.devices.get(name)
+    if device is not None and device.kind == "resistor":
+        return _suggested_gate_resistor(ctx, name)  # the edges' finding names it
+    if device is None or name == ctx.stage.switch:
+        paths = gate_paths(ctx.stage, ctx.facts)
+    else:
+        paths = partner_paths(ctx.stage, ctx.facts, device)
+    if ctx.value("suggested_gate_resistor") is None:
+        return Declined(
+            "the fix is another part (a lower R_DS(on)) or a heatsink, not a value in the netlist"
+        )
+    if paths is None or not paths[0].resistors:
+        return Declined("the finding's gate path has no resistor to change")
+    return _suggested_gate_resistor(ctx, paths[0].resistors[0])
+
+
+def _suggested_gate_resistor(ctx: BenchContext, name: str) -> Fix | Declined:
+    """The resistor ``name`` set to the finding's suggested_gate_resistor."""
+    suggested = ctx.value("suggested_gate_resistor")
     device = ctx.circuit.devices.get(name)
     if suggested is None or device is None or device.kind != "resistor":
         return Declined("the finding suggests no gate resistor value")
@@ -717,6 +744,7 @@ def gate_pulldown(ctx: BenchContext) -> Fix | Declined:
 
 
 APPLIERS: Mapping[str, Applier] = {
+    "switching-loss": switching_loss,
     "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,

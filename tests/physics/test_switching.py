@@ -13,10 +13,14 @@ import pytest
 
 from drivelint.physics.switching import (
     conduction_loss,
+    current_rise_charge,
+    edge_fraction,
     gate_current_turn_off,
     gate_current_turn_on,
     gate_drive_power,
+    heatsink_resistance_needed,
     junction_temperature,
+    rds_on_at_temperature,
     resistor_share,
     shoot_through_current,
     switching_loss,
@@ -106,3 +110,70 @@ def test_shoot_through_bound(ureg: pint.UnitRegistry) -> None:
     u = ureg
     i = shoot_through_current(60 * u.V, 18 * u.mohm, 18 * u.mohm, 4 * u.mohm)
     assert i.check("[current]") and i.to("A").magnitude == pytest.approx(1500.0)
+
+
+def test_edge_fraction_and_current_rise_charge(ureg: pint.UnitRegistry) -> None:
+    # (t_on + t_off)·f: 100 ns + 150 ns at 80 kHz = 2 % of the period (numbers of our own)
+    u = ureg
+    share = edge_fraction(100 * u.ns, 150 * u.ns, 80 * u.kHz)
+    assert share.to("dimensionless").magnitude == pytest.approx(0.02)
+    assert edge_fraction(100e-9, 150e-9, 80e3) == pytest.approx(0.02)
+    # Q_gs2 ≈ ½·Q_gs (common practice): 12 nC → 6 nC
+    assert current_rise_charge(12 * u.nC).to("nC").magnitude == pytest.approx(6.0)
+
+
+def test_rds_on_at_temperature(ureg: pint.UnitRegistry) -> None:
+    # 0.7 %/K above 25 °C: 1.7× at 125 °C, inside the usual 1.5–2× (common practice)
+    u = ureg
+    hot = rds_on_at_temperature(10 * u.mohm, u.Quantity(125, "degC"), 0.007 / u.K)
+    assert hot.to("mohm").magnitude == pytest.approx(17.0)
+    assert rds_on_at_temperature(0.010, 398.15, 0.007) == pytest.approx(0.017)
+    # never negative, far below the rating temperature
+    assert rds_on_at_temperature(0.010, 0.0, 0.007) == 0.0
+
+
+def test_heatsink_resistance_needed(ureg: pint.UnitRegistry) -> None:
+    # the series thermal path (textbook): 110 °C allowed, 40 °C ambient, 5 W, R_thJC 2 K/W
+    # → (110 − 40)/5 − 2 = 12 K/W from case to ambient (numbers of our own)
+    u = ureg
+    r = heatsink_resistance_needed(
+        u.Quantity(110, "degC"), u.Quantity(40, "degC"), 5 * u.W, 2 * u.K / u.W
+    )
+    assert r.to("K/W").magnitude == pytest.approx(12.0)
+    assert heatsink_resistance_needed(383.15, 313.15, 5.0, 2.0) == pytest.approx(12.0)
+
+
+def test_buck_switching_and_conduction_worked_through() -> None:
+    """The gate-charge intervals and the overlap loss worked through by hand for a
+    100 kHz, 48 V, 5 A hard-switched leg (textbook relations: Erickson & Maksimović, P_sw
+    and I²·R·D; the gate-charge intervals of power-MOSFET application notes, from memory;
+    numbers of our own): a 12 V drive through 10 Ω total, plateau 5 V, V_th 3 V,
+    Q_gs2 = 4 nC, Q_gd = 14 nC."""
+    i_on = gate_current_turn_on(12.0, 5.0, 10.0)  # 0.7 A
+    i_rise = gate_current_turn_on(12.0, 4.0, 10.0)  # 0.8 A, mid-way from V_th to V_pl
+    i_off = gate_current_turn_off(5.0, 10.0)  # 0.5 A
+    i_fall = gate_current_turn_off(4.0, 10.0)  # 0.4 A
+    t_on = transition_time(4e-9, i_rise) + transition_time(14e-9, i_on)  # 5 + 20 ns
+    t_off = transition_time(14e-9, i_off) + transition_time(4e-9, i_fall)  # 28 + 10 ns
+    assert t_on == pytest.approx(25e-9) and t_off == pytest.approx(38e-9)
+    # ½·48·5·63 ns·100 kHz = 0.756 W; (5 A)²·20 mΩ·0.25 = 0.125 W
+    p = switching_loss(48.0, 5.0, t_on, t_off, 100e3) + conduction_loss(5.0, 0.020, 0.25)
+    assert p == pytest.approx(0.881)
+    # 62 K/W from 27 °C: 27 + 0.881·62 = 81.6 °C
+    assert junction_temperature(300.15, p, 62.0) - 273.15 == pytest.approx(81.62, abs=0.01)
+
+
+def test_junction_temperature_with_self_heating(ureg: pint.UnitRegistry) -> None:
+    # 1 W switching + 0.5 W conduction at 25 °C, 50 K/W, 0.7 %/K, from 25 °C: the gain is
+    # 50 × 0.5 × 0.007 = 0.175, and T_j − 25 °C = 50 × 1.5/(1 − 0.175) = 90.9 K. The fixed
+    # point holds: 25 °C + 50 × (1 + 0.5 × (1 + 0.007 × 90.9)) = 115.9 °C.
+    from drivelint.physics.switching import junction_temperature_self_heating as heating
+
+    t = heating(298.15, 1.0, 0.5, 50.0, 0.007)
+    assert t - 298.15 == pytest.approx(75.0 / 0.825)
+    assert t == pytest.approx(298.15 + 50 * (1 + 0.5 * (1 + 0.007 * (t - 298.15))))
+    u = ureg
+    q = heating(u.Quantity(25, "degC"), 1 * u.W, 0.5 * u.W, 50 * u.K / u.W, 0.007 / u.K)
+    assert q.to("K").magnitude == pytest.approx(t)
+    # each kelvin bringing a kelvin back: no steady temperature
+    assert math.isinf(heating(298.15, 0.0, 2.0, 100.0, 0.005))

@@ -74,6 +74,10 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
     ),
     "induced-turn-on": (("vgs_peak", "vth"), ("r_off", "r_off_max")),
     "gate-pulldown-missing": (("vgs_induced", "vth"), ("vgs_turn_on", "vth")),
+    "switching-loss": (
+        ("t_junction", "t_junction_limit"),
+        ("edge_fraction", "edge_fraction_max"),
+    ),
 }
 
 
