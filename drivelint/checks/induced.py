@@ -162,13 +162,14 @@ def _switch(facts: StageFacts, device: Device, v_swing: float, v_gate: float) ->
     return Switch(device, c_gd, c_gs, tuple(names), vth)
 
 
-def _plateau(facts: StageFacts, device: Device, vth: Value) -> Value:
+def _plateau(facts: StageFacts, device: Device, vth: Value, load: Value | None = None) -> Value:
     """The Miller plateau of the switch that turns on: parts vgs_plateau, else V_th plus
-    the overdrive of the load current through the model's square law, else a default."""
+    the overdrive of the load current (the condition, else ``load``) through the model's
+    square law, else a default."""
     found = facts.ratings.get(device, "vgs_plateau")
     if found is not None:
         return found
-    load = facts.condition("load_current")
+    load = facts.condition("load_current") or load
     gfs = facts.ratings.get(device, "gfs")
     if load is not None and gfs is not None and gfs.value > 0:
         # a datasheet's g_fs is a linear slope at its test current (common practice)
@@ -189,7 +190,7 @@ def _plateau(facts: StageFacts, device: Device, vth: Value) -> Value:
         return computed(
             vth.value + over,
             "V",
-            f"computed: V_th + √(2·I_load/β) = {vth.text()} + {_v(over)} (load_current "
+            f"computed: V_th + √(2·I_load/β) = {vth.text()} + {_v(over)} (I_load "
             f"{load.text()}, model {model.name} KP)",
         )
     return computed(

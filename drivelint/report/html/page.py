@@ -74,6 +74,7 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
     ),
     "induced-turn-on": (("vgs_peak", "vth"), ("r_off", "r_off_max")),
     "gate-pulldown-missing": (("vgs_induced", "vth"), ("vgs_turn_on", "vth")),
+    "switch-node-undershoot": (("v_undershoot", "vs_min"), ("v_boot_undershoot", "v_limit")),
 }
 
 
