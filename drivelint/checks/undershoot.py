@@ -175,6 +175,11 @@ def commutation_edge(stage: DriveStage, facts: StageFacts) -> Commutation | None
         else "no stray inductance written on the loop",
     )
     v_us = commutation.switch_node_undershoot(v_f.value, henries, rate)
+    held = _boot_path_hold(stage, facts, load.value, henries)
+    boot_holds = held is not None and held < -v_us
+    if held is not None and boot_holds:
+        # the boot path takes the current the loop cannot yet, and holds the node there
+        v_us = -held
     return Commutation(
         device.name,
         load,
@@ -189,8 +194,36 @@ def commutation_edge(stage: DriveStage, facts: StageFacts) -> Commutation | None
         g_m,
         di_dt,
         computed(load.value / rate, "s", "computed: I_load/(di/dt)"),
-        computed(v_us, "V", "computed: −(V_F + L_s·di/dt)"),
+        computed(
+            v_us,
+            "V",
+            "computed: the boot path's hold, −(I_load·R_path + ΔV_boot)"
+            if boot_holds
+            else "computed: −(V_F + L_s·di/dt)",
+        ),
     )
+
+
+def _boot_path(facts: StageFacts) -> tuple[float, float] | None:
+    """(R_path, C_boot) of the bootstrap's charge path, where known."""
+    tau, c_hold = facts._refill_tau, facts.c_hold
+    if facts.stage.supply.kind != "bootstrap" or tau is None or c_hold is None:
+        return None
+    if not c_hold.value > 0:
+        return None
+    return tau / c_hold.value, c_hold.value
+
+
+def _boot_path_hold(
+    stage: DriveStage, facts: StageFacts, i_load: float, l_s: float
+) -> float | None:
+    """How far below the common the boot path holds the node while it carries the load
+    current: I_load·R_path + the capacitor's rise (a bound on the undershoot's depth)."""
+    path = _boot_path(facts)
+    if path is None or not l_s > 0:
+        return None
+    r_path, c_hold = path
+    return i_load * r_path + commutation.boot_path_overcharge(i_load, l_s, r_path, c_hold)
 
 
 def check_switch_node_undershoot(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:
@@ -320,10 +353,10 @@ def _boot_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Fi
     cap = stage.supply.capacitor
     if stage.supply.kind != "bootstrap" or cap is None or facts.v_boot_max is None:
         return None
-    c_hold = facts.c_hold
-    tau = facts._refill_tau
-    if c_hold is None or tau is None:
+    path = _boot_path(facts)
+    if path is None:
         return None
+    r_path, c_hold = path
     limits: list[tuple[Value, str]] = []
     vgs_max = facts.ratings.get(facts.switch, "vgs_max")
     if vgs_max is not None:
@@ -335,10 +368,7 @@ def _boot_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Fi
         return None
     limit, what = min(limits, key=lambda pair: pair[0].value)
     before = facts.v_boot_max.value
-    rc_share = commutation.boot_overcharge(edge.step, edge.t_fall.value, tau)
-    # the diode cannot take more than the load current for the fall's length
-    charge_bound = edge.i_load.value * edge.t_fall.value / c_hold.value
-    extra = min(rc_share, charge_bound)
+    extra = commutation.boot_path_overcharge(edge.i_load.value, edge.l_s.value, r_path, c_hold)
     peak = before + extra
     if peak <= limit.value or before > limit.value:
         return None  # within the rating; or over it already (gate-overvoltage's)
@@ -350,38 +380,33 @@ def _boot_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Fi
         "dv_boot": computed(
             extra,
             "V",
-            "computed: L_s·di/dt × (1 − exp(−t_fall/τ)), at most I_load·t_fall/C_boot",
+            "computed: I_load·√(L_s/C_boot)·exp(−ζ·φ(ζ)), the series L_s, R_path, C_boot",
         ),
-        "tau_charge": computed(tau, "s", "computed: (R_series + R_S,diode)·C_boot"),
+        "r_boot_path": computed(r_path, "Ohm", "computed: series resistors + the diode's RS"),
         "v_limit": Value(limit.value, "V", f"{what} ({limit.origin})"),
     }
     fixes = []
-    if rc_share <= charge_bound:
-        # the path's RC sets it: a resistor, or less inductance (it grows with L_s in
-        # proportion; the fall's length does not depend on it)
-        r_series = commutation.min_series_resistance(
-            edge.step, room, edge.t_fall.value, c_hold.value, tau / c_hold.value
+    r_series = commutation.min_series_resistance(
+        edge.i_load.value, edge.l_s.value, c_hold, r_path, room
+    )
+    if math.isfinite(r_series) and r_series > 0:
+        chosen = next_preferred(r_series, "E12")
+        values["suggested_series_resistor"] = computed(
+            chosen,
+            "Ohm",
+            "computed: the E12 value at or above the resistance whose ΔV_boot is the room left",
         )
-        if math.isfinite(r_series) and r_series > 0:
-            chosen = next_preferred(r_series, "E12")
-            values["suggested_series_resistor"] = computed(
-                chosen, "Ohm", "computed: E12 at or above t_fall/(C·ln(ΔV/(ΔV − room))) − R_path"
-            )
-            fixes.append(
-                f"put {format_si(chosen, 'Ω')} in series with the boot diode "
-                f"{stage.supply.diode} (it slows the refresh: check the recharge)"
-            )
-        l_ok = edge.l_s.value * room / extra
-        values["l_s_max"] = computed(l_ok, "H", "computed: L_s·room/ΔV_boot")
         fixes.append(
-            f"cut the loop inductance ({', '.join(edge.strays)}: {edge.l_s.text()}) to at "
-            f"most {_nh(l_ok)}"
+            f"put {format_si(chosen, 'Ω')} in series with the boot diode "
+            f"{stage.supply.diode} (it slows the refresh: check the recharge)"
         )
-    else:
-        fixes.append(
-            f"slow the high side's turn-off (the load current the diode passes into {cap} "
-            "grows with the fall's length, so only a clamp or a lower current helps here)"
-        )
+    # ΔV_boot grows with L_s (as √L_s with little resistance, as L_s with much)
+    l_ok = edge.l_s.value * (room / extra) ** 2
+    values["l_s_max"] = computed(l_ok, "H", "computed: L_s·(room/ΔV_boot)², a lower estimate")
+    fixes.append(
+        f"cut the loop inductance ({', '.join(edge.strays)}: {edge.l_s.text()}) to "
+        f"{_nh(l_ok)} or less"
+    )
     fixes.append("clamp the switch pin to the common with a Schottky diode at the driver's pins")
     message = (
         f"while {stage.driver.device if stage.driver else 'the driver'}'s switch pin swings "
@@ -391,9 +416,8 @@ def _boot_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Fi
     fix = "; or ".join(fixes) + "."
     derivation = (
         *_derivation(edge),
-        f"ΔV_boot = min(L_s·di/dt × (1 − exp(−t_fall/τ)), I_load·t_fall/C_boot) with "
-        f"L_s·di/dt = {_v(edge.step)}, t_fall = {edge.t_fall.text()}, τ = "
-        f"{format_si(tau, 's')}: {_v(extra)}",
+        f"ΔV_boot = I_load·√(L_s/C_boot)·exp(−ζ·φ(ζ)) with R_path {format_si(r_path, 'Ω')}, "
+        f"C_boot {format_si(c_hold, 'F')}: {_v(extra)}",
         f"V_boot = V_boot,max + ΔV_boot = {facts.v_boot_max.text()} + {_v(extra)} = "
         f"{_v(peak)} against {what} {limit.text()}",
     )

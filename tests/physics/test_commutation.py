@@ -69,16 +69,40 @@ def test_current_fall_time_is_the_third_interval_of_the_turn_off() -> None:
 
 
 def test_boot_overcharge_and_its_resistor() -> None:
-    # 30 V for 10 ns through τ = 20 ns: 30·(1 − e^−0.5) = 11.80 V
+    # 30 V for 10 ns through τ = 20 ns: 30·(1 − e^−0.5) = 11.80 V (the RC step, dead time)
     assert commutation.boot_overcharge(30.0, 10e-9, 20e-9) == pytest.approx(
         30 * (1 - math.exp(-0.5))
     )
     assert commutation.charge_fraction(1e-9, 0.0) == 1.0
-    r = commutation.min_series_resistance(30.0, 2.0, 10e-9, 100e-9, 0.2)
-    tau = (r + 0.2) * 100e-9
-    assert commutation.boot_overcharge(30.0, 10e-9, tau) == pytest.approx(2.0)
-    assert commutation.min_series_resistance(30.0, 40.0, 10e-9, 100e-9, 0.2) == 0.0
-    assert math.isinf(commutation.min_series_resistance(30.0, 0.0, 10e-9, 100e-9, 0.2))
+    # the series RLC: no resistance, the inductor's energy into C, ½·L·I² = ½·C·ΔV²
+    inductance, c, i = 15e-9, 100e-9, 20.0
+    assert commutation.boot_path_overcharge(i, inductance, 0.0, c) == pytest.approx(
+        i * math.sqrt(inductance / c)
+    )
+    # much resistance: the RC path's share of the L·I volt-seconds, I·L/(R·C)
+    assert commutation.boot_path_overcharge(i, inductance, 50.0, c) == pytest.approx(
+        i * inductance / (50.0 * c), rel=0.02
+    )
+    # critically damped (ζ = 1): I·Z0/e
+    z0 = math.sqrt(inductance / c)
+    assert commutation.boot_path_overcharge(i, inductance, 2 * z0, c) == pytest.approx(
+        i * z0 / math.e
+    )
+    # continuous through ζ = 1 and falling with the resistance
+    near = [
+        commutation.boot_path_overcharge(i, inductance, 2 * z0 * k, c) for k in (0.999, 1.0, 1.001)
+    ]
+    assert near[0] == pytest.approx(near[1], rel=1e-3)
+    assert near[2] == pytest.approx(near[1], rel=1e-3)
+    assert near[0] > near[2]
+    # ζ = 0.26: exp(−ζ·acos ζ/√(1 − ζ²)) = 0.703 of I·Z0 (by hand: 7.75 V × 0.703 = 5.45 V)
+    assert commutation.boot_path_overcharge(i, inductance, 0.2, c) == pytest.approx(5.45, abs=0.01)
+    r = commutation.min_series_resistance(i, inductance, c, 0.2, 2.0)
+    assert commutation.boot_path_overcharge(i, inductance, r + 0.2, c) == pytest.approx(
+        2.0, rel=2e-3
+    )
+    assert commutation.min_series_resistance(i, inductance, c, 0.2, 40.0) == 0.0
+    assert math.isinf(commutation.min_series_resistance(i, inductance, c, 0.2, 0.0))
 
 
 def test_with_pint(ureg: pint.UnitRegistry) -> None:
@@ -98,9 +122,13 @@ def test_with_pint(ureg: pint.UnitRegistry) -> None:
     assert commutation.boot_overcharge(q(30, "V"), q(10, "ns"), q(20, "ns")).to(
         "V"
     ).magnitude == pytest.approx(30 * (1 - math.exp(-0.5)))
+    dv = commutation.boot_path_overcharge(q(20, "A"), q(15, "nH"), q(0.2, "ohm"), q(100, "nF"))
+    assert dv.to("V").magnitude == pytest.approx(5.45, abs=0.01)
     r = commutation.min_series_resistance(
-        q(30, "V"), q(2, "V"), q(10, "ns"), q(100, "nF"), q(0.2, "ohm")
+        q(20, "A"), q(15, "nH"), q(100, "nF"), q(0.2, "ohm"), q(2, "V")
     )
-    assert r.to("ohm").magnitude > 0
+    assert r.to("ohm").magnitude == pytest.approx(
+        commutation.min_series_resistance(20.0, 15e-9, 100e-9, 0.2, 2.0), rel=1e-6
+    )
     t3 = switching.current_fall_time(q(10, "ohm"), q(2, "nF"), q(5, "V"), q(3, "V"))
     assert t3.to("ns").magnitude == pytest.approx(20 * math.log(5 / 3))
