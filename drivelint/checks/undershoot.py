@@ -32,7 +32,7 @@ from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
 from drivelint.physics import commutation
 from drivelint.physics import gate as gate_physics
-from drivelint.physics.preferred import next_preferred
+from drivelint.physics.preferred import next_preferred, previous_preferred
 from drivelint.ratings.values import Value, computed
 from drivelint.stages.model import DriveStage
 
@@ -299,7 +299,10 @@ def _vs_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Find
     values = {**_common_values(edge), "vs_min": limit}
     fixes = []
     if l_max > 0:
-        values["l_s_max"] = computed(l_max, "H", "computed: (|vs_min| − V_F)/(di/dt)")
+        l_max = previous_preferred(l_max, "E12")
+        values["l_s_max"] = computed(
+            l_max, "H", "computed: (|vs_min| − V_F)/(di/dt), the E12 value at or below it"
+        )
         fixes.append(
             f"cut the loop inductance ({', '.join(edge.strays)}: {edge.l_s.text()}) to at most "
             f"{_nh(l_max)}: the low side's source and the driver's common on one short, wide "
@@ -401,8 +404,10 @@ def _boot_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Fi
             f"{stage.supply.diode} (it slows the refresh: check the recharge)"
         )
     # ΔV_boot grows with L_s (as √L_s with little resistance, as L_s with much)
-    l_ok = edge.l_s.value * (room / extra) ** 2
-    values["l_s_max"] = computed(l_ok, "H", "computed: L_s·(room/ΔV_boot)², a lower estimate")
+    l_ok = previous_preferred(edge.l_s.value * (room / extra) ** 2, "E12")
+    values["l_s_max"] = computed(
+        l_ok, "H", "computed: L_s·(room/ΔV_boot)² (a lower estimate), the E12 value at or below"
+    )
     fixes.append(
         f"cut the loop inductance ({', '.join(edge.strays)}: {edge.l_s.text()}) to "
         f"{_nh(l_ok)} or less"

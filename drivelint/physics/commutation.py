@@ -125,7 +125,7 @@ def boot_path_overcharge(i_load: Amps, l_s: Henries, r_path: Ohms, c_hold: Farad
     i_load [A]; l_s [H]; r_path: the boot path's series resistance with the diode's RS [Ω];
     c_hold [F].
     """
-    z0 = (l_s / c_hold) ** 0.5
+    z0: Ohms = (l_s / c_hold) ** 0.5
     zeta = _ratio(r_path, 2.0 * z0)
     if math.isclose(zeta, 1.0):
         phase = 1.0
@@ -147,7 +147,8 @@ def min_series_resistance(
         return _infinite(l_s, c_hold * i_load)
     if not boot_path_overcharge(i_load, l_s, r_path, c_hold) > allowed:
         return 0.0 * r_path
-    low, high = r_path, r_path + 2.0 * (l_s / c_hold) ** 0.5
+    low: Ohms = r_path
+    high: Ohms = r_path + 2.0 * (l_s / c_hold) ** 0.5
     while boot_path_overcharge(i_load, l_s, high, c_hold) > allowed:
         low, high = high, 2.0 * high
     for _ in range(60):
