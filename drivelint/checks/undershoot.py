@@ -27,6 +27,7 @@ from drivelint.checks.induced import (
     _plateau,
     edge_currents,
 )
+from drivelint.checks.printed import sum_line
 from drivelint.circuit.model import Device
 from drivelint.diagnostics import Severity
 from drivelint.netlist.values import format_si
@@ -423,8 +424,8 @@ def _boot_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Fi
         *_derivation(edge),
         f"ΔV_boot = I_load·√(L_s/C_boot)·exp(−ζ·φ(ζ)) with R_path {format_si(r_path, 'Ω')}, "
         f"C_boot {format_si(c_hold, 'F')}: {_v(extra)}",
-        f"V_boot = V_boot,max + ΔV_boot = {facts.v_boot_max.text()} + {_v(extra)} = "
-        f"{_v(peak)} against {what} {limit.text()}",
+        f"V_boot = V_boot,max + ΔV_boot = {sum_line([(1, before), (1, extra)], 'V')} "
+        f"against {what} {limit.text()}",
     )
     return ctx.finding(cap, message, values, fix, derivation)
 
