@@ -65,18 +65,15 @@ class Commutation:
     t_fall: Value  # I/(di/dt): the rectangle with the same L·I volt-seconds
     v_undershoot: Value  # signed, negative
 
-    @property
-    def step(self) -> float:
-        """The inductive part of the swing, L_s·di/dt [V]."""
-        return self.l_s.value * self.di_dt.value
-
 
 def _load_current(stage: DriveStage, facts: StageFacts) -> Value | None:
     given = facts.condition("load_current")
     if given is not None:
         return Value(given.value, "A", f"condition load_current ({given.origin})")
     currents = edge_currents(stage, facts)
-    if currents is None or not currents[1] > 0:
+    # the steady-state relations hold where the current stays one way all cycle (a ripple
+    # past twice the average, as an inductor small against its load gives, means they don't)
+    if currents is None or not currents[1] > 0 or currents[0] < 0:
         return None
     return computed(
         currents[1],
