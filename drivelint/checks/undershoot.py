@@ -245,8 +245,8 @@ def _common_values(edge: Commutation) -> dict[str, Value]:
         "undershoot_depth": computed(
             -edge.v_undershoot.value,
             "V",
-            "computed: V_F + L_s·di/dt at the fastest point of the fall (an upper bound: the "
-            "node's capacitance and the Miller charge soften the edge)",
+            "computed: V_F + L_s·di/dt at the fastest point of the fall (an upper bound: that "
+            "rate lasts a moment, while the switch node is still on its way down)",
         ),
         "l_s": edge.l_s,
         "di_dt": edge.di_dt,

@@ -149,7 +149,7 @@ CORNER_USES: Mapping[str, frozenset[str]] = {
 SENSES: Mapping[str, str] = {
     "clamp_current_bound": "upper bound",
     "shoot_through_bound": "upper bound",
-    # the fall's fastest point, the node's capacitance and the Miller charge left out
+    # the fall's fastest point taken for all of it
     "undershoot_depth": "upper bound",
     "v_boot_undershoot": "upper bound",
 }
