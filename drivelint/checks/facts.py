@@ -32,6 +32,7 @@ from drivelint.diagnostics import Span
 from drivelint.netlist.values import format_si
 from drivelint.netlist.waveforms import Waveform
 from drivelint.physics import bootstrap as boot_physics
+from drivelint.physics import commutation
 from drivelint.physics import diode as diode_physics
 from drivelint.physics import gate as gate_physics
 from drivelint.ratings.directives import DirectiveSet
@@ -58,6 +59,8 @@ PUMP_DIODE_CURRENT = 1e-3
 # A freewheeling load current at the switch node is taken at this current when nothing gives
 # it (a body diode's drop changes by n·V_T·ln 10 ≈ 60 mV per decade).
 FREEWHEEL_CURRENT_DEFAULT = 1.0
+# Stray parts (leads, ammeters, shunts) followed from a driver pin along a commutation loop.
+MAX_STRAY_STEPS = 6
 # The gate takes its charge up to the Miller plateau within about this long of the driver's
 # edge (tens of nanoseconds for a driver IC, common practice): a hold capacitor refilled
 # faster than this through the bootstrap path while the node is still low gets that charge
@@ -610,6 +613,11 @@ class StageFacts:
         load = self.condition("load_current")
         current = load.value if load else FREEWHEEL_CURRENT_DEFAULT
         why = f"{format_si(current, 'A')} of load current" + ("" if load else " (default)")
+        return self.freewheel_drop_at(current, why)
+
+    def freewheel_drop_at(self, current: float, why: str) -> Value:
+        """The freewheeling part's forward drop at ``current`` (``why`` says where that
+        current comes from)."""
         for refresh in self.stage.refresh:
             device = self.device(refresh.devices[0])
             model = device.model if device else None
@@ -626,6 +634,101 @@ class StageFacts:
                 )
                 return Value(drop, "V", f"model {model.name} IS/N at {why}")
         return Value(0.7, "V", "default: silicon junction forward drop (common practice)")
+
+    def commutation_strays(
+        self, top: str, bottom: str
+    ) -> tuple[float, tuple[str, ...], tuple[str, str]] | None:
+        """The stray inductance on the loop from the driver's switch pin to the top of the
+        freewheeling part (``top``, e.g. a low side's drain) and from its bottom
+        (``bottom``) to the driver's common, with the parts on it, from the circuit as
+        written (the wire merge took them out), and the two pins' nets as written. ``top``
+        and ``bottom`` are the part's nets as written. None where the loop is not the
+        driver's (its pins are not on the part's nets) or a pin's net is ambiguous."""
+        driver = self.stage.driver
+        if driver is None:
+            return None
+        pins = [driver.pins.get("switch"), driver.pins.get("ground")]
+        original = self.circuit.unmerged or self.circuit
+        if pins[0] != self._merged_net(top) or pins[1] != self._merged_net(bottom):
+            return None
+        merged, written = (
+            self.circuit.instances.get(driver.device),
+            original.instances.get(driver.device),
+        )
+        if merged is None or written is None or len(merged.ports) != len(written.ports):
+            return None
+        ends: list[str] = []
+        for pin in pins:
+            found = {w[1] for m, w in zip(merged.ports, written.ports) if m[1] == pin}
+            if len(found) != 1:
+                return None
+            ends.append(found.pop())
+        henries, names = 0.0, []
+        for start, end in ((ends[0], top), (bottom, ends[1])):
+            path = self._stray_path(start, end)
+            if path is None:
+                return None
+            henries += path[0]
+            names.extend(path[1])
+        return henries, tuple(names), (ends[0], ends[1])
+
+    def _merged_net(self, net: str) -> str:
+        return self._net_of.get(net, net)
+
+    @cached_property
+    def _net_of(self) -> dict[str, str]:
+        """Net as written -> merged net, from the devices the merge kept (renamed pins)."""
+        original = self.circuit.unmerged
+        out: dict[str, str] = {}
+        if original is None:
+            return out
+        for name, device in self.circuit.devices.items():
+            before = original.devices.get(name)
+            if before is None:
+                continue
+            for (_, merged), (_, written) in zip(device.pins, before.pins):
+                if merged != written:
+                    out[written] = merged
+        return out
+
+    @cached_property
+    def _strays_by_net(self) -> dict[str, list[Device]]:
+        """The parts the wire merge took out (strays, ammeters, milliohm parts), by net."""
+        original = self.circuit.unmerged
+        out: dict[str, list[Device]] = {}
+        if original is None:
+            return out
+        for name, device in original.devices.items():
+            if name not in self.circuit.devices:
+                for n in dict.fromkeys(device.nets):
+                    out.setdefault(n, []).append(device)
+        return out
+
+    def _stray_path(self, start: str, end: str) -> tuple[float, list[str]] | None:
+        """The fewest merged parts from ``start`` to ``end`` (nets as written) and their
+        inductance; None when none joins them within a few steps."""
+        frontier: list[tuple[str, float, list[str]]] = [(start, 0.0, [])]
+        seen = {start}
+        for _ in range(MAX_STRAY_STEPS + 1):
+            nxt: list[tuple[str, float, list[str]]] = []
+            for at, henries, names in frontier:
+                if at == end:
+                    return henries, names
+                for device in self._strays_by_net.get(at, ()):
+                    far = next((n for n in device.nets if n != at), None)
+                    if far is None or far in seen:
+                        continue
+                    seen.add(far)
+                    own = abs(device.value or 0.0) / device.multiplier
+                    nxt.append(
+                        (
+                            far,
+                            henries + (own if device.kind == "inductor" else 0.0),
+                            [*names, device.name],
+                        )
+                    )
+            frontier = nxt
+        return None
 
     @cached_property
     def _refill_tau(self) -> float | None:
@@ -650,8 +753,7 @@ class StageFacts:
         if window is None:
             return none
         tau = self._refill_tau
-        share = 1.0 if tau <= 0 else -math.expm1(-window.value / tau)
-        boost = self.freewheel_drop.value * share
+        boost = commutation.boot_overcharge(self.freewheel_drop.value, window.value, tau)
         return computed(
             boost,
             "V",

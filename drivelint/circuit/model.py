@@ -264,6 +264,9 @@ class Circuit:
     directives: tuple[Directive, ...] = ()
     ground: str = GROUND
     missing: tuple[Missing, ...] = ()  # what the deck names but does not hold
+    # The circuit as written, on a circuit whose wires (ammeters, nH strays, milliohm parts)
+    # were merged (stages/wires.py): the rules that need a stray on a path read it there.
+    unmerged: Circuit | None = field(default=None, repr=False, compare=False)
 
     @property
     def partial(self) -> bool:

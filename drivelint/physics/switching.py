@@ -81,8 +81,22 @@ def turn_off_time(
     t_plateau = q_gd * r_off / plateau
     total = t_delay + t_plateau
     if v_threshold is not None and 0 < _ratio(v_threshold, plateau) < 1:
-        total = total + r_off * c_iss * math.log(_ratio(plateau, v_threshold))
+        total = total + current_fall_time(r_off, c_iss, plateau, v_threshold)
     return total
+
+
+def current_fall_time(
+    r_off: Ohms, c_iss: Farads, v_plateau: Volts, v_threshold: Volts, v_off: Volts = 0.0
+) -> Seconds:
+    """The current-fall interval of a turn-off: V_GS decays from the plateau to the
+    threshold through R_off, t_3 = R_off·C_iss·ln((V_pl − V_off)/(V_th − V_off)).
+
+    The third turn-off interval of the gate-charge description (SLUA618, from memory, as in
+    :func:`turn_off_time`), towards the driver's low level ``v_off`` (0 V, or a negative
+    bias). r_off: total turn-off resistance [Ohm]; c_iss: input capacitance [F];
+    v_plateau, v_threshold, v_off: against the source [V].
+    """
+    return r_off * c_iss * math.log(_ratio(v_plateau - v_off, v_threshold - v_off))
 
 
 def shoot_through_current(v_bus: Volts, r_high: Ohms, r_low: Ohms, r_loop: Ohms) -> Amps:

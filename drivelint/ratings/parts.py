@@ -100,6 +100,10 @@ def _keys() -> dict[str, KeySpec]:
         "uvlo": KeySpec("V", driver, help="supply under-voltage lockout threshold"),
         "uvlo_boot": KeySpec("V", driver, help="boot supply under-voltage lockout threshold"),
         "iq_boot": KeySpec("A", driver, closed=True, help="boot supply quiescent current"),
+        "vs_min": KeySpec(
+            "V", driver, signed=True, help="switch pin below the common, transient rating"
+        ),
+        "vbs_max": KeySpec("V", driver, help="boot supply rating, boot pin to switch pin"),
         "q_levelshift": KeySpec("C", driver, closed=True, help="level-shifter charge per cycle"),
         "t_prop": KeySpec("s", driver, closed=True, help="propagation delay"),
         "t_prop_mismatch": KeySpec("s", driver, closed=True, help="delay mismatch"),

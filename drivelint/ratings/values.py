@@ -8,7 +8,9 @@ from dataclasses import dataclass
 from drivelint.diagnostics import positional_reduce
 
 # SI units drivelint reports in ("1" is dimensionless).
-UNITS = frozenset({"V", "A", "F", "C", "s", "Hz", "K", "W", "1", "Ohm", "K/W", "H", "V/s", "S"})
+UNITS = frozenset(
+    {"V", "A", "F", "C", "s", "Hz", "K", "W", "1", "Ohm", "K/W", "H", "V/s", "A/s", "S"}
+)
 
 
 @dataclass(frozen=True, slots=True)
@@ -39,6 +41,8 @@ class Value:
             return f"{self.value - 273.15:.1f} °C"
         if self.unit == "V/s":  # switch-node edges: volts per nanosecond, as datasheets give them
             return f"{self.value * 1e-9:.3g} V/ns"
+        if self.unit == "A/s":  # commutation rates: amperes per nanosecond, likewise
+            return f"{self.value * 1e-9:.3g} A/ns"
         return format_si(self.value, "Ω" if self.unit == "Ohm" else self.unit)
 
     def to_json(self) -> dict[str, object]:

@@ -416,7 +416,9 @@ def _merge(circuit: Circuit) -> Collapsed:
     }
     rails = {net_of.get(n, n): v for n, v in circuit.rails.items()}
     nets = tuple(dict.fromkeys(net_of.get(n, n) for n in circuit.nets))
-    merged = replace(circuit, devices=devices, instances=instances, rails=rails, nets=nets)
+    merged = replace(
+        circuit, devices=devices, instances=instances, rails=rails, nets=nets, unmerged=circuit
+    )
     return Collapsed(merged, tuple(kept), net_of)
 
 

@@ -111,6 +111,7 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "cross-conduction/overlap": ("command_overlap", "shoot_through_bound"),
     "cross-conduction/dead time": ("t_switch_off",),
     "induced-turn-on": ("vgs_peak",),
+    "switch-node-undershoot": ("undershoot_depth", "v_boot_undershoot"),
     "gate-pulldown-missing": ("vgs_induced",),
     "gate-pulldown-missing/fixed": ("vgs_induced_with_fix",),
     "gate-pulldown-missing/pulled on": ("vgs_pulled_on",),
@@ -124,6 +125,7 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
 STRESS_KINDS = frozenset(
     {
         "induced-turn-on",
+        "switch-node-undershoot",
         "bootstrap-diode-voltage",
         "gate-pulldown-missing",
         "gate-overvoltage/negative",
@@ -151,6 +153,9 @@ CORNER_USES: Mapping[str, frozenset[str]] = {
 SENSES: Mapping[str, str] = {
     "clamp_current_bound": "upper bound",
     "shoot_through_bound": "upper bound",
+    # the fall's fastest point taken for all of it
+    "undershoot_depth": "upper bound",
+    "v_boot_undershoot": "upper bound",
 }
 
 
@@ -2311,7 +2316,89 @@ def switching_loss(ctx: BenchContext) -> Bench | Declined:
     )
 
 
+# The switch pin is read for this long after the high side's turn-off command: the driver's
+# delay, the gate's fall to its plateau and the current's fall, well short of an off-time.
+UNDERSHOOT_WINDOW = 1e-6
+
+
+def switch_node_undershoot(ctx: BenchContext) -> Bench | Declined:
+    """The leg switching at the design's own command (or the rule's pulse train), the
+    strays of the circuit as written in place; after the high side's turn-off, how far the
+    driver's switch pin falls below its common and the boot voltage's peak."""
+    from drivelint.checks.undershoot import commutation_edge
+
+    edge = commutation_edge(ctx.stage, ctx.facts)
+    if edge is None:
+        return Declined("the finding's commutation edge is not one the rule finds on this stage")
+    switch_pin, common = edge.pins
+    if "." in switch_pin or "." in common:
+        return Declined("the driver's pins are inside a subcircuit: they cannot be probed")
+    laid_out = _own_or_periodic(ctx, "the leg switching at its own command")
+    if isinstance(laid_out, Declined):
+        return laid_out
+    schedule, edits, notes = laid_out
+    window = _window(schedule, 1)
+    if isinstance(window, Declined):
+        return window
+    start, end = window
+    off_time = (schedule.period or 0.0) - (end - start)
+    read_to = end + min(UNDERSHOOT_WINDOW, 0.5 * off_time) if off_time > 0 else end + 1e-7
+    stop = min(read_to + SETTLE_AFTER, MAX_STOP)
+    driver = ctx.stage.driver.device if ctx.stage.driver else "the driver"
+    cards = [
+        extreme(
+            "undershoot_depth",
+            "MAX",
+            difference(common, switch_pin),
+            end,
+            read_to,
+            f"how far {driver}'s switch pin falls below its common after {ctx.stage.switch} "
+            "turns off",
+        )
+    ]
+    limits: list[Limit] = []
+    vs_min = ctx.value("vs_min")
+    if vs_min is not None:
+        limits.append(
+            Limit(
+                "undershoot_depth",
+                -vs_min,
+                "<=",
+                f"{driver}'s switch pin stays within its rating below the common",
+                "V",
+            )
+        )
+    boot = ctx.stage.supply.boot_net
+    if boot and "v_boot_undershoot" in ctx.finding.values:
+        cards.append(
+            extreme(
+                "v_boot_undershoot",
+                "MAX",
+                difference(boot, switch_pin),
+                end,
+                read_to,
+                "the boot voltage's peak after the turn-off",
+            )
+        )
+        v_limit = ctx.value("v_limit")
+        if v_limit is not None:
+            limits.append(
+                Limit("v_boot_undershoot", v_limit, "<=", "the boot voltage stays rated", "V")
+            )
+    return Bench(
+        edits=edits,
+        stop=stop,
+        step=analysis_step(ctx.design, stop, read_to - end),
+        cards=tuple(cards),
+        claims=tuple(_claims(ctx)),
+        limits=tuple(limits),
+        notes=notes,
+        uic=ctx.design.uses_uic(),
+    )
+
+
 BUILDERS: Mapping[str, Builder] = {
+    "switch-node-undershoot": switch_node_undershoot,
     "switching-loss": switching_loss,
     "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,

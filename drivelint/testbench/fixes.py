@@ -743,8 +743,47 @@ def gate_pulldown(ctx: BenchContext) -> Fix | Declined:
     )
 
 
+def switch_node_undershoot(ctx: BenchContext) -> Fix | Declined:
+    """The strays of the commutation loop scaled down to the finding's largest loop
+    inductance (the layout fix, written as the same inductors at smaller values)."""
+    from drivelint.checks.undershoot import commutation_edge
+
+    l_max, l_s = ctx.value("l_s_max"), ctx.value("l_s")
+    edge = commutation_edge(ctx.stage, ctx.facts)
+    if l_max is None or l_s is None or edge is None or not 0 < l_max < l_s:
+        return Declined("the finding suggests no loop inductance to cut to")
+    original = ctx.circuit.unmerged or ctx.circuit
+    scale = l_max / l_s
+    edits: dict[Span, Edit] = {}
+    changed: list[str] = []
+    for name in edge.strays:
+        device = original.devices.get(name)
+        if device is None or device.kind != "inductor":
+            continue
+        element = _element(ctx, name)
+        if isinstance(element, Declined):
+            return element
+        if len(element.fields) < 3 or not isinstance(element.fields[2], Word):
+            return Declined(f"{name}'s value is not written as a plain number")
+        text = number((device.value or 0.0) * scale)
+        edits[element.span] = Edit(
+            fields=((element.fields[2], text),), note=f"fix: {name} = {text}"
+        )
+        changed.append(
+            f"{name} -> {format_si((device.value or 0.0) * scale / device.multiplier, 'H')}"
+        )
+    if not edits:
+        return Declined("no stray inductor on the loop to change")
+    return Fix(
+        f"the loop's strays cut to {format_si(l_max, 'H')} in all (the finding's l_s_max): "
+        + ", ".join(changed),
+        edits,
+    )
+
+
 APPLIERS: Mapping[str, Applier] = {
     "switching-loss": switching_loss,
+    "switch-node-undershoot": switch_node_undershoot,
     "induced-turn-on": induced_turn_on,
     "bootstrap-capacitor-small": capacitor_small,
     "bootstrap-diode-slow": diode_slow,

@@ -78,6 +78,7 @@ KEY_VALUES: Mapping[str, tuple[tuple[str, str], ...]] = {
         ("t_junction", "t_junction_limit"),
         ("edge_fraction", "edge_fraction_max"),
     ),
+    "switch-node-undershoot": (("v_undershoot", "vs_min"), ("v_boot_undershoot", "v_limit")),
 }
 
 
