@@ -78,7 +78,8 @@ class _Rating:
 def _rating(facts: StageFacts, derating: float) -> _Rating:
     positive = facts.ratings.get_or_default(facts.switch, "vgs_max")
     assert positive is not None  # vgs_max has a documented default
-    given = facts.ratings.get(facts.switch, "vgs_min")
+    # a SiC part's asymmetric default (−8 V) where nothing gives its own
+    given = facts.ratings.get_or_default(facts.switch, "vgs_min")
     if given is None:
         negative = Value(-abs(positive.value), "V", f"−vgs_max ({positive.origin})")
     else:
@@ -456,6 +457,14 @@ def _pulldowns(
     for path in stage.pulldowns:
         if path.returns_to == "source":
             continue
+        if path.returns_to == "negative":
+            # a turn-off supply riding on the source: V_GS is its level, whatever the source
+            level = facts.v_off_negative
+            if level is None:
+                complete = False
+                continue
+            out.append(_Pulldown(path, _pulldown_device(path, facts), level, level.value, True))
+            continue
         if path.returns_to == "ground":
             v_return = Value(0.0, "V", "ground")
         else:
@@ -679,7 +688,9 @@ def _check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fi
     if short_fired:
         assert found.short is not None
         yield _short_finding(stage, ctx, summary, rating, found.short, clamps, found.tolerance)
-    if negative_fired:
+    if negative_fired and worst is not None and worst.path.returns_to == "negative":
+        yield _turn_off_supply_finding(stage, ctx, summary, rating, worst, clamps)
+    elif negative_fired:
         assert worst is not None and facts.v_bus is not None
         yield _negative_finding(
             stage,
@@ -959,6 +970,46 @@ def _short_finding(
             f"= {_v(limit)}",
         ),
         severity=Severity.WARNING,
+    )
+
+
+def _turn_off_supply_finding(
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    pull: _Pulldown,
+    clamps: list[_ClampLevels],
+) -> Finding:
+    """The turn-off supply below the source holds V_GS beyond the negative rating."""
+    limit = rating.limit_negative
+    negative = stage.supply.negative
+    assert negative is not None and negative.volts is not None
+    values: dict[str, Value] = {**summary, "v_off_negative": pull.v_return}
+    # the largest standard step within the limit, with the supply's own tolerance
+    spread = ctx.facts.corners.supply_tolerance.value
+    allowed = abs(limit) / (1.0 + spread)
+    suggested = math.floor(allowed * 2.0 + 1e-9) / 2.0  # to 0.5 V, as supplies are set
+    gate_word = "V_GE" if stage.technology == "igbt" else "V_GS"
+    fix = (
+        f"set the turn-off supply {negative.source} to {_v(suggested)} (within the "
+        f"{_v(limit)} limit at its +{spread:.0%} tolerance)"
+        if suggested > 0
+        else f"return the pull-down to the source {stage.source}"
+    )
+    return ctx.finding(
+        negative.source or pull.device,
+        f"the turn-off supply {negative.source} holds {stage.switch}'s gate at "
+        f"{pull.v_return.text()} against its source through {pull.device}: {gate_word} "
+        f"stays beyond the {_v(limit)} limit{rating.derated_text(rating.negative)} for "
+        f"every off-time, {_not_holding(clamps, 'negative')}",
+        values,
+        fix=fix + f", or use a part rated for {_v(-pull.v_return.value)} below its source",
+        derivation=(
+            f"{gate_word},off = V_neg = {pull.v_return.text()} ({pull.v_return.origin})",
+            f"limit = V_GS(min) × derating = {rating.negative.text()} × {rating.derating:g} "
+            f"= {_v(limit)}",
+        ),
     )
 
 
