@@ -44,6 +44,8 @@ PIN_ROLES = frozenset(
         "high_in_active_low",
         "low_in_active_low",
         "enable",
+        # the negative supply its outputs sink to (VEE): a turn-off level below the switch node
+        "negative",
     }
 )
 

@@ -768,6 +768,8 @@ class _StageBuilder:
         info = view.drivers.get(name)
         if info is not None:
             if pin == "high_out":
+                if not up and info.pins.get("negative"):
+                    return info.pins["negative"]  # the output sinks to its VEE
                 return info.pins.get("boot" if up else "switch")
             if pin == "low_out":
                 return info.pins.get("supply" if up else "ground")
@@ -1127,12 +1129,17 @@ class _StageBuilder:
         up_ends = {supply.boot_net} if supply.boot_net else set()
         up_ends |= self.view.positive_rails
         pullups = self.pull_paths(up_ends, up=True)
-        negative = self.negative_supply() if supply.kind == "isolated" else None
+        vee = driver[0].pins.get("negative") if driver is not None else None
+        negative = self.negative_supply() if supply.kind == "isolated" or vee else None
+        if negative is not None and vee and negative.net != vee:
+            negative = None  # the driver's VEE is not the supply found: not guessed
         if negative is not None:
             supply = replace(supply, negative=negative)
         down_ends = {self.source, GROUND} | self.view.negative_rails
         if negative is not None:
             down_ends.add(negative.net)
+        if vee:
+            down_ends.add(vee)
         if driver is not None and driver[0].pins.get("switch"):
             down_ends.add(driver[0].pins["switch"])
         if behavioural is not None and supply.boot_net:
