@@ -778,6 +778,17 @@ class StageFacts:
         return Value(-furthest.value, "V", furthest.origin)
 
     @cached_property
+    def v_off_nearest(self) -> Value | None:
+        """The same turn-off supply at its nearest to the source (the low end of its
+        tolerance): the least help it gives against an induced rise or a slow turn-off."""
+        negative = self.stage.supply.negative
+        if negative is None or negative.volts is None:
+            return None
+        level = Value(-negative.volts, "V", f"isolated turn-off source {negative.source}")
+        nearest = supply_corner(self, level, 0.0, "supply_tolerance", False, "supply")
+        return Value(-nearest.value, "V", nearest.origin)
+
+    @cached_property
     def v_boot_max(self) -> Value | None:
         """The same supply at its highest (a surge on the auxiliary rail)."""
         supply = self.stage.supply

@@ -17,7 +17,6 @@ from dataclasses import dataclass
 
 from drivelint.checks.base import CheckContext, Finding
 from drivelint.checks.corners import STRESS, with_corner
-from drivelint.checks.corners import supply as supply_corner
 from drivelint.checks.facts import StageFacts
 from drivelint.circuit.model import GROUND, Device
 from drivelint.diagnostics import Severity
@@ -523,13 +522,10 @@ def _high_off_level(stage: DriveStage, facts: StageFacts) -> Value:
     """Where the high side's pull-down holds its gate: the source, or a turn-off supply
     below it at its nearest to the source (the low end of its tolerance: the least help
     against an induced rise)."""
-    negative = stage.supply.negative
     through = any(p.returns_to == "negative" for p in stage.pulldowns)
-    if negative is None or negative.volts is None or not through:
+    if facts.v_off_nearest is None or not through:
         return Value(0.0, "V", f"the pull-down returns to {stage.switch}'s source")
-    level = Value(-negative.volts, "V", f"isolated turn-off source {negative.source}")
-    nearest = supply_corner(facts, level, 0.0, "supply_tolerance", False, "supply")
-    return Value(-nearest.value, "V", nearest.origin)
+    return facts.v_off_nearest
 
 
 def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] | None:

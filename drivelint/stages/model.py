@@ -232,7 +232,9 @@ class DriveStage:
     technology: str = ""
 
     def to_json(self) -> dict[str, Any]:
-        shifter = {"level_shifter": self.level_shifter.to_json()} if self.level_shifter else {}
+        shifter: dict[str, Any] = (
+            {"level_shifter": self.level_shifter.to_json()} if self.level_shifter else {}
+        )
         if self.technology:
             shifter["technology"] = self.technology
         return {
