@@ -93,6 +93,7 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "bootstrap-no-refresh/no path": (),
     "dc-hold": ("hold_time", "i_drain"),
     "gate-overvoltage/negative": ("vgs_max_negative", "vgs_pulled_down"),
+    "gate-overvoltage/turn-off supply": ("vgs_max_negative",),
     "gate-overvoltage/positive": ("vgs_max_positive",),
     "gate-overvoltage/output short": ("vgs_output_short",),
     "gate-overvoltage/clamp below drive": (
@@ -124,6 +125,7 @@ STRESS_KINDS = frozenset(
         "bootstrap-diode-voltage",
         "gate-pulldown-missing",
         "gate-overvoltage/negative",
+        "gate-overvoltage/turn-off supply",
         "gate-overvoltage/positive",
         "gate-overvoltage/output short",
         "gate-overvoltage/clamp below drive",
@@ -477,6 +479,8 @@ def _gate_kind(finding: Finding, stage: DriveStage) -> str:
     clamp = next((c for c in stage.clamps if finding.device in (c.devices or (c.device,))), None)
     if "vgs_pulled_down" in values:
         return "negative"
+    if "v_off_negative" in values:
+        return "turn-off supply"
     if clamp is None and finding.device == stage.switch and _beyond_only_when_shorted(values):
         return "output short"
     if clamp is None:
@@ -513,7 +517,7 @@ NOT_SHOWN = {
 
 def gate_overvoltage(ctx: BenchContext) -> Bench | Declined:
     kind = gate_kind(ctx)
-    if kind == "negative":
+    if kind in ("negative", "turn-off supply"):
         return _negative_vgs(ctx)
     if kind in ("clamp below drive", "clamp reversed"):
         return _clamp_in_drive(ctx)
@@ -571,8 +575,11 @@ def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
             "the source voltage at the turn-off command (the rule holds it at the bus)",
         ),
         extreme("vgs_max_negative", "MIN", vgs, turn_off, stop, "lowest V_GS after turn-off"),
-        extreme("vgs_pulled_down", "MIN", vgs, turn_off, stop, "V_GS as the pull-down acts"),
     ]
+    if gate_kind(ctx) == "negative":
+        cards.append(
+            extreme("vgs_pulled_down", "MIN", vgs, turn_off, stop, "V_GS as the pull-down acts")
+        )
     claims = _claims(ctx)
     return Bench(
         edits=made.edits,

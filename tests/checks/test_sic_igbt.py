@@ -299,3 +299,25 @@ def test_the_half_bridge_against_ngspice(tmp_path: Path) -> None:
 
     rate = 0.6 * 400.0 / (rising(320.0) - rising(80.0))
     assert edge.dv_dt.value == pytest.approx(rate, rel=0.20)
+
+
+def test_the_turn_off_supply_testbench_shows_it(tmp_path: Path) -> None:
+    # drivelint testbench --run: the deck holds V_NEG at the +5 % corner the rule judged
+    # (10.5 V) and ngspice shows V_GS at −10.5 V while off, beyond the −8 V limit
+    from drivelint.batch import BatchOptions, plan
+    from drivelint.pipeline import collect_paths
+    from drivelint.testbench.command import BenchOptions, make_testbenches
+
+    if shutil.which("ngspice") is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot simulate")
+    sources = (DECKS / "split_neg10.cir",)
+    jobs = plan(collect_paths(sources), BatchOptions(scan_roots=sources))
+    built = make_testbenches(jobs, BenchOptions(output=tmp_path, run=True, jobs=1))
+    (record,) = built.records
+    assert record.deck is not None, record.reason
+    (claim,) = record.deck.claims
+    assert claim.key == "vgs_max_negative"
+    assert claim.verdict(record.deck.measured("vgs_max_negative")) == "confirmed"
+    assert record.deck.measured("vgs_max_negative") == pytest.approx(-10.5, rel=0.02)
+    assert record.deck.limits_hold() is False
+    assert record.fixed is None and "turn-off supply" in (record.fixed_reason or "")
