@@ -990,7 +990,6 @@ def _turn_off_supply_finding(
     spread = ctx.facts.corners.supply_tolerance.value
     allowed = abs(limit) / (1.0 + spread)
     suggested = math.floor(allowed * 2.0 + 1e-9) / 2.0  # to 0.5 V, as supplies are set
-    gate_word = "V_GE" if stage.technology == "igbt" else "V_GS"
     fix = (
         f"set the turn-off supply {negative.source} to {_v(suggested)} (within the "
         f"{_v(limit)} limit at its +{spread:.0%} tolerance)"
@@ -1000,13 +999,13 @@ def _turn_off_supply_finding(
     return ctx.finding(
         negative.source or pull.device,
         f"the turn-off supply {negative.source} holds {stage.switch}'s gate at "
-        f"{pull.v_return.text()} against its source through {pull.device}: {gate_word} "
+        f"{pull.v_return.text()} against its source through {pull.device}: V_GS "
         f"stays beyond the {_v(limit)} limit{rating.derated_text(rating.negative)} for "
         f"every off-time, {_not_holding(clamps, 'negative')}",
         values,
         fix=fix + f", or use a part rated for {_v(-pull.v_return.value)} below its source",
         derivation=(
-            f"{gate_word},off = V_neg = {pull.v_return.text()} ({pull.v_return.origin})",
+            f"V_GS,off = V_neg = {pull.v_return.text()} ({pull.v_return.origin})",
             f"limit = V_GS(min) × derating = {rating.negative.text()} × {rating.derating:g} "
             f"= {_v(limit)}",
         ),

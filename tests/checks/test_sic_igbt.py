@@ -350,3 +350,12 @@ def test_the_igbt_half_bridge_against_ngspice(tmp_path: Path) -> None:
     assert facts.v_off_nearest is not None
     off = waves.between("v(gh,sw)", 196e-6, 201e-6)
     assert min(off) == pytest.approx(facts.v_off_nearest.value, rel=0.20)
+
+
+def test_an_igbt_finding_speaks_of_v_ge() -> None:
+    text = (DECKS / "igbt_macro_split.cir").read_text(encoding="utf-8")
+    text = text.replace("V_NEG SW VNEG DC 8", "V_NEG SW VNEG DC 22")
+    (found,) = [f for f in check_text(text).findings if f.rule == "gate-overvoltage"]
+    assert "V_GE stays beyond the -20 V limit" in found.message
+    assert "V_GS" not in found.message and all("V_GS" not in line for line in found.derivation)
+    assert "vgs_limit_negative" in found.values  # the value keys keep their names
