@@ -359,3 +359,11 @@ def test_an_igbt_finding_speaks_of_v_ge() -> None:
     assert "V_GE stays beyond the -20 V limit" in found.message
     assert "V_GS" not in found.message and all("V_GS" not in line for line in found.derivation)
     assert "vgs_limit_negative" in found.values  # the value keys keep their names
+
+
+def test_the_stage_sketch_labels_the_turn_off_supply() -> None:
+    from drivelint.report.html.diagram import stage_svg
+
+    result = check_path(DECKS / "split_clean.cir")
+    (stage,) = result.stages
+    assert "vneg -5 V to source" in stage_svg(stage, result.circuit)
