@@ -670,7 +670,11 @@ def _check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fi
         and not found.unknown_neg
     )
 
+    off_supply = next((p for p in found.pulls if p.path.returns_to == "negative"), None)
     for levels in clamps:
+        if off_supply is not None and _conducts_off(levels, ctx.facts):
+            yield _clamp_against_turn_off(stage, ctx, summary, rating, levels, off_supply)
+            continue
         yield from _clamp_findings(
             levels,
             stage,
@@ -705,6 +709,82 @@ def _check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fi
             found.tolerance,
             linear,
         )
+
+
+def _conducts_off(levels: _ClampLevels, facts: StageFacts) -> bool:
+    """A gate–source clamp that conducts before the gate reaches the turn-off supply's
+    level (its nearest to the source): it conducts every off-time."""
+    nearest = facts.v_off_nearest
+    return (
+        nearest is not None
+        and levels.negative is not None
+        and math.isfinite(levels.negative)
+        and levels.negative > nearest.value
+    )
+
+
+def _clamp_against_turn_off(
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    levels: _ClampLevels,
+    pull: _Pulldown,
+) -> Finding:
+    """A clamp that conducts against the turn-off supply below the source: it holds V_GS at
+    its own level every off-time and draws the supply through the pull-down."""
+    facts = ctx.facts
+    nearest = facts.v_off_nearest
+    assert nearest is not None and levels.negative is not None
+    clamp = levels.clamp
+    device = (clamp.devices or (clamp.device,))[0]
+    ohms = sum(
+        d.value
+        for d in (facts.device(n) for n in pull.path.devices)
+        if d is not None and d.kind == "resistor" and d.value
+    )
+    values: dict[str, Value] = {
+        **summary,
+        **levels.inputs,
+        "clamp_negative_level": computed(
+            levels.negative, "V", "computed: Zener voltages plus forward drops, source above gate"
+        ),
+        "v_off_negative": pull.v_return,
+        "v_off_nearest": nearest,
+    }
+    current = ""
+    if ohms > 0:
+        amps = (levels.negative - pull.v_return.value) / ohms
+        values["clamp_current_bound"] = computed(
+            amps, "A", f"computed: (V_clamp− − V_neg)/R, R = {format_si(ohms, 'Ohm')} on the path"
+        )
+        current = f", drawing up to {format_si(amps, 'A')} through {'+'.join(pull.path.devices)}"
+    # a Zener in series, anode to anode, so the pair conducts only beyond the turn-off level
+    tolerance = ctx.options["zener_tolerance"]
+    vf = 0.7
+    low = (abs(pull.v_return.value) - vf) / (1.0 - tolerance) * (1 + 1e-9)
+    zener = next_preferred(low, ZENER_SERIES) if low > 0 else None
+    if zener is not None and zener * (1.0 + tolerance) + vf >= abs(rating.limit_negative):
+        zener = None
+    fix = (
+        f"add a {_v(zener)} Zener in series with {device}, anode to anode, so the pair conducts "
+        f"only at about {_v(-(zener + vf))}, beyond the turn-off level and within the "
+        f"{_v(rating.limit_negative)} limit, or remove the clamp"
+        if zener is not None
+        else f"remove {device}, or use a clamp that conducts only beyond the turn-off level"
+    )
+    return ctx.finding(
+        device,
+        f"{levels.describe()} conducts at {_v(levels.negative)} against the turn-off supply "
+        f"{stage.supply.negative.source if stage.supply.negative else ''} "
+        f"({nearest.text()} at its nearest): every off-time it holds {stage.switch}'s V_GS at "
+        f"{_v(levels.negative)} instead of the negative bias{current}",
+        values,
+        fix=fix,
+        derivation=(
+            f"V_clamp− = {_v(levels.negative)} > V_neg = {nearest.text()} ({nearest.origin})",
+        ),
+    )
 
 
 def _clamp_findings(

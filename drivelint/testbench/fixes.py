@@ -315,6 +315,11 @@ def gate_overvoltage(ctx: BenchContext) -> Fix | Declined:
             "the fix is a lower gate supply or a resistor-fed Zener from a rail, a change of "
             "the supply design rather than a value or a part"
         )
+    if kind == "clamp against turn-off":
+        return Declined(
+            "the fix adds a Zener in series with the clamp (a new part and a new node), not a "
+            "value or a part change"
+        )
     if kind == "turn-off supply":
         return Declined(
             "the fix sets the isolated turn-off supply's output, which the deck already holds "

@@ -177,6 +177,7 @@ def test_two_supplies_below_the_source_are_not_guessed_between() -> None:
         "halfbridge_dual_vee.cir",
         "igbt_macro_split.cir",
         "igbt_halfbridge_dual_vee.cir",
+        "split_zener_pair.cir",
     ],
 )
 def test_clean_decks_are_quiet(name: str) -> None:
@@ -367,3 +368,33 @@ def test_the_stage_sketch_labels_the_turn_off_supply() -> None:
     result = check_path(DECKS / "split_clean.cir")
     (stage,) = result.stages
     assert "vneg -5 V to source" in stage_svg(stage, result.circuit)
+
+
+def test_a_single_zener_against_the_turn_off_supply() -> None:
+    # a 20 V Zener, cathode at the gate: forward at −0.7 V, above the −4.75 V the supply
+    # gives at its nearest, so it conducts every off-time: (−0.7 V + 5.25 V)/4.7 Ω = 0.97 A
+    (found,) = findings("split_single_zener.cir")
+    assert found.rule == "gate-overvoltage" and found.device == "d_z" and found.span.line == 18
+    assert found.values["clamp_negative_level"].value == pytest.approx(-0.7)
+    assert found.values["v_off_nearest"].value == pytest.approx(-4.75)
+    assert found.values["clamp_current_bound"].value == pytest.approx(4.55 / 4.7)
+    # 5.1 V at −5 %: 4.85 V + 0.7 V = 5.55 V stays off at 5.25 V; at +5 %, 6.06 V < 8 V
+    assert "add a 5.1 V Zener in series with d_z, anode to anode" in (found.fix or "")
+
+
+def test_the_single_zener_testbench_shows_it(tmp_path: Path) -> None:
+    # ngspice holds V_GS at about −0.5 V while off (the diode law at ~1 A), never near the
+    # −4.75 V of the turn-off supply: the deck breaks its limit
+    from drivelint.batch import BatchOptions, plan
+    from drivelint.pipeline import collect_paths
+    from drivelint.testbench.command import BenchOptions, make_testbenches
+
+    if shutil.which("ngspice") is None:
+        pytest.skip("ngspice is not installed (Debian package 'ngspice'); cannot simulate")
+    sources = (DECKS / "split_single_zener.cir",)
+    jobs = plan(collect_paths(sources), BatchOptions(scan_roots=sources))
+    built = make_testbenches(jobs, BenchOptions(output=tmp_path, run=True, jobs=1))
+    (record,) = built.records
+    assert record.deck is not None, record.reason
+    assert record.deck.limits_hold() is False
+    assert -0.8 < record.deck.measured("clamp_negative_level") < -0.4
