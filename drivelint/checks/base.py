@@ -88,6 +88,9 @@ class CheckContext:
                 {facts.span_of(name) for name in (stage.switch, *stage.related) if name != device}
             )
         )
+        if stage.technology == "igbt":
+            message, fix = igbt_words(message), igbt_words(fix)
+            derivation = tuple(igbt_words(line) for line in derivation)
         return Finding(
             rule=self.rule,
             severity=severity or self.severity,
@@ -100,6 +103,12 @@ class CheckContext:
             related=related,
             derivation=derivation,
         )
+
+
+def igbt_words(text: str) -> str:
+    """A message about an IGBT in its own terms: V_GE for V_GS, V_CE for V_DS (the rules
+    judge it as an N-channel switch; the value keys keep their names)."""
+    return text.replace("V_GS", "V_GE").replace("V_DS", "V_CE")
 
 
 Check = Callable[[DriveStage, CheckContext], Iterator[Finding]]

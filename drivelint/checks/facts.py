@@ -912,6 +912,28 @@ class StageFacts:
         return Value(volts, "V", f"computed: {how}")
 
     @cached_property
+    def v_off_negative(self) -> Value | None:
+        """The turn-off supply below the source (negative), at its furthest from the source
+        (the supply tolerance's high side, as the positive supply at v_boot_max)."""
+        negative = self.stage.supply.negative
+        if negative is None or negative.volts is None:
+            return None
+        level = Value(-negative.volts, "V", f"isolated turn-off source {negative.source}")
+        furthest = supply_corner(self, level, 0.0, "supply_tolerance", True, "supply")
+        return Value(-furthest.value, "V", furthest.origin)
+
+    @cached_property
+    def v_off_nearest(self) -> Value | None:
+        """The same turn-off supply at its nearest to the source (the low end of its
+        tolerance): the least help it gives against an induced rise or a slow turn-off."""
+        negative = self.stage.supply.negative
+        if negative is None or negative.volts is None:
+            return None
+        level = Value(-negative.volts, "V", f"isolated turn-off source {negative.source}")
+        nearest = supply_corner(self, level, 0.0, "supply_tolerance", False, "supply")
+        return Value(-nearest.value, "V", nearest.origin)
+
+    @cached_property
     def v_boot_max(self) -> Value | None:
         """The same supply at its highest (a surge on the auxiliary rail)."""
         supply = self.stage.supply
@@ -979,6 +1001,9 @@ class StageFacts:
         tested = self.ratings.get(self.switch, "vgs_qg")
         if tested is not None:
             return Value(tested.value, "V", f"gate-charge test voltage vgs_qg ({tested.origin})")
+        by_technology = self.ratings.get_or_default(self.switch, "vgs_on")
+        if by_technology is not None:  # a SiC MOSFET or an IGBT: not by its threshold
+            return by_technology
         model = self.switch.model
         vto = abs(model.params["vto"]) if model is not None and "vto" in model.params else None
         if vto is not None and vto <= LOGIC_LEVEL_MAX_VTO:

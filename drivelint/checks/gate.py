@@ -78,7 +78,8 @@ class _Rating:
 def _rating(facts: StageFacts, derating: float) -> _Rating:
     positive = facts.ratings.get_or_default(facts.switch, "vgs_max")
     assert positive is not None  # vgs_max has a documented default
-    given = facts.ratings.get(facts.switch, "vgs_min")
+    # a SiC part's asymmetric default (−8 V) where nothing gives its own
+    given = facts.ratings.get_or_default(facts.switch, "vgs_min")
     if given is None:
         negative = Value(-abs(positive.value), "V", f"−vgs_max ({positive.origin})")
     else:
@@ -456,6 +457,14 @@ def _pulldowns(
     for path in stage.pulldowns:
         if path.returns_to == "source":
             continue
+        if path.returns_to == "negative":
+            # a turn-off supply riding on the source: V_GS is its level, whatever the source
+            level = facts.v_off_negative
+            if level is None:
+                complete = False
+                continue
+            out.append(_Pulldown(path, _pulldown_device(path, facts), level, level.value, True))
+            continue
         if path.returns_to == "ground":
             v_return = Value(0.0, "V", "ground")
         else:
@@ -661,7 +670,11 @@ def _check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fi
         and not found.unknown_neg
     )
 
+    off_supply = next((p for p in found.pulls if p.path.returns_to == "negative"), None)
     for levels in clamps:
+        if off_supply is not None and _conducts_off(levels, ctx.facts):
+            yield _clamp_against_turn_off(stage, ctx, summary, rating, levels, off_supply)
+            continue
         yield from _clamp_findings(
             levels,
             stage,
@@ -679,7 +692,9 @@ def _check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fi
     if short_fired:
         assert found.short is not None
         yield _short_finding(stage, ctx, summary, rating, found.short, clamps, found.tolerance)
-    if negative_fired:
+    if negative_fired and worst is not None and worst.path.returns_to == "negative":
+        yield _turn_off_supply_finding(stage, ctx, summary, rating, worst, clamps)
+    elif negative_fired:
         assert worst is not None and facts.v_bus is not None
         yield _negative_finding(
             stage,
@@ -694,6 +709,82 @@ def _check_gate_overvoltage(stage: DriveStage, ctx: CheckContext) -> Iterator[Fi
             found.tolerance,
             linear,
         )
+
+
+def _conducts_off(levels: _ClampLevels, facts: StageFacts) -> bool:
+    """A gate–source clamp that conducts before the gate reaches the turn-off supply's
+    level (its nearest to the source): it conducts every off-time."""
+    nearest = facts.v_off_nearest
+    return (
+        nearest is not None
+        and levels.negative is not None
+        and math.isfinite(levels.negative)
+        and levels.negative > nearest.value
+    )
+
+
+def _clamp_against_turn_off(
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    levels: _ClampLevels,
+    pull: _Pulldown,
+) -> Finding:
+    """A clamp that conducts against the turn-off supply below the source: it holds V_GS at
+    its own level every off-time and draws the supply through the pull-down."""
+    facts = ctx.facts
+    nearest = facts.v_off_nearest
+    assert nearest is not None and levels.negative is not None
+    clamp = levels.clamp
+    device = (clamp.devices or (clamp.device,))[0]
+    ohms = sum(
+        d.value
+        for d in (facts.device(n) for n in pull.path.devices)
+        if d is not None and d.kind == "resistor" and d.value
+    )
+    values: dict[str, Value] = {
+        **summary,
+        **levels.inputs,
+        "clamp_negative_level": computed(
+            levels.negative, "V", "computed: Zener voltages plus forward drops, source above gate"
+        ),
+        "v_off_negative": pull.v_return,
+        "v_off_nearest": nearest,
+    }
+    current = ""
+    if ohms > 0:
+        amps = (levels.negative - pull.v_return.value) / ohms
+        values["clamp_current_bound"] = computed(
+            amps, "A", f"computed: (V_clamp− − V_neg)/R, R = {format_si(ohms, 'Ohm')} on the path"
+        )
+        current = f", drawing up to {format_si(amps, 'A')} through {'+'.join(pull.path.devices)}"
+    # a Zener in series, anode to anode, so the pair conducts only beyond the turn-off level
+    tolerance = ctx.options["zener_tolerance"]
+    vf = 0.7
+    low = (abs(pull.v_return.value) - vf) / (1.0 - tolerance) * (1 + 1e-9)
+    zener = next_preferred(low, ZENER_SERIES) if low > 0 else None
+    if zener is not None and zener * (1.0 + tolerance) + vf >= abs(rating.limit_negative):
+        zener = None
+    fix = (
+        f"add a {_v(zener)} Zener in series with {device}, anode to anode, so the pair conducts "
+        f"only at about {_v(-(zener + vf))}, beyond the turn-off level and within the "
+        f"{_v(rating.limit_negative)} limit, or remove the clamp"
+        if zener is not None
+        else f"remove {device}, or use a clamp that conducts only beyond the turn-off level"
+    )
+    return ctx.finding(
+        device,
+        f"{levels.describe()} conducts at {_v(levels.negative)} against the turn-off supply "
+        f"{stage.supply.negative.source if stage.supply.negative else ''} "
+        f"({nearest.text()} at its nearest): every off-time it holds {stage.switch}'s V_GS at "
+        f"{_v(levels.negative)} instead of the negative bias{current}",
+        values,
+        fix=fix,
+        derivation=(
+            f"V_clamp− = {_v(levels.negative)} > V_neg = {nearest.text()} ({nearest.origin})",
+        ),
+    )
 
 
 def _clamp_findings(
@@ -959,6 +1050,45 @@ def _short_finding(
             f"= {_v(limit)}",
         ),
         severity=Severity.WARNING,
+    )
+
+
+def _turn_off_supply_finding(
+    stage: DriveStage,
+    ctx: CheckContext,
+    summary: Mapping[str, Value],
+    rating: _Rating,
+    pull: _Pulldown,
+    clamps: list[_ClampLevels],
+) -> Finding:
+    """The turn-off supply below the source holds V_GS beyond the negative rating."""
+    limit = rating.limit_negative
+    negative = stage.supply.negative
+    assert negative is not None and negative.volts is not None
+    values: dict[str, Value] = {**summary, "v_off_negative": pull.v_return}
+    # the largest standard step within the limit, with the supply's own tolerance
+    spread = ctx.facts.corners.supply_tolerance.value
+    allowed = abs(limit) / (1.0 + spread)
+    suggested = math.floor(allowed * 2.0 + 1e-9) / 2.0  # to 0.5 V, as supplies are set
+    fix = (
+        f"set the turn-off supply {negative.source} to {_v(suggested)} (within the "
+        f"{_v(limit)} limit at its +{spread:.0%} tolerance)"
+        if suggested > 0
+        else f"return the pull-down to the source {stage.source}"
+    )
+    return ctx.finding(
+        negative.source or pull.device,
+        f"the turn-off supply {negative.source} holds {stage.switch}'s gate at "
+        f"{pull.v_return.text()} against its source through {pull.device}: V_GS "
+        f"stays beyond the {_v(limit)} limit{rating.derated_text(rating.negative)} for "
+        f"every off-time, {_not_holding(clamps, 'negative')}",
+        values,
+        fix=fix + f", or use a part rated for {_v(-pull.v_return.value)} below its source",
+        derivation=(
+            f"V_GS,off = V_neg = {pull.v_return.text()} ({pull.v_return.origin})",
+            f"limit = V_GS(min) × derating = {rating.negative.text()} × {rating.derating:g} "
+            f"= {_v(limit)}",
+        ),
     )
 
 

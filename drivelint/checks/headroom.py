@@ -176,9 +176,11 @@ def check_gate_headroom(stage: DriveStage, ctx: CheckContext) -> Iterator[Findin
             "leaves its linear region at load"
         )
     else:
+        rated = "V_CE(sat)" if stage.technology == "igbt" else "R_DS(on)"
         consequence = (
-            f"short of the {facts.vgs_on.text()} its R_DS(on) is rated at, so it conducts "
-            "with a higher resistance and heats"
+            f"short of the {facts.vgs_on.text()} its {rated} is rated at, so it conducts "
+            f"with a higher {'saturation voltage' if stage.technology == 'igbt' else 'resistance'} "
+            "and heats"
         )
     device = _device(stage, facts)
     droop_text = (

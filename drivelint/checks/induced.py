@@ -235,7 +235,11 @@ def high_side_path(
     ``level`` is where it drives the gate, ``drive`` the driver's swing (what its rated
     peak current is rated from)."""
     paths = stage.pullups if up else stage.pulldowns
+    # off: to the source, or through a driver's VEE to a turn-off supply below it (the
+    # level is then that supply's)
     wanted = "boot" if up else "source"
+    if not up and any(p.returns_to == "negative" for p in paths):
+        wanted = "negative"
     best: GatePathFigure | None = None
     for path in paths:
         if path.returns_to != wanted:
@@ -503,8 +507,7 @@ def edges(stage: DriveStage, facts: StageFacts) -> list[Edge]:
         return out
     partner_on, partner_off = paths
     high_on = high_side_path(stage, facts, True, drive, drive.value)
-    zero = Value(0.0, "V", f"the pull-down returns to {stage.switch}'s source")
-    high_off = high_side_path(stage, facts, False, zero, drive.value)
+    high_off = high_side_path(stage, facts, False, _high_off_level(stage, facts), drive.value)
     currents = edge_currents(stage, facts)
     # the high side's turn-on swings the node unless the load current flows into it then
     high_hard = currents is None or currents[0] > 0 or facts.modulated
@@ -520,6 +523,16 @@ def edges(stage: DriveStage, facts: StageFacts) -> list[Edge]:
         if found is not None:
             out.append(found)
     return out
+
+
+def _high_off_level(stage: DriveStage, facts: StageFacts) -> Value:
+    """Where the high side's pull-down holds its gate: the source, or a turn-off supply
+    below it at its nearest to the source (the low end of its tolerance: the least help
+    against an induced rise)."""
+    through = any(p.returns_to == "negative" for p in stage.pulldowns)
+    if facts.v_off_nearest is None or not through:
+        return Value(0.0, "V", f"the pull-down returns to {stage.switch}'s source")
+    return facts.v_off_nearest
 
 
 def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] | None:

@@ -194,8 +194,10 @@ def _turn_off(
     drive: Value | None,
     external: Value | None,
     spread: float = 1.0,
+    v_off: Value | None = None,
 ) -> TurnOff:
-    """t_off of ``device`` from the parts key t_off, else the gate-charge relations."""
+    """t_off of ``device`` from the parts key t_off, else the gate-charge relations;
+    ``v_off`` is the level the pull-down drives the gate to below the source (None: 0)."""
     v_blocked = facts.v_switched
     gate = facts.switch_gate(device, drive.value if drive else 10.0, v_blocked, spread)
     if gate.t_off is not None:
@@ -219,12 +221,27 @@ def _turn_off(
     if r_off.value < 0 or gate.c_iss.value < 0 or gate.q_gd.value < 0:
         return TurnOff(device.name, None, drive, r_off, gate)  # not a physical gate
     threshold = gate.v_threshold.value if gate.v_threshold else None
+    off = v_off.value if v_off is not None and v_off.value < 0 else 0.0
     t = switching.turn_off_time(
-        r_off.value, gate.c_iss.value, drive.value, gate.v_plateau.value, gate.q_gd.value, threshold
+        r_off.value,
+        gate.c_iss.value,
+        drive.value,
+        gate.v_plateau.value,
+        gate.q_gd.value,
+        threshold,
+        off,
     )
     how = "R_off·C_iss·ln(V_drive/V_pl) + Q_gd·R_off/V_pl" + (
         " + R_off·C_iss·ln(V_pl/V_th)" if threshold is not None else ""
     )
+    if off:
+        assert v_off is not None
+        how = (
+            how.replace("V_drive", "(V_drive − V_off)")
+            .replace("/V_pl", "/(V_pl − V_off)")
+            .replace("(V_pl/V_th)", "((V_pl − V_off)/(V_th − V_off))")
+            + f", V_off = {v_off.text()} ({v_off.origin})"
+        )
     return TurnOff(device.name, computed(t, "s", f"computed: {how}"), drive, r_off, gate)
 
 
@@ -246,8 +263,11 @@ def _high_turn_off(facts: StageFacts) -> TurnOff:
         else "no resistor on the pull-down path",
     )
     # the stage's own switch at the top of its gate-charge spread (checks/corners.py): the
-    # slowest turn-off; its partner is taken at its values as given
-    return _turn_off(facts, facts.switch, drive, external, charge_spread(facts))
+    # slowest turn-off; its partner is taken at its values as given. A pull-down to a
+    # turn-off supply below the source discharges the gate toward that level.
+    first = stage.pulldowns[0] if stage.pulldowns else None
+    v_off = facts.v_off_nearest if first is not None and first.returns_to == "negative" else None
+    return _turn_off(facts, facts.switch, drive, external, charge_spread(facts), v_off)
 
 
 def _low_turn_off(facts: StageFacts, device: Device, command: Control) -> TurnOff:
@@ -257,6 +277,7 @@ def _low_turn_off(facts: StageFacts, device: Device, command: Control) -> TurnOf
     gate = device.net("g")
     driver = stage.driver
     drive: Value | None = None
+    v_off: Value | None = None
     targets: set[str] = set()
     via_driver = driver is not None and command.path[:1] == (driver.device,)
     if via_driver:
@@ -274,6 +295,16 @@ def _low_turn_off(facts: StageFacts, device: Device, command: Control) -> TurnOf
                     level,
                     "V",
                     f"driver {driver.device}'s supply pin {supply} against {device.name}'s source",
+                )
+            # the low output sinks to the driver's ground pin: below the source, a turn-off
+            # bias
+            ground = driver.pins.get("ground")
+            ground_level = 0.0 if ground in (None, GROUND) else rails.get(ground or "")
+            if ground_level is not None and low_level is not None and ground_level < low_level:
+                v_off = Value(
+                    ground_level - low_level,
+                    "V",
+                    f"driver {driver.device}'s ground pin {ground} against {device.name}'s source",
                 )
     elif command.waveform is not None and command.source is not None:
         wave = command.waveform
@@ -295,7 +326,7 @@ def _low_turn_off(facts: StageFacts, device: Device, command: Control) -> TurnOf
         drive = computed(
             drive.value - facts.v_sw_low.value, "V", f"{drive.origin}, less the node's low level"
         )
-    return _turn_off(facts, device, drive, external)
+    return _turn_off(facts, device, drive, external, v_off=v_off)
 
 
 def check_cross_conduction(stage: DriveStage, ctx: CheckContext) -> Iterator[Finding]:

@@ -522,11 +522,19 @@ class _Elaborator:
             return
         added = [self.devices[n] for n in self.order[before:] if n in self.devices]
         transistors = [d for d in added if d.kind == "mosfet"]
-        if len(transistors) != 1 or any(
-            d.kind not in WRAPPER_PASSIVES for d in added if d is not transistors[0]
+        if (
+            len(transistors) != 1
+            or any(
+                d.kind not in WRAPPER_PASSIVES | {"bjt"} for d in added if d is not transistors[0]
+            )
+            or sum(d.kind == "bjt" for d in added) > 1
         ):
             return
         fet = transistors[0]
+        bjts = [d for d in added if d.kind == "bjt"]
+        if bjts:
+            self.collapse_igbt(name, definition, ports, fet, bjts, added, span)
+            return
         mapping = map_wrapper_ports(fet, added, ports)
         if mapping is None:
             return
@@ -539,6 +547,40 @@ class _Elaborator:
                 fet,
                 name=name,
                 pins=pins,
+                span=span,
+                instance=name.rsplit(".", 1)[0] if "." in name else "",
+                model_name=definition.name,
+                wrapper=wrapper,
+            )
+        )
+
+    def collapse_igbt(
+        self,
+        name: str,
+        definition: Subckt,
+        ports: Mapping[str, str],
+        fet: Device,
+        bjts: Sequence[Device],
+        added: Sequence[Device],
+        span: Span,
+    ) -> None:
+        """Replace an IGBT macro (an N-channel MOSFET whose drain feeds a PNP's base, the
+        PNP's emitter the collector, its collector and the MOSFET's source the emitter;
+        ports named collector, gate, emitter) by one N-channel switch: d, g, s stand for the
+        collector, gate and emitter. Anything else stays flattened."""
+        mapping = map_igbt_ports(fet, bjts[0], added, ports)
+        if mapping is None:
+            return
+        for device in added:
+            del self.devices[device.name]
+        wrapper = Wrapper(
+            definition.name, fet.name, mapping.gate_resistance, mapping.body_diode, "igbt"
+        )
+        self.add(
+            replace(
+                fet,
+                name=name,
+                pins=mapping.pins,
                 span=span,
                 instance=name.rsplit(".", 1)[0] if "." in name else "",
                 model_name=definition.name,
@@ -1226,9 +1268,33 @@ class _Elaborator:
 
 
 def _could_be_wrapper(definition: Subckt) -> bool:
-    """The body's element letters allow the one-MOSFET-plus-parasitics shape."""
+    """The body's element letters allow the one-MOSFET-plus-parasitics shape, or an IGBT
+    macro's (one MOSFET and one bipolar transistor, ports named for an IGBT)."""
     letters = [s.letter for s in definition.body if isinstance(s, Element)]
-    return letters.count("m") == 1 and all(letter in "mrlcd" for letter in letters)
+    if letters.count("m") != 1 or not all(letter in "mrlcdq" for letter in letters):
+        return False
+    return "q" not in letters or (letters.count("q") == 1 and _igbt_ports(definition) is not None)
+
+
+# Port names of an IGBT model: the trade's usual names for collector, gate and emitter
+# (common practice); an "E" that is a Kelvin emitter is named apart (ek, es) and is not one.
+IGBT_PORT_NAMES: Mapping[str, frozenset[str]] = {
+    "c": frozenset({"c", "col", "coll", "collector"}),
+    "g": frozenset({"g", "gate"}),
+    "e": frozenset({"e", "em", "emit", "emitter"}),
+}
+
+
+def _igbt_ports(definition: Subckt) -> dict[str, str] | None:
+    """Role ("c", "g", "e") -> port name, when the ports are exactly an IGBT's three."""
+    names = [p.text for p in definition.ports]
+    roles: dict[str, str] = {}
+    for port in names:
+        role = next((r for r, known in IGBT_PORT_NAMES.items() if port.lower() in known), None)
+        if role is None or role in roles:
+            return None
+        roles[role] = port
+    return roles if len(roles) == 3 else None
 
 
 _DEVICE_FIELDS = Device.__match_args__
@@ -1381,6 +1447,80 @@ def map_wrapper_ports(
     order = {"d": 0, "g": 1, "s": 2, "b": 3}
     pins.sort(key=lambda p: order.get(p[0], 9))
     return _WrapperPins(tuple(pins), gate_resistance, body)
+
+
+@dataclass(frozen=True, slots=True)
+class _IgbtPins:
+    pins: tuple[tuple[str, str], ...]
+    gate_resistance: float | None
+    body_diode: str | None
+
+
+def map_igbt_ports(
+    fet: Device, bjt: Device, devices: Sequence[Device], ports: Mapping[str, str]
+) -> _IgbtPins | None:
+    """The outer nets of an IGBT macro's collector, gate and emitter, or None when the
+    body is not that shape: the PNP's emitter at the collector port, its base on the
+    MOSFET's drain, its collector and the MOSFET's source at the emitter port, the gate
+    port on the MOSFET's gate — each directly or through series R/L (the nearest port)."""
+    if bjt.model_type != "pnp" or fet.model_type != "nmos":
+        return None
+    named = {p.lower(): p for p in ports}
+    roles = {}
+    for role, known in IGBT_PORT_NAMES.items():
+        found = [named[n] for n in known if n in named]
+        if len(found) != 1:
+            return None
+        roles[role] = found[0]
+    # each port's inner net is its outer net; walk series R/L inside from each terminal
+    adjacency: dict[str, list[tuple[str, Device]]] = {}
+    for device in devices:
+        if device.kind in SERIES_KINDS and len(device.pins) == 2:
+            (_, a), (_, b) = device.pins
+            adjacency.setdefault(a, []).append((b, device))
+            adjacency.setdefault(b, []).append((a, device))
+
+    def reach(start: str | None) -> dict[str, float]:
+        if start is None:
+            return {}
+        seen = {start: 0.0}
+        queue = deque([start])
+        while queue:
+            net = queue.popleft()
+            for other, device in adjacency.get(net, ()):
+                if other not in seen:
+                    ohms = device.value or 0.0 if device.kind == "resistor" else 0.0
+                    seen[other] = seen[net] + ohms
+                    queue.append(other)
+        return seen
+
+    outer = {role: ports[port] for role, port in roles.items()}
+    base, drain = bjt.net("b"), fet.net("d")
+    if base is None or drain is None or drain not in reach(base):
+        return None
+    gate = reach(fet.net("g"))
+    collector = reach(bjt.net("e"))
+    emitter_fet, emitter_bjt = reach(fet.net("s")), reach(bjt.net("c"))
+    if (
+        outer["g"] not in gate
+        or outer["c"] not in collector
+        or outer["e"] not in emitter_fet
+        or outer["e"] not in emitter_bjt
+        or outer["c"] in gate
+        or outer["e"] in gate
+        or outer["c"] in emitter_fet
+    ):
+        return None
+    ohms = gate[outer["g"]]
+    body = None
+    for device in devices:
+        if device.kind == "diode" and (device.net("a"), device.net("k")) == (
+            outer["e"],
+            outer["c"],
+        ):
+            body = device.model_name
+    pins = (("d", outer["c"]), ("g", outer["g"]), ("s", outer["e"]))
+    return _IgbtPins(pins, ohms if ohms > 0 else None, body)
 
 
 def find_rails(devices: Iterable[Device]) -> dict[str, float]:

@@ -85,7 +85,9 @@ class Model:
 
 @dataclass(frozen=True, slots=True)
 class Wrapper:
-    """A subcircuit recognised as one MOSFET plus parasitics."""
+    """A subcircuit recognised as one MOSFET plus parasitics, or as an IGBT macro (the
+    MOSFET that drives a PNP, ``technology = "igbt"``: pins d/g/s then stand for the
+    collector, gate and emitter)."""
 
     __reduce__ = positional_reduce
 
@@ -93,6 +95,7 @@ class Wrapper:
     inner_device: str
     gate_resistance: float | None
     body_diode: str | None
+    technology: str = ""
 
 
 # Nominal temperature (°C) a behavioural expression reads for temp/temper when no

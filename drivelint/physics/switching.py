@@ -57,6 +57,7 @@ def turn_off_time(
     v_plateau: Volts,
     q_gd: Coulombs,
     v_threshold: Volts | None = None,
+    v_off: Volts = 0.0,
 ) -> Seconds:
     """Time from the driver's turn-off edge until the switch stops conducting.
 
@@ -73,8 +74,18 @@ def turn_off_time(
     r_off: driver pull-down + external + internal gate resistance [Ohm]; c_iss: input
     capacitance C_gs + C_gd with the switch on [F]; v_drive: V_GS while on [V];
     v_plateau: Miller plateau [V]; q_gd: gate–drain (Miller) charge [C]; v_threshold:
-    gate threshold [V] or None.
+    gate threshold [V] or None; v_off: the level the pull-down drives the gate to, relative
+    to the source (0, or negative with a turn-off supply below the source) [V].
+
+    With v_off < 0 the gate decays toward v_off instead of 0 (the same RC law, every level
+    measured from v_off): t_1 = R_off·C_iss·ln((V_drive − V_off)/(V_pl − V_off)),
+    I_g = (V_pl − V_off)/R_off, t_3 = R_off·C_iss·ln((V_pl − V_off)/(V_th − V_off)).
     """
+    if v_off:
+        threshold = None if v_threshold is None else v_threshold - v_off
+        return turn_off_time(
+            r_off, c_iss, v_drive - v_off, v_plateau - v_off, q_gd, threshold, 0.0 * v_off
+        )
     plateau = min(v_plateau, v_drive)
     t_delay = r_off * c_iss * math.log(_ratio(v_drive, plateau))
     # Q_gd/I_g with I_g = V_pl/R_off, written so that an ideal driver (R_off = 0) gives 0

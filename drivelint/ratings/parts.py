@@ -20,7 +20,12 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 
-SWITCH_KINDS = frozenset({"nmos", "pmos"})
+# "igbt": an IGBT (collector, gate, emitter) judged like an N-channel switch, V_GE for V_GS
+# and V_CE for V_DS; "sic-nmos": an N-channel silicon-carbide MOSFET, whose gate wants a
+# higher on-level and tolerates less below the source than a silicon part.
+SWITCH_KINDS = frozenset({"nmos", "pmos", "igbt", "sic-nmos"})
+# The technology a switch kind names (see ratings.technology); plain MOSFETs name none.
+SWITCH_TECHNOLOGY = {"igbt": "igbt", "sic-nmos": "sic"}
 BJT_KINDS = frozenset({"npn", "pnp"})
 DIODE_KINDS = frozenset({"diode", "zener"})
 SEMICONDUCTOR_KINDS = SWITCH_KINDS | BJT_KINDS | DIODE_KINDS | {"driver"}
@@ -39,6 +44,8 @@ PIN_ROLES = frozenset(
         "high_in_active_low",
         "low_in_active_low",
         "enable",
+        # the negative supply its outputs sink to (VEE): a turn-off level below the switch node
+        "negative",
     }
 )
 

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 from drivelint.circuit.model import Device
 from drivelint.ratings.directives import PART_KEYS, DirectiveSet
-from drivelint.ratings.parts import PartsLibrary
+from drivelint.ratings.parts import SWITCH_TECHNOLOGY, PartsLibrary
 from drivelint.ratings.units import UnitError, parse_quantity
 from drivelint.ratings.values import Value
 
@@ -20,6 +20,34 @@ DEFAULTS: Mapping[str, tuple[float, str]] = {
     "vgs_max": (20.0, "default: typical power MOSFET rating (common practice)"),
     # A silicon junction conducts about 0.7 V (textbook).
     "vf": (0.7, "default: silicon junction forward drop (common practice)"),
+}
+
+# Defaults by switch technology, used before DEFAULTS where the parts file and the model
+# give nothing. Gate ratings of SiC MOSFETs are asymmetric: +22 V / −8 V is a usual
+# absolute-maximum pair, and they are rated on at 15 to 18 V (common practice, from
+# memory; give the part's own figures). IGBTs are rated V_GE = ±20 V; their V_CE(sat) is
+# specified at V_GE = 15 V and rises only a little down to about 13 V, the lowest on-level
+# a 15 V drive at its tolerance is judged against (common practice, from memory).
+TECHNOLOGY_DEFAULTS: Mapping[str, Mapping[str, tuple[float, str]]] = {
+    "sic": {
+        "vgs_max": (
+            22.0,
+            "default: typical SiC MOSFET rating +22 V (common practice, from memory)",
+        ),
+        "vgs_min": (-8.0, "default: typical SiC MOSFET rating −8 V (common practice, from memory)"),
+        "vgs_on": (
+            15.0,
+            "default: SiC MOSFETs are rated on at 15 V (common practice, from memory)",
+        ),
+    },
+    "igbt": {
+        "vgs_max": (20.0, "default: typical IGBT V_GE rating ±20 V (common practice)"),
+        "vgs_on": (
+            13.0,
+            "default: IGBTs are fully on from V_GE = 13 V, V_CE(sat) rated at 15 V "
+            "(common practice, from memory)",
+        ),
+    },
 }
 
 
@@ -77,9 +105,24 @@ class Ratings:
         found = self.get(device, key)
         if found is not None:
             return found
-        default = DEFAULTS.get(key)
+        default = TECHNOLOGY_DEFAULTS.get(self.technology(device), {}).get(key)
+        default = default or DEFAULTS.get(key)
         return Value(default[0], PART_KEYS[key], default[1]) if default else None
+
+    def technology(self, device: Device | None) -> str:
+        return switch_technology(self.parts, device)
 
     def part_kind(self, device: Device | None) -> str | None:
         part = self.parts.get(device.model_name) if device else None
         return part.kind if part else None
+
+
+def switch_technology(parts: PartsLibrary, device: Device | None) -> str:
+    """ "igbt", "sic" or "" (a plain MOSFET): the parts library's kind first, then an IGBT
+    macro recognised in elaboration."""
+    if device is None:
+        return ""
+    part = parts.get(device.model_name)
+    if part is not None and part.kind in SWITCH_TECHNOLOGY:
+        return SWITCH_TECHNOLOGY[part.kind]
+    return device.wrapper.technology if device.wrapper is not None else ""

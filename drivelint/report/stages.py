@@ -62,7 +62,8 @@ def shifter_text(stage: DriveStage, current: Value | None) -> str | None:
 def stage_text(stage: DriveStage, shifter_current: Value | None = None) -> str:
     from drivelint.netlist.values import format_si
 
-    head = f"{stage.span}: {stage.switch} ({stage.channel})"
+    kind = f"{stage.channel}, {stage.technology}" if stage.technology else stage.channel
+    head = f"{stage.span}: {stage.switch} ({kind})"
     if not stage.floating:
         return f"{head}: not floating: {stage.floating_reason}"
     supply = stage.supply
@@ -87,6 +88,12 @@ def stage_text(stage: DriveStage, shifter_current: Value | None = None) -> str:
         parts.append(f"from {supply.aux.net}{volts}")
     if supply.source:
         parts.append(f"source {supply.source}")
+    negative = supply.negative
+    if negative is not None and negative.volts is not None:
+        parts.append(
+            f"turn-off {negative.net} = {format_si(negative.volts, 'V')} to the source "
+            f"({negative.source})"
+        )
     lines.append("    supply:   " + ", ".join(parts))
     if stage.driver is not None:
         pins = " ".join(f"{r}={n}" for r, n in sorted(stage.driver.pins.items()))

@@ -3,7 +3,8 @@
 An instance is a driver when the parts library says so (``kind = "driver"`` with a pin
 table), or when its port names follow the usual pin naming of gate-driver parts. Naming is
 a fact of the trade with no single source (common practice): boot supply pins are called
-VB, BOOT, HB or BST; the switch-node return VS, HS, SW or PH; the high output HO, GH or HG.
+VB, BOOT, HB or BST; the switch-node return VS, HS, SW or PH; the high output HO, GH or HG;
+a negative supply the output sinks to (split turn-off supplies) VEE or VNEG.
 """
 
 from __future__ import annotations
@@ -26,6 +27,8 @@ PIN_NAMES: Mapping[str, frozenset[str]] = {
     "supply": frozenset({"vcc", "vdd", "vin", "vcc1", "pvcc", "vdrv"}),
     "ground": frozenset({"com", "gnd", "vss", "pgnd", "agnd", "sgnd"}),
     "enable": frozenset({"en", "sd", "enable", "sdn", "shdn", "dis"}),
+    # the negative supply the output sinks to, below the switch node (split supplies)
+    "negative": frozenset({"vee", "vee2", "vneg"}),
 }
 _ROLE_BY_NAME = {name: role for role, names in PIN_NAMES.items() for name in names}
 REQUIRED_ROLES = frozenset({"boot", "switch", "high_out"})

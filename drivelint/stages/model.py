@@ -63,6 +63,9 @@ class Supply:
     feed_diode: str | None = None
     clock: Rail | None = None
     riding: bool = False
+    # a turn-off supply below the source (a split isolated supply, +15/−5 V): its net, its
+    # level relative to the source (negative) and the DC source that sets it
+    negative: Rail | None = None
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -84,6 +87,7 @@ class Supply:
                 if self.kind == "charge-pump"
                 else {}
             ),
+            **({"negative": self.negative.to_json()} if self.negative else {}),
         }
 
 
@@ -223,9 +227,16 @@ class DriveStage:
     related: tuple[str, ...] = ()  # every device recognised as part of the stage
     notes: tuple[str, ...] = ()  # what recognition assumed, in words (wires, linear use, …)
     level_shifter: LevelShifter | None = None
+    # "igbt" or "sic" where the switch is one (``channel`` stays "nmos": both are judged as
+    # N-channel switches, V_GE for V_GS and V_CE for V_DS); "" for a silicon MOSFET
+    technology: str = ""
 
     def to_json(self) -> dict[str, Any]:
-        shifter = {"level_shifter": self.level_shifter.to_json()} if self.level_shifter else {}
+        shifter: dict[str, Any] = (
+            {"level_shifter": self.level_shifter.to_json()} if self.level_shifter else {}
+        )
+        if self.technology:
+            shifter["technology"] = self.technology
         return {
             "switch": self.switch,
             "channel": self.channel,

@@ -10,13 +10,14 @@ cannot see, and ``drivelint stages`` shows the user what was and was not recogni
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from drivelint._gc import paused_gc
 from drivelint.circuit.model import GROUND, Circuit, Device
 from drivelint.netlist.waveforms import Dc, Pulse, Pwl, Waveform
 from drivelint.ratings.parts import PartsLibrary
+from drivelint.ratings.ratings import switch_technology
 from drivelint.stages import behaviour
 from drivelint.stages.drivers import find_drivers
 from drivelint.stages.model import (
@@ -35,6 +36,7 @@ from drivelint.stages.wires import Collapsed, collapse_wires
 MAX_PATH_DEVICES = 4  # devices in one pull-up or pull-down path
 MAX_CONTROL_HOPS = 8  # devices between a level shifter's input and its source
 MAX_SERIES_TO_RAIL = 2  # series R/L between a drain or diode and its rail
+MAX_NEGATIVE_STACK = 2  # DC sources stacked from the source to a turn-off supply below it
 MAX_COMBINE_DEPTH = 3  # behavioural sources that combine signals, nested
 MAX_SHIFT_RESISTORS = 3  # series resistors from a P-type pull-up's base to its level shifter
 # A diode between gate and source with a breakdown this low is a Zener/TVS clamp; rectifier
@@ -788,6 +790,8 @@ class _StageBuilder:
         info = view.drivers.get(name)
         if info is not None:
             if pin == "high_out":
+                if not up and info.pins.get("negative"):
+                    return info.pins["negative"]  # the output sinks to its VEE
                 return info.pins.get("boot" if up else "switch")
             if pin == "low_out":
                 return info.pins.get("supply" if up else "ground")
@@ -1123,6 +1127,7 @@ class _StageBuilder:
     def build(self) -> DriveStage:
         floating, reason, bus = self.floating()
         channel = self.switch.model_type or "unknown"
+        technology = switch_technology(self.view.parts, self.switch)
         base = DriveStage(
             switch=self.switch.name,
             channel=channel,
@@ -1133,6 +1138,7 @@ class _StageBuilder:
             floating_reason=reason,
             span=self.switch.span,
             bus=bus,
+            technology=technology,
         )
         if not floating:
             return base
@@ -1145,7 +1151,17 @@ class _StageBuilder:
         up_ends = {supply.boot_net} if supply.boot_net else set()
         up_ends |= self.view.positive_rails
         pullups = self.pull_paths(up_ends, up=True)
+        vee = driver[0].pins.get("negative") if driver is not None else None
+        negative = self.negative_supply() if supply.kind == "isolated" or vee else None
+        if negative is not None and vee and negative.net != vee:
+            negative = None  # the driver's VEE is not the supply found: not guessed
+        if negative is not None:
+            supply = replace(supply, negative=negative)
         down_ends = {self.source, GROUND} | self.view.negative_rails
+        if negative is not None:
+            down_ends.add(negative.net)
+        if vee:
+            down_ends.add(vee)
         if driver is not None and driver[0].pins.get("switch"):
             down_ends.add(driver[0].pins["switch"])
         if behavioural is not None and supply.boot_net:
@@ -1154,7 +1170,11 @@ class _StageBuilder:
             GatePath(
                 p.devices,
                 p.end_net,
-                "source" if p.end_net == supply.boot_net else self.returns(p.end_net),
+                "source"
+                if p.end_net == supply.boot_net
+                else "negative"
+                if negative is not None and p.end_net == negative.net
+                else self.returns(p.end_net),
             )
             for p in self.pull_paths(down_ends, up=False)
         ]
@@ -1260,6 +1280,7 @@ class _StageBuilder:
             driver=driver[0] if driver else None,
             related=tuple(sorted(related)),
             notes=tuple(notes),
+            technology=technology,
             level_shifter=self.level_shifter(control, pullups),
         )
 
@@ -1382,6 +1403,34 @@ class _StageBuilder:
             else (f", reservoir {supply.capacitor} to a fixed net" if supply.capacitor else "")
         )
         return f"charge pump {supply.source} fed from {fed} by {swing}{hold}"
+
+    def negative_supply(self) -> Rail | None:
+        """A turn-off supply below the source: a net one or two DC sources (an isolated
+        supply's negative output, stacked on the source) hold below the source, not a
+        ground-referenced rail. One such net or none; two are not guessed between."""
+        found: list[Rail] = []
+        level = {self.source: 0.0}
+        frontier = [self.source]
+        for _ in range(MAX_NEGATIVE_STACK):
+            onward = []
+            for net in frontier:
+                for name, pin in self.view.at(net):
+                    device = self.view.device(name)
+                    wave = device.waveform if device is not None else None
+                    if device is None or device.kind != "vsource" or wave is None:
+                        continue
+                    if wave.kind != "dc":
+                        continue
+                    other = device.net("n" if pin == "p" else "p")
+                    if other is None or other in level or self.view.is_rail(other):
+                        continue
+                    volts = wave.dc_level()
+                    level[other] = level[net] + (-volts if pin == "p" else volts)
+                    onward.append(other)
+                    if level[other] < 0:
+                        found.append(Rail(other, level[other], source=device.name))
+            frontier = onward
+        return found[0] if len(found) == 1 else None
 
     def returns(self, net: str) -> str:
         if net == self.source:

@@ -399,6 +399,18 @@ def held_supplies(ctx: BenchContext, stress: bool, supply_corner: bool = True) -
         if isinstance(isolated, str):
             return Declined(isolated)
         held = Held({**held.edits, **isolated.edits}, (*held.notes, *isolated.notes))
+    negative = stage.supply.negative
+    if negative is not None and negative.source:
+        # the turn-off supply below the source, at the corner the rule took it: furthest
+        # from the source for a stress figure, nearest for the others
+        off = facts.v_off_negative if stress else facts.v_off_nearest
+        magnitude = Value(-off.value, "V", off.origin) if off is not None else None
+        below = hold_floating(
+            ctx.design, ctx.circuit, negative.source, stage.source, magnitude, why
+        )
+        if isinstance(below, str):
+            return Declined(below)
+        held = Held({**held.edits, **below.edits}, (*held.notes, *below.notes))
     return held
 
 

@@ -93,6 +93,10 @@ CLAIMS: Mapping[str, tuple[str, ...]] = {
     "bootstrap-no-refresh/no path": (),
     "dc-hold": ("hold_time", "i_drain"),
     "gate-overvoltage/negative": ("vgs_max_negative", "vgs_pulled_down"),
+    "gate-overvoltage/turn-off supply": ("vgs_max_negative",),
+    # the clamp level is the forward drop the rule takes (0.7 V by default), not the one the
+    # diode law gives at the current it carries: the deck shows the failure by its limit
+    "gate-overvoltage/clamp against turn-off": (),
     "gate-overvoltage/positive": ("vgs_max_positive",),
     "gate-overvoltage/output short": ("vgs_output_short",),
     "gate-overvoltage/clamp below drive": (
@@ -129,6 +133,8 @@ STRESS_KINDS = frozenset(
         "bootstrap-diode-voltage",
         "gate-pulldown-missing",
         "gate-overvoltage/negative",
+        "gate-overvoltage/turn-off supply",
+        "gate-overvoltage/clamp against turn-off",
         "gate-overvoltage/positive",
         "gate-overvoltage/output short",
         "gate-overvoltage/clamp below drive",
@@ -501,6 +507,10 @@ def _gate_kind(finding: Finding, stage: DriveStage) -> str:
     clamp = next((c for c in stage.clamps if finding.device in (c.devices or (c.device,))), None)
     if "vgs_pulled_down" in values:
         return "negative"
+    if "v_off_nearest" in values:
+        return "clamp against turn-off"
+    if "v_off_negative" in values:
+        return "turn-off supply"
     if clamp is None and finding.device == stage.switch and _beyond_only_when_shorted(values):
         return "output short"
     if clamp is None:
@@ -537,7 +547,7 @@ NOT_SHOWN = {
 
 def gate_overvoltage(ctx: BenchContext) -> Bench | Declined:
     kind = gate_kind(ctx)
-    if kind == "negative":
+    if kind in ("negative", "turn-off supply", "clamp against turn-off"):
         return _negative_vgs(ctx)
     if kind in ("clamp below drive", "clamp reversed"):
         return _clamp_in_drive(ctx)
@@ -572,7 +582,8 @@ def _bench_on_time(ctx: BenchContext) -> float:
 
 def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
     stage = ctx.stage
-    limit = ctx.value("vgs_limit_negative")
+    kind = gate_kind(ctx)
+    limit = ctx.value("v_off_nearest" if kind == "clamp against turn-off" else "vgs_limit_negative")
     if limit is None:
         return Declined("the finding gives no negative V_GS limit")
     start = charge_time(ctx)
@@ -587,6 +598,7 @@ def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
     if isinstance(made, Declined):
         return made
     vgs = _vgs(ctx)
+    measured = "clamp_negative_level" if kind == "clamp against turn-off" else "vgs_max_negative"
     cards = [
         at(
             "tb_source_at_turn_off",
@@ -594,9 +606,12 @@ def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
             turn_off,
             "the source voltage at the turn-off command (the rule holds it at the bus)",
         ),
-        extreme("vgs_max_negative", "MIN", vgs, turn_off, stop, "lowest V_GS after turn-off"),
-        extreme("vgs_pulled_down", "MIN", vgs, turn_off, stop, "V_GS as the pull-down acts"),
+        extreme(measured, "MIN", vgs, turn_off, stop, "lowest V_GS after turn-off"),
     ]
+    if kind == "negative":
+        cards.append(
+            extreme("vgs_pulled_down", "MIN", vgs, turn_off, stop, "V_GS as the pull-down acts")
+        )
     claims = _claims(ctx)
     return Bench(
         edits=made.edits,
@@ -605,7 +620,17 @@ def _negative_vgs(ctx: BenchContext) -> Bench | Declined:
         cards=tuple(cards),
         claims=tuple(claims),
         limits=(
-            Limit("vgs_max_negative", limit, ">=", "V_GS stays within its negative limit", "V"),
+            Limit(
+                measured,
+                limit,
+                "<=",
+                "V_GS reaches the turn-off supply's level (the clamp does not hold it)",
+                "V",
+            )
+            if kind == "clamp against turn-off"
+            else Limit(
+                "vgs_max_negative", limit, ">=", "V_GS stays within its negative limit", "V"
+            ),
         ),
         notes=made.notes,
         uic=ctx.design.uses_uic(),

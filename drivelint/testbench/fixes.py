@@ -315,6 +315,17 @@ def gate_overvoltage(ctx: BenchContext) -> Fix | Declined:
             "the fix is a lower gate supply or a resistor-fed Zener from a rail, a change of "
             "the supply design rather than a value or a part"
         )
+    if kind == "clamp against turn-off":
+        return Declined(
+            "the fix adds a Zener in series with the clamp (a new part and a new node), not a "
+            "value or a part change"
+        )
+    if kind == "turn-off supply":
+        return Declined(
+            "the fix sets the isolated turn-off supply's output, which the deck already holds "
+            "at the level the rule judged; the fixed level is the finding's own arithmetic "
+            "(V_neg × (1 + tolerance) within the rating)"
+        )
     return Declined("the finding has no testbench, so no fixed deck either")
 
 

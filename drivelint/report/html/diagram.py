@@ -240,7 +240,13 @@ def stage_svg(stage: DriveStage, circuit: Circuit, highlight: Iterable[str] = ()
             wires.append(_wire(x, y_gate, x, stop))
             boxes.extend(_chain(canvas, x, y_gate, y_node, path.devices))
             marks.append(_terminal(x, stop))
-            marks.append(_label(x + 7, stop + 4, path.returns_to))
+            label = path.returns_to
+            negative = stage.supply.negative
+            if path.returns_to == "negative" and negative is not None:
+                # a turn-off supply: its level is against the source, not ground
+                level = f" {format_si(negative.volts, 'V')}" if negative.volts is not None else ""
+                label = f"{path.end_net}{level} to source"
+            marks.append(_label(x + 7, stop + 4, label))
 
     # Clamps across gate and source.
     for x, clamp in zip(clamp_x, clamps, strict=True):
