@@ -818,12 +818,12 @@ def _fix(edge: Edge, r_max: float, allowed: float, margin: float) -> str:
                 f"{_ohm(value)} gate resistor (at most {rate * 1e-9:.3g} V/ns, an edge of "
                 f"{format_si(edge.v_swing.value / rate, 's')})"
             )
-    options.append(
-        "A review aid, not a substitute for a qualified engineer, the parts' datasheets or "
-        "local codes: mains and high-voltage stages can kill, and a quiet rule does not make "
-        "one safe."
-    )
-    text = "; ".join(options[:-1]) + ". " + options[-1]
+    if not options:
+        options.append(
+            f"hold the gate of {name} off more firmly: a lower off-path resistance, a negative "
+            "turn-off bias, or a slower edge of the other switch"
+        )
+    text = "; ".join(options).removeprefix("or ")
     return text[0].upper() + text[1:]
 
 

@@ -543,10 +543,7 @@ def _overlap_finding(
     fix = (
         f"move {move}'s turn-on edge {_ns(shift)} later (a dead time of at least "
         f"{_ns(needed)} after the other switch's turn-off command, from "
-        f"t_prop_mismatch + t_off + margin), or use a driver with a shoot-through interlock. "
-        "A review aid, not a substitute for a qualified engineer, the parts' datasheets or "
-        "local codes: mains and high-voltage stages can kill, and a quiet rule does not make "
-        "one safe."
+        f"t_prop_mismatch + t_off + margin), or use a driver with a shoot-through interlock"
     )
     derivation = (
         f"period {_ns(timing.period)}; {stage.switch} on for {_ns(timing.on_time)} from its "
@@ -640,9 +637,7 @@ def _short_finding(
             else ""
         )
         + ", or speed up the turn-off (a smaller turn-off gate resistance, a diode across it "
-        "or a stronger sink). A review aid, not a substitute for a qualified engineer, the "
-        "parts' datasheets or local codes: mains and high-voltage stages can kill, and a "
-        "quiet rule does not make one safe."
+        "or a stronger sink)"
     )
     derivation = (
         f"dead time at {where}: {_ns(dead)} ({values['dead_time'].origin})",

@@ -355,9 +355,7 @@ def _pulled_on(
         "resistor (10 kΩ–100 kΩ, common practice), or use a driver whose output is held "
         "low when unpowered; a gate–source resistor alone would have to be below "
         f"{format_si(pull_up.ohms * vth.value / 2 / max(pull_up.volts - vth.value / 2, 1e-9), 'Ω')}"
-        " to hold V_GS at half the threshold, which leaves no on-drive. A review aid, not "
-        "a substitute for a qualified engineer, the parts' datasheets or local codes: mains "
-        "and high-voltage stages can kill, and a quiet rule does not make one safe."
+        " to hold V_GS at half the threshold, which leaves no on-drive"
     )
     derivation = (
         "V_GS,held = Σ(V_k/R_k)/Σ(1/R_k) over the passive paths: "
@@ -476,15 +474,10 @@ def _fix_text(
     values: dict[str, Value],
     derivation: list[str],
 ) -> str:
-    caution = (
-        " A review aid, not a substitute for a qualified engineer, the parts' datasheets or "
-        "local codes: mains and high-voltage stages can kill, and a quiet rule does not make "
-        "one safe."
-    )
     if vth is None:
         return (
             f"add a resistor from {stage.switch}'s gate to its source (10 kΩ–100 kΩ, common "
-            "practice), or use a driver whose output is held low when unpowered." + caution
+            "practice), or use a driver whose output is held low when unpowered"
         )
     bound = fraction * vth.value
     chosen = suggest_resistor(delta_v, rise, caps, bound)
@@ -493,7 +486,7 @@ def _fix_text(
             f"no gate–source resistor of {format_si(FIX_LOWEST, 'Ω')} or more holds the gate "
             f"below {_v(bound)} for a {_v(delta_v)} bus rising in {format_si(rise, 's')}: "
             "slow the bus's rise (a precharge), add capacitance from gate to source, or use "
-            "a driver that holds its output low when unpowered." + caution
+            "a driver that holds its output low when unpowered"
         )
     ohms, peak = chosen
     tau = ohms * (caps.c_gs.value + caps.c_gd.value)
@@ -538,7 +531,7 @@ def _fix_text(
         f"{FIX_SERIES} value that holds the gate within {fraction:g} × V_th = {_v(bound)} for "
         f"a bus rising in {format_si(rise, 's')}: its peak is {_v(peak)}, τ = "
         f"{format_si(tau, 's')}){drain}; or "
-        "use a driver whose output is held low when unpowered." + caution
+        "use a driver whose output is held low when unpowered"
     )
 
 

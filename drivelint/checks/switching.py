@@ -49,10 +49,6 @@ from drivelint.stages.model import DriveStage
 CORNER_USES = frozenset({"supply", "charge", "bus"})
 # A load whose L/R is under this share of the on- and the off-time is taken as resistive.
 RESISTIVE_TAU_SHARE = 0.1
-CAUTION = (
-    "A review aid, not a substitute for a qualified engineer, the parts' datasheets or local "
-    "codes: mains and high-voltage stages can kill, and a quiet rule does not make one safe."
-)
 
 
 def _s(value: float) -> str:
@@ -451,7 +447,7 @@ def _edge_finding(found: Transitions, facts: StageFacts, ctx: CheckContext) -> F
         device,
         message,
         values,
-        fix=fix[0].upper() + fix[1:] + ". " + CAUTION,
+        fix=fix[0].upper() + fix[1:],
         derivation=derivation,
         severity=Severity.WARNING,
     )
@@ -660,7 +656,7 @@ def _junction_finding(subject: Subject, facts: StageFacts, ctx: CheckContext) ->
         name,
         message,
         values,
-        fix=text[0].upper() + text[1:] + ". " + CAUTION,
+        fix=text[0].upper() + text[1:],
         derivation=derivation,
         severity=severity,
     )

@@ -336,12 +336,7 @@ def _vs_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Find
         f"{driver}'s switch pin swings up to {edge.v_undershoot.text()} against its common, past "
         f"its rating {limit.text()}: the driver can latch up or lose its high output's state"
     )
-    fix = (
-        "; or ".join(fixes)
-        + ". A review aid, not a substitute for a qualified engineer, the parts' datasheets "
-        "or local codes: mains and high-voltage stages can kill, and a quiet rule does not "
-        "make one safe."
-    )
+    fix = "; or ".join(fixes)
     derivation = (
         *_derivation(edge),
         f"against {driver}'s vs_min {limit.text()}",
