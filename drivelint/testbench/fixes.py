@@ -166,7 +166,7 @@ def _zener_values(near: float) -> list[float]:
 def clamp_drive(ctx: BenchContext) -> float | None:
     """The on-state drive a gate–source Zener must stay off at, as gate-overvoltage takes
     it: the floating supply's pull-up after charge sharing, or none for a rail-fed gate."""
-    from drivelint.checks.gate import gate_extremes
+    from drivelint.checks.gate_levels import gate_extremes
 
     found = gate_extremes(ctx.stage, ctx.facts, ctx.options)
     return found.boot_drive.on_level if found.boot_drive is not None else None

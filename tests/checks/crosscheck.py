@@ -307,7 +307,7 @@ def junction_of(facts: StageFacts) -> tuple[float, float, float] | None:
 def computed_values(stage: DriveStage, facts: StageFacts) -> dict[str, float]:
     """drivelint's figures for the stage, from the same functions the rules use."""
     from drivelint.checks.diode import reverse_voltage
-    from drivelint.checks.gate import gate_extremes
+    from drivelint.checks.gate_levels import gate_extremes
     from drivelint.checks.refresh import sustained_boot
     from drivelint.checks.registry import registry
 
