@@ -911,27 +911,26 @@ class StageFacts:
         how = "V_aux − V_F" + (" − V_sw,low" if self.v_sw_low.value else "")
         return Value(volts, "V", f"computed: {how}")
 
-    @cached_property
-    def v_off_negative(self) -> Value | None:
-        """The turn-off supply below the source (negative), at its furthest from the source
-        (the supply tolerance's high side, as the positive supply at v_boot_max)."""
+    def _turn_off_level(self, furthest: bool) -> Value | None:
+        """The turn-off supply below the source (negative) at one side of its tolerance."""
         negative = self.stage.supply.negative
         if negative is None or negative.volts is None:
             return None
         level = Value(-negative.volts, "V", f"isolated turn-off source {negative.source}")
-        furthest = supply_corner(self, level, 0.0, "supply_tolerance", True, "supply")
-        return Value(-furthest.value, "V", furthest.origin)
+        moved = supply_corner(self, level, 0.0, "supply_tolerance", furthest, "supply")
+        return Value(-moved.value, "V", moved.origin)
+
+    @cached_property
+    def v_off_negative(self) -> Value | None:
+        """The turn-off supply below the source (negative), at its furthest from the source
+        (the supply tolerance's high side, as the positive supply at v_boot_max)."""
+        return self._turn_off_level(furthest=True)
 
     @cached_property
     def v_off_nearest(self) -> Value | None:
         """The same turn-off supply at its nearest to the source (the low end of its
         tolerance): the least help it gives against an induced rise or a slow turn-off."""
-        negative = self.stage.supply.negative
-        if negative is None or negative.volts is None:
-            return None
-        level = Value(-negative.volts, "V", f"isolated turn-off source {negative.source}")
-        nearest = supply_corner(self, level, 0.0, "supply_tolerance", False, "supply")
-        return Value(-nearest.value, "V", nearest.origin)
+        return self._turn_off_level(furthest=False)
 
     @cached_property
     def v_boot_max(self) -> Value | None:

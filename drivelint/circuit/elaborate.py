@@ -1449,16 +1449,9 @@ def map_wrapper_ports(
     return _WrapperPins(tuple(pins), gate_resistance, body)
 
 
-@dataclass(frozen=True, slots=True)
-class _IgbtPins:
-    pins: tuple[tuple[str, str], ...]
-    gate_resistance: float | None
-    body_diode: str | None
-
-
 def map_igbt_ports(
     fet: Device, bjt: Device, devices: Sequence[Device], ports: Mapping[str, str]
-) -> _IgbtPins | None:
+) -> _WrapperPins | None:
     """The outer nets of an IGBT macro's collector, gate and emitter, or None when the
     body is not that shape: the PNP's emitter at the collector port, its base on the
     MOSFET's drain, its collector and the MOSFET's source at the emitter port, the gate
@@ -1520,7 +1513,7 @@ def map_igbt_ports(
         ):
             body = device.model_name
     pins = (("d", outer["c"]), ("g", outer["g"]), ("s", outer["e"]))
-    return _IgbtPins(pins, ohms if ohms > 0 else None, body)
+    return _WrapperPins(pins, ohms if ohms > 0 else None, body)
 
 
 def find_rails(devices: Iterable[Device]) -> dict[str, float]:
