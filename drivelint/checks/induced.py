@@ -548,21 +548,25 @@ def edge_currents(stage: DriveStage, facts: StageFacts) -> tuple[float, float] |
     load = inductor_load(stage, facts)
     if load is None or facts.v_bus is None or facts.duty_max is None or facts.fsw is None:
         return None
-    henries, v_ref, conductance = load
-    return dvdt.load_current_at_edges(
-        facts.v_bus.value,
-        facts.v_sw_low.value,
-        facts.duty_max.value,
-        facts.fsw.value,
-        henries,
-        v_ref,
-        conductance,
+    henries, v_ref, conductance, farads = load
+    bus, low = facts.v_bus.value, facts.v_sw_low.value
+    currents = dvdt.load_current_at_edges(
+        bus, low, facts.duty_max.value, facts.fsw.value, henries, v_ref, conductance
     )
+    # Into resistors alone (no capacitor holds the far end over a period), the current can
+    # never pass the ones the two states approach, (V − V_ref)·G: a triangle beyond them
+    # (an inductor small against its load) is outside its range, and is not estimated.
+    held = conductance > 0 and farads / conductance >= 1.0 / facts.fsw.value
+    bound = max(abs(bus - v_ref), abs(low - v_ref)) * conductance
+    if conductance > 0 and not held and max(map(abs, currents)) > bound * (1 + 1e-9):
+        return None
+    return currents
 
 
-def inductor_load(stage: DriveStage, facts: StageFacts) -> tuple[float, float, float] | None:
-    """(L [H], V_ref [V], G [S]) of a switch node whose load is one inductor into resistors
-    (and capacitors) to fixed levels, with a steady duty and frequency; None otherwise."""
+def inductor_load(stage: DriveStage, facts: StageFacts) -> tuple[float, float, float, float] | None:
+    """(L [H], V_ref [V], G [S], C [F]) of a switch node whose load is one inductor into
+    resistors and capacitors (C in all) to fixed levels, with a steady duty and frequency;
+    None otherwise."""
     if facts.modulated or facts.v_bus is None:
         return None
     duty, fsw = facts.duty_max, facts.fsw
@@ -581,7 +585,7 @@ def inductor_load(stage: DriveStage, facts: StageFacts) -> tuple[float, float, f
     far = _other(inductor, stage.source)
     if far is None or far == GROUND or far in rails:
         return None
-    conductance, pulled = 0.0, 0.0
+    conductance, pulled, farads = 0.0, 0.0, 0.0
     for device in facts.by_net.get(far, ()):
         if device.name == inductor.name:
             continue
@@ -595,8 +599,10 @@ def inductor_load(stage: DriveStage, facts: StageFacts) -> tuple[float, float, f
                 return None
             conductance += 1.0 / ohms
             pulled += level / ohms
+        else:
+            farads += (device.value or 0.0) * device.multiplier
     v_ref = pulled / conductance if conductance else 0.0
-    return henries, v_ref, conductance
+    return henries, v_ref, conductance, farads
 
 
 def _partner_edge_hard(stage: DriveStage, facts: StageFacts) -> bool:

@@ -213,7 +213,7 @@ def operating_point(stage: DriveStage, facts: StageFacts) -> OperatingPoint | No
     bus, duty, fsw = facts.v_bus, facts.duty_max, facts.fsw
     if load is None or bus is None or duty is None or fsw is None:
         return None
-    henries, v_ref, conductance = load
+    henries, v_ref, conductance, _ = load
     if conductance <= 0:
         return None
     low, high = dvdt.load_current_at_edges(

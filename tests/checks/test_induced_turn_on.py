@@ -295,3 +295,21 @@ def test_a_gate_drain_capacitance_beyond_any_part_is_a_quiet_edge(tmp_path: Path
     deck.write_text(text, encoding="utf-8")
     result = check_path(deck)
     assert not [d for d in result.diagnostics if d.code == "internal-error"]
+
+
+def test_edge_currents_stay_within_what_the_load_can_carry(tmp_path: Path) -> None:
+    """The steady-state triangle (Erickson & Maksimović) holds for a buck's inductor into
+    its output capacitor; into a resistor alone with an inductor small against it
+    (2 uH into 3 Ω, L/R 0.67 us at a 10 us period: the triangle would peak near 26 A)
+    the current can never pass (V_bus − V_ref)/R = 16 A, so a
+    triangle beyond that is outside its range and the currents are not estimated."""
+    text = BAD.read_text(encoding="utf-8")
+    stage, facts = facts_of(BAD, "m1")
+    low, high = induced.edge_currents(stage, facts) or (None, None)
+    assert low is not None and high is not None and low < high  # the buck: a triangle
+    small = text.replace("L1 sw out 22u IC=4", "L1 sw out 2u").replace("COUT out 0 47u IC=12\n", "")
+    (tmp_path / "drivelint.toml").write_text("", encoding="utf-8")
+    deck = tmp_path / "small_l.cir"
+    deck.write_text(small, encoding="utf-8")
+    stage, facts = facts_of(deck, "m1")
+    assert induced.edge_currents(stage, facts) is None
