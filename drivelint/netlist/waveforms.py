@@ -92,7 +92,11 @@ def _wrap(time: float, period: float) -> float:
     if math.isinf(cycles):
         # A period so short that the count of periods overflows: fmod needs no count.
         return math.fmod(time, period)
-    return time - period * math.floor(cycles)
+    wrapped = time - period * math.floor(cycles)
+    if not 0.0 <= wrapped <= period:
+        # so many periods that the product's rounding exceeds a period: fmod is exact
+        return math.fmod(time, period)
+    return wrapped
 
 
 def _json_number(value: float | None) -> float | str | None:

@@ -1098,3 +1098,14 @@ def test_cli_on_directed_cases(tmp_path: Path) -> None:
         result = runner.invoke(main, ["netlist", "--format", "json", str(path)])
         assert result.exception is None or isinstance(result.exception, SystemExit), name
         assert result.exit_code in (0, 2), (name, result.output[-2000:])
+
+
+def test_a_pulse_period_far_below_its_edges_stays_within_its_levels() -> None:
+    """PULSE(0 1 0 0 0 0 1e-300) under .tran 1n: 1e300 periods by t = 1 s, whose product
+    rounds by more than a period; the value stays within what high() says it reaches."""
+    from drivelint.netlist.waveforms import Pulse
+
+    wave = Pulse(
+        notes=(), defaulted=(), v1=0.0, v2=1.0, td=0.0, tr=1e-9, tf=1e-9, pw=1e-6, per=1e-300
+    )
+    assert wave.low() <= wave.value_at(1.0) <= wave.high() + 1e-9 * 1e-300
