@@ -1382,6 +1382,17 @@ class _WrapperPins:
     body_diode: str | None
 
 
+def _series_adjacency(devices: Sequence[Device]) -> dict[str, list[tuple[str, Device]]]:
+    """Each net's neighbours through one two-terminal series part (R or L) of a wrapper."""
+    adjacency: dict[str, list[tuple[str, Device]]] = {}
+    for device in devices:
+        if device.kind in SERIES_KINDS and len(device.pins) == 2:
+            (_, a), (_, b) = device.pins
+            adjacency.setdefault(a, []).append((b, device))
+            adjacency.setdefault(b, []).append((a, device))
+    return adjacency
+
+
 def map_wrapper_ports(
     fet: Device, devices: Sequence[Device], ports: Mapping[str, str]
 ) -> _WrapperPins | None:
@@ -1391,12 +1402,7 @@ def map_wrapper_ports(
     that reaches no terminal, or a terminal that no port reaches means the subcircuit is
     not a plain wrapper and is left flattened.
     """
-    adjacency: dict[str, list[tuple[str, Device]]] = {}
-    for device in devices:
-        if device.kind in SERIES_KINDS and len(device.pins) == 2:
-            (_, a), (_, b) = device.pins
-            adjacency.setdefault(a, []).append((b, device))
-            adjacency.setdefault(b, []).append((a, device))
+    adjacency = _series_adjacency(devices)
     terminals = {role: net for role, net in fet.pins if role in ("d", "g", "s", "b")}
     if fet.model is not None and fet.model.type == "vdmos":
         terminals.pop("b", None)
@@ -1466,12 +1472,7 @@ def map_igbt_ports(
             return None
         roles[role] = found[0]
     # each port's inner net is its outer net; walk series R/L inside from each terminal
-    adjacency: dict[str, list[tuple[str, Device]]] = {}
-    for device in devices:
-        if device.kind in SERIES_KINDS and len(device.pins) == 2:
-            (_, a), (_, b) = device.pins
-            adjacency.setdefault(a, []).append((b, device))
-            adjacency.setdefault(b, []).append((a, device))
+    adjacency = _series_adjacency(devices)
 
     def reach(start: str | None) -> dict[str, float]:
         if start is None:

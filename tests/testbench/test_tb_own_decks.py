@@ -12,7 +12,7 @@ import re
 from pathlib import Path
 
 import pytest
-from testbench_support import DECKS, NGSPICE, build, needs_ngspice
+from testbench_support import DECKS, NGSPICE, build, needs_ngspice, record_of
 
 from drivelint.netlist.values import format_si
 from drivelint.pipeline import check_path
@@ -27,11 +27,7 @@ def built(tmp_path_factory: pytest.TempPathFactory) -> Outcome:
 
 
 def _record(built: Outcome, netlist: str, rule: str) -> Record:
-    (record,) = [
-        r for r in built.records if r.finding.span.path.endswith(netlist) and r.finding.rule == rule
-    ]
-    assert record.deck is not None, record.reason
-    return record
+    return record_of(built, netlist, rule)
 
 
 def _confirmed(record: Record, *keys: str) -> None:

@@ -7,7 +7,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from testbench_support import NGSPICE, build, needs_ngspice
+from testbench_support import NGSPICE, build, needs_ngspice, record_of
 
 from drivelint.pipeline import check_path
 from drivelint.testbench.command import Outcome, Record
@@ -22,15 +22,7 @@ def built(tmp_path_factory: pytest.TempPathFactory) -> Outcome:
 
 
 def _record(built: Outcome, device: str) -> Record:
-    (record,) = [
-        r
-        for r in built.records
-        if r.finding.span.path.endswith("buck48_slow_gate.cir")
-        and r.finding.rule == RULE
-        and r.finding.device == device
-    ]
-    assert record.deck is not None, record.reason
-    return record
+    return record_of(built, "buck48_slow_gate.cir", RULE, device)
 
 
 def test_the_clean_leg_has_no_deck(built: Outcome) -> None:

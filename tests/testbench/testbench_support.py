@@ -10,7 +10,7 @@ import pytest
 
 from drivelint.batch import BatchOptions, plan
 from drivelint.pipeline import collect_paths
-from drivelint.testbench.command import BenchOptions, Outcome, make_testbenches
+from drivelint.testbench.command import BenchOptions, Outcome, Record, make_testbenches
 
 ROOT = Path(__file__).resolve().parents[2]
 EXAMPLES = ROOT / "examples"
@@ -29,3 +29,17 @@ def build(sources: Iterable[Path], output: Path, run: bool = False) -> Outcome:
 def needs_ngspice() -> None:
     if NGSPICE is None:
         pytest.skip(NO_NGSPICE)
+
+
+def record_of(built: Outcome, netlist: str, rule: str, device: str | None = None) -> Record:
+    """The one record of ``rule``'s finding in ``netlist`` (on ``device``, where given),
+    which must have a deck."""
+    (record,) = [
+        r
+        for r in built.records
+        if r.finding.span.path.endswith(netlist)
+        and r.finding.rule == rule
+        and (device is None or r.finding.device == device)
+    ]
+    assert record.deck is not None, record.reason
+    return record
