@@ -69,6 +69,10 @@ class Commutation:
 def _load_current(stage: DriveStage, facts: StageFacts) -> Value | None:
     given = facts.condition("load_current")
     if given is not None:
+        # no current out of the switch node at the turn-off: nothing commutates into the
+        # freewheeling part
+        if not given.value > 0:
+            return None
         return Value(given.value, "A", f"condition load_current ({given.origin})")
     currents = edge_currents(stage, facts)
     # the steady-state relations hold where the current stays one way all cycle (a ripple

@@ -118,6 +118,13 @@ def test_no_load_current_from_anywhere_is_not_judged() -> None:
     assert lint(text) == []
 
 
+def test_no_load_current_is_not_judged() -> None:
+    # nothing commutates into the freewheeling part at the turn-off (found by the
+    # hostile-input campaign: a zero current gave a zero rate and a division by it)
+    text = BAD.read_text(encoding="utf-8").replace("load_current=20A", "load_current=0")
+    assert lint(text) == []
+
+
 def _stiff_boot_path() -> str:
     """The bad deck with no resistor in the boot path and a 100 nF capacitor, its switch
     rated 13 V: the boot path takes the load current the loop's 15 nH cannot yet."""
