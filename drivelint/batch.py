@@ -21,14 +21,15 @@ from typing import TYPE_CHECKING, TypeVar
 
 from drivelint import __version__
 from drivelint.cache import CACHE_FORMAT, default_cache_dir, digest, file_digest
-from drivelint.checks.runner import CheckResult
-from drivelint.circuit.model import Circuit, Device
 from drivelint.config import Config, find_config, load_config, may_widen
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.paths import resolved
 
 if TYPE_CHECKING:
+    from drivelint.checks.runner import CheckResult
+    from drivelint.circuit.model import Circuit, Device
     from drivelint.pipeline import LoadOptions
+    from drivelint.report.brief import Brief
     from drivelint.stages.model import DriveStage
 
 __all__ = ["default_cache_dir"]
@@ -188,12 +189,16 @@ def guarded(
 
 
 def failed_circuit(path: Path, message: str, code: str) -> Circuit:
+    from drivelint.circuit.model import Circuit
+
     span = Span(str(path), 1, 1)
     diagnostic = Diagnostic(Severity.ERROR, span, message, "", code)
     return Circuit(str(path), "", {}, (), {}, {}, frozenset(), (), (diagnostic,))
 
 
 def _failure(path: Path, message: str, code: str) -> CheckResult:
+    from drivelint.checks.runner import CheckResult
+
     circuit = failed_circuit(path, message, code)
     return CheckResult(circuit, (), (), circuit.diagnostics)
 
@@ -324,7 +329,7 @@ def cache_key(job: Job, options: BatchOptions) -> str | None:
     """The key of a job's result, or None when the job is not cacheable (standard input,
     an unreadable file)."""
     from drivelint.netlist.reader import read_bounded
-    from drivelint.pipeline import find_project_root
+    from drivelint.paths import find_project_root
 
     if options.cache_dir is None or job.text is not None:
         return None
@@ -354,6 +359,7 @@ def cache_key(job: Job, options: BatchOptions) -> str | None:
 def cache_lookup(job: Job, options: BatchOptions) -> CheckResult | None:
     """The cached result of a job whose netlist, includes and settings are unchanged."""
     from drivelint.cache import read_entry
+    from drivelint.checks.runner import CheckResult
 
     key = cache_key(job, options)
     if key is None or options.cache_dir is None:
@@ -362,22 +368,49 @@ def cache_lookup(job: Job, options: BatchOptions) -> CheckResult | None:
     return found if isinstance(found, CheckResult) else None
 
 
-def check_and_store(job: Job, options: BatchOptions) -> CheckResult:
-    """Check a job and, when it completed, keep its result in the cache."""
+def brief_lookup(job: Job, options: BatchOptions) -> Brief | None:
+    """The cached brief of a job whose netlist, includes and settings are unchanged."""
+    from drivelint.cache import read_brief
+    from drivelint.report.brief import Brief
+
+    key = cache_key(job, options)
+    if key is None or options.cache_dir is None:
+        return None
+    found = read_brief(options.cache_dir, key)
+    return found if isinstance(found, Brief) else None
+
+
+def _checked(job: Job, options: BatchOptions, want_brief: bool) -> tuple[CheckResult, Brief | None]:
+    """Check a job and, when it completed, keep its result and brief in the cache; the
+    brief is made when it is kept or wanted."""
     from drivelint.cache import write_entry
+    from drivelint.report.brief import brief_of
 
     inputs: list[tuple[str, str, str]] = []
     result = slim(check_job(job, options, inputs))
     key = cache_key(job, options)
     if key is None or options.cache_dir is None:
-        return result
+        return result, brief_of(result) if want_brief else None
+    brief = brief_of(result)
     if any(d.code in ("internal-error", "limit") for d in result.diagnostics):
-        return result  # a crash or a bound is not worth keeping: the next run tries again
+        return result, brief  # a crash or a bound is not worth keeping: the next run tries again
     # The netlist itself is in the key already (its bytes and where its path leads).
     top = (str(job.path.absolute()), str(resolved(job.path)))
     inputs = [i for i in inputs if not (i[0] == "file" and i[1] == top[1]) and i[1] != top[0]]
-    write_entry(options.cache_dir, key, inputs, result)
-    return result
+    write_entry(options.cache_dir, key, inputs, result, brief)
+    return result, brief
+
+
+def check_and_store(job: Job, options: BatchOptions) -> CheckResult:
+    """Check a job and, when it completed, keep its result in the cache."""
+    return _checked(job, options, False)[0]
+
+
+def brief_and_store(job: Job, options: BatchOptions) -> Brief:
+    """Check a job as :func:`check_and_store` does; its brief."""
+    brief = _checked(job, options, True)[1]
+    assert brief is not None
+    return brief
 
 
 def cached_check(job: Job, options: BatchOptions) -> tuple[CheckResult, bool]:
@@ -476,6 +509,10 @@ def _worker(args: tuple[Job, BatchOptions]) -> CheckResult:
     return check_and_store(*args)
 
 
+def _brief_worker(args: tuple[Job, BatchOptions]) -> Brief:
+    return brief_and_store(*args)
+
+
 def _warm_up() -> None:
     """Load what every check needs before workers fork, so they inherit it."""
     from drivelint.cache import prepare
@@ -499,7 +536,46 @@ def run_batch(
     Cache hits are answered here; only the misses go to the worker processes. Ctrl-C ends
     the workers before it reaches the caller as KeyboardInterrupt.
     """
-    from drivelint.cache import prepare, private_folder
+    from drivelint.report.status import failed
+
+    return _run(
+        jobs,
+        options,
+        progress,
+        cache_lookup,
+        _worker,
+        lambda r: r.circuit.path if failed(r) else None,
+    )
+
+
+def run_batch_brief(
+    jobs: Sequence[Job],
+    options: BatchOptions,
+    progress: Callable[[int], None] | None = None,
+) -> tuple[list[Brief], BatchStats]:
+    """Check every job as :func:`run_batch` does; each file's brief (what a plain text
+    report, the summary and the exit code read), from the cache where it holds one."""
+    return _run(
+        jobs,
+        options,
+        progress,
+        brief_lookup,
+        _brief_worker,
+        lambda b: b.path if b.status == "error" else None,
+    )
+
+
+def _run(
+    jobs: Sequence[Job],
+    options: BatchOptions,
+    progress: Callable[[int], None] | None,
+    lookup: Callable[[Job, BatchOptions], T | None],
+    work: Callable[[tuple[Job, BatchOptions]], T],
+    failed: Callable[[T], str | None],
+) -> tuple[list[T], BatchStats]:
+    """The batch: ``lookup`` answers from the cache, ``work`` checks a miss (in a worker
+    when there are several), ``failed`` names a file that could not be checked."""
+    from drivelint.cache import private_folder
 
     if options.cache_dir is not None and not private_folder(options.cache_dir):
         from dataclasses import replace
@@ -507,16 +583,14 @@ def run_batch(
         options = replace(options, cache_dir=None)  # someone else could write there
     stats = BatchStats(files=len(jobs))
     _ROOTS.clear()  # a marker may have been added since the last batch in this process
-    if options.cache_dir is not None:
-        prepare()
-    results: list[CheckResult | None] = [cache_lookup(j, options) for j in jobs]
+    results: list[T | None] = [lookup(j, options) for j in jobs]
     stats.from_cache = sum(r is not None for r in results)
     if progress and stats.from_cache:
         progress(stats.from_cache)
     missing = [i for i, r in enumerate(results) if r is None]
     if options.jobs <= 1 or len(missing) <= 1:
         for index in missing:
-            results[index] = check_and_store(jobs[index], options)
+            results[index] = work((jobs[index], options))
             if progress:
                 progress(1)
     else:
@@ -528,8 +602,8 @@ def run_batch(
         chunk = max(1, min(16, len(missing) // (workers * 8) or 1))
         pool = multiprocessing.Pool(workers, _worker_start, (os.getpid(),))
         try:
-            work = [(jobs[i], options) for i in missing]
-            for index, result in zip(missing, pool.imap(_worker, work, chunksize=chunk)):
+            tasks = [(jobs[i], options) for i in missing]
+            for index, result in zip(missing, pool.imap(work, tasks, chunksize=chunk)):
                 results[index] = result
                 if progress:
                     progress(1)
@@ -540,7 +614,5 @@ def run_batch(
         finally:
             pool.join()
     done = [r for r in results if r is not None]
-    stats.failed = [
-        r.circuit.path for r in done if any(d.severity is Severity.ERROR for d in r.diagnostics)
-    ]
+    stats.failed = [path for path in map(failed, done) if path is not None]
     return done, stats

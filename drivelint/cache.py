@@ -6,11 +6,15 @@ field's type. Anything unexpected —
 a truncated or foreign file, a wrong type, an entry whose stored key is not the key asked
 for, an input that changed — is a miss, never an error.
 
-Entry format (``CACHE_FORMAT``)::
+Entry format (``CACHE_FORMAT``): two lines, each a JSON document::
 
-    {"format": 2, "key": "<sha256 of everything the result depends on>",
+    {"format": 3, "key": "<sha256 of everything the result depends on>",
      "inputs": [["file", PATH, SHA256], ["lookup", CANDIDATE, RESOLVED or ""], ...],
-     "result": [<CheckResult as [tag, field, field, ...]>]}
+     "brief": {<Brief, keyed by field name>}}
+    [<CheckResult as [tag, field, field, ...]>]
+
+A plain text report reads the first line alone, for the ``brief``
+(:mod:`drivelint.report.brief`); every other format decodes the result on the second.
 
 ``inputs`` are what reading found besides the netlist itself: each file read (by content)
 and each include lookup (by where it led, or that nothing was there), so a file created
@@ -32,7 +36,7 @@ from drivelint.codec import CodecError, decode_result, encode, prepare
 
 __all__ = ["CacheFormatError", "decode_result", "encode", "prepare"]
 
-CACHE_FORMAT = 2
+CACHE_FORMAT = 3
 # An entry larger than this is not read (a result is a few kB; a planted file could be huge).
 MAX_ENTRY_BYTES = 16 * 1024 * 1024
 
@@ -120,43 +124,76 @@ def entry_path(folder: Path, key: str) -> Path:
     return folder / key[:2] / f"{key}.json"
 
 
-def read_entry(folder: Path, key: str) -> Any | None:
-    """The result stored under ``key``, if the entry is whole, is for ``key``, and its inputs
-    are unchanged; else None."""
+def _entry(folder: Path, key: str) -> tuple[dict[str, Any], bytes] | None:
+    """The header and the result line of the entry stored under ``key``, if the entry is
+    whole, is for ``key``, and its inputs are unchanged; else None."""
     from drivelint.netlist.reader import read_bounded
 
     data = read_bounded(entry_path(folder, key), MAX_ENTRY_BYTES)
     if not isinstance(data, bytes):
         return None
+    first, newline, rest = data.partition(b"\n")
     try:
-        entry = json.loads(data)
+        header = json.loads(first)
     except (ValueError, RecursionError):
         return None
     if (
-        type(entry) is not dict
-        or entry.get("format") != CACHE_FORMAT
-        or entry.get("key") != key
-        or not inputs_unchanged(entry.get("inputs"))
+        not newline
+        or type(header) is not dict
+        or header.get("format") != CACHE_FORMAT
+        or header.get("key") != key
+        or not inputs_unchanged(header.get("inputs"))
     ):
         return None
+    return header, rest
+
+
+def read_entry(folder: Path, key: str) -> Any | None:
+    """The result stored under ``key`` (see :func:`_entry`), or None."""
+    entry = _entry(folder, key)
+    if entry is None:
+        return None
     try:
-        return decode_result(entry.get("result"))
+        return decode_result(json.loads(entry[1]))
+    except (ValueError, RecursionError):  # CacheFormatError is a ValueError
+        return None
+
+
+def read_brief(folder: Path, key: str) -> Any | None:
+    """The brief stored under ``key`` (see :func:`_entry`), or None."""
+    from drivelint.codec import from_fields
+    from drivelint.report.brief import Brief
+
+    entry = _entry(folder, key)
+    if entry is None:
+        return None
+    try:
+        return from_fields(Brief, entry[0].get("brief"))
     except (CacheFormatError, RecursionError):
         return None
 
 
-def write_entry(folder: Path, key: str, inputs: list[tuple[str, str, str]], result: Any) -> None:
-    """Keep ``result`` under ``key``, atomically; a cache that cannot be written costs speed."""
+def write_entry(
+    folder: Path, key: str, inputs: list[tuple[str, str, str]], result: Any, brief: Any
+) -> None:
+    """Keep ``result`` and its ``brief`` under ``key``, atomically; a cache that cannot be
+    written costs speed."""
     import tempfile
 
-    entry = {
+    from drivelint.codec import fields_json
+
+    prepare()  # the encoder knows the classes the decoders were built for
+    header = {
         "format": CACHE_FORMAT,
         "key": key,
         "inputs": [list(item) for item in inputs],
-        "result": encode(result),
+        "brief": fields_json(brief),
     }
-    # ASCII: a file name that is not UTF-8 (surrogate escapes) stays representable.
-    text = json.dumps(entry, separators=(",", ":"))
+    # ASCII (so no raw line break inside either line): a file name that is not UTF-8
+    # (surrogate escapes) stays representable.
+    text = "\n".join(
+        json.dumps(part, separators=(",", ":")) for part in (header, encode(result))
+    )
     target = entry_path(folder, key)
     try:
         target.parent.mkdir(mode=0o700, exist_ok=True)

@@ -7,9 +7,9 @@ pre-commit run on no files stay fast.
 from __future__ import annotations
 
 import sys
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, NoReturn
+from typing import TYPE_CHECKING, Any, NoReturn, TypeVar
 
 import click
 
@@ -18,7 +18,10 @@ from drivelint import __version__
 if TYPE_CHECKING:
     from collections.abc import Iterator
 
-    from drivelint.batch import BatchOptions, Job
+    from drivelint.batch import BatchOptions, BatchStats, Job
+    from drivelint.report.brief import Brief
+
+T = TypeVar("T")
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -105,7 +108,7 @@ def _plan(
 
 
 def _scan(paths: tuple[Path, ...], suffixes: tuple[str, ...] | None = None) -> list[Path]:
-    from drivelint.pipeline import collect_paths
+    from drivelint.paths import collect_paths
 
     for path in paths:
         if not path.exists() and not path.is_symlink():
@@ -417,11 +420,15 @@ def check_command(
     """
     import os
 
-    from drivelint.batch import config_for_stdin, default_cache_dir, run_batch, select_shard
-    from drivelint.checks.registry import RuleError
-    from drivelint.config import DEFAULT_SUFFIXES, ConfigError, load_config
+    from drivelint.batch import (
+        config_for_stdin,
+        default_cache_dir,
+        run_batch,
+        run_batch_brief,
+        select_shard,
+    )
+    from drivelint.config import DEFAULT_SUFFIXES, ConfigError, RuleError, load_config
     from drivelint.ratings.parts import PartsError
-    from drivelint.report.formats import ReportOptions, formatter
 
     try:
         suffixes = load_config(config_file).suffixes if config_file else DEFAULT_SUFFIXES
@@ -463,52 +470,80 @@ def check_command(
         except ConfigError as exc:
             _fail(str(exc))
         stdin = (stdin_name, _read_stdin(limit))
+    color, width = _text_style(fmt, output, no_color)
     try:
         planned = _plan(files, options, stdin)
-        show_progress = (
-            len(planned) > 5 and sys.stderr.isatty() and fmt == "text" and output is None
-        )
-        if show_progress:
-            with click.progressbar(length=len(planned), label="checking", file=sys.stderr) as bar:
-                results, stats = run_batch(planned, options, bar.update)
-        else:
-            results, stats = run_batch(planned, options)
     except (PartsError, RuleError, ConfigError) as exc:
         _fail(str(exc))
-    run = order = None
-    if fmt == "json":
-        from drivelint.merge import run_record
+    progress = len(planned) > 5 and sys.stderr.isatty() and fmt == "text" and output is None
+    # Plain text (piped, or written to a file) is joined from each file's brief, which the
+    # cache and the workers hand over ready: no result is built for it (report/brief.py).
+    if fmt == "text" and not explain and not color and width is None:
+        from drivelint.report.brief import brief_text, select_brief
 
-        run, order = run_record(
-            named, slice_of, planned, options, keep, stdin_name if use_stdin else None
+        briefs, stats = _batched(run_batch_brief, planned, options, progress)
+        if keep is not None:
+            briefs = [select_brief(b, keep.__contains__) for b in briefs]
+        report = brief_text(briefs, show_accepted)
+    else:
+        from drivelint.report.brief import brief_of
+        from drivelint.report.formats import ReportOptions, formatter
+
+        results, stats = _batched(run_batch, planned, options, progress)
+        run = order = None
+        if fmt == "json":
+            from drivelint.merge import run_record
+
+            run, order = run_record(
+                named, slice_of, planned, options, keep, stdin_name if use_stdin else None
+            )
+        if keep is not None:
+            from drivelint.checks.runner import select_rules
+
+            results = [select_rules(r, keep.__contains__) for r in results]
+        report_options = ReportOptions(
+            explain=explain,
+            color=color,
+            show_accepted=show_accepted,
+            width=width,
+            testbench=str(testbench_dir) if testbench_dir is not None else None,
+            output=str(output) if output is not None else None,
+            run=run,
+            order=order,
         )
-    if keep is not None:
-        from drivelint.checks.runner import select_rules
-
-        results = [select_rules(r, keep.__contains__) for r in results]
-    color, width = _text_style(fmt, output, no_color)
-    report_options = ReportOptions(
-        explain=explain,
-        color=color,
-        show_accepted=show_accepted,
-        width=width,
-        testbench=str(testbench_dir) if testbench_dir is not None else None,
-        output=str(output) if output is not None else None,
-        run=run,
-        order=order,
-    )
-    report = formatter(fmt)(results, report_options)
+        report = formatter(fmt)(results, report_options)
+        briefs = [brief_of(r, render=False) for r in results]
     _write_output(report, output, files)
     if any(Path(p).is_dir() for p in paths if p != "-"):
         # A library scan: what the settings give that no netlist of it uses is said.
-        for line in _unused_settings(planned, options, results):
+        for line in _unused_settings(planned, options, briefs):
             click.echo(line, err=True)
     if fmt != "text" or output is not None:
-        from drivelint.report.findings import summary_text
+        from drivelint.report.brief import brief_summary
 
-        click.echo(summary_text(results, stats.from_cache), err=True)
+        click.echo(brief_summary(briefs, stats.from_cache), err=True)
     configured = [job.config.fail_on for job in planned]
-    _exit(results, stats.failed, fail_on, configured, strict, exit_zero)
+    _exit(briefs, stats.failed, fail_on, configured, strict, exit_zero)
+
+
+def _batched(
+    batch: Callable[..., tuple[list[T], BatchStats]],
+    planned: list[Job],
+    options: BatchOptions,
+    progress: bool,
+) -> tuple[list[T], BatchStats]:
+    """Run ``batch`` over the planned jobs, with a progress bar when asked; a parts,
+    rule or configuration error met on the way ends the command (exit 2)."""
+    from drivelint.config import ConfigError, RuleError
+    from drivelint.ratings.parts import PartsError
+
+    try:
+        if not progress:
+            return batch(planned, options)
+        with click.progressbar(length=len(planned), label="checking", file=sys.stderr) as bar:
+            return batch(planned, options, bar.update)
+    except (PartsError, RuleError, ConfigError) as exc:
+        _fail(str(exc))
 
 
 def _text_style(fmt: str, output: Path | None, no_color: bool) -> tuple[bool, int | None]:
@@ -526,7 +561,7 @@ def _text_style(fmt: str, output: Path | None, no_color: bool) -> tuple[bool, in
 
 
 def _exit(
-    results: list[Any],
+    briefs: Sequence[Brief],
     failed: list[str],
     fail_on: str | None,
     configured: list[Any],
@@ -547,16 +582,18 @@ def _exit(
     if exit_zero:
         sys.exit(EXIT_OK)
     # A file checked in part (status "partial") counts as a warning.
-    partial = threshold <= Severity.WARNING and any(r.circuit.partial for r in results)
-    if failed or partial or any(f.severity >= threshold for r in results for f in r.findings):
+    partial = threshold <= Severity.WARNING and any(b.partial for b in briefs)
+    if failed or partial or any(s >= threshold for b in briefs for _, s, _ in b.findings):
         sys.exit(EXIT_FINDINGS)
     sys.exit(EXIT_OK)
 
 
-def _unused_settings(planned: list[Job], options: BatchOptions, results: list[Any]) -> list[str]:
+def _unused_settings(
+    planned: list[Job], options: BatchOptions, results: Sequence[Brief]
+) -> list[str]:
     """Warnings for parts entries and configured conditions no netlist of the run uses."""
-    from drivelint.checks.runner import unused_conditions, unused_parts
     from drivelint.ratings.parts import PartsError, load_parts
+    from drivelint.report.unused import unused_conditions, unused_parts
 
     files: set[Path] = set()
     configured: dict[str, list[str]] = {}
@@ -764,15 +801,14 @@ def merge_command(
     except MergeError as exc:
         _fail(str(exc))
     _write_output(text, output, list(reports))
-    if fmt != "text" or output is not None:
-        from drivelint.report.findings import summary_text
+    from drivelint.report.brief import brief_of, brief_summary
 
-        click.echo(summary_text(results), err=True)
-    failed = [
-        r.circuit.path for r in results if any(d.severity is Severity.ERROR for d in r.diagnostics)
-    ]
+    briefs = [brief_of(r, render=False) for r in results]
+    if fmt != "text" or output is not None:
+        click.echo(brief_summary(briefs), err=True)
+    failed = [b.path for b in briefs if b.status == "error"]
     configured = [Severity.parse(label) for label in run.fail_on]
-    _exit(results, failed, fail_on, configured, strict, exit_zero)
+    _exit(briefs, failed, fail_on, configured, strict, exit_zero)
 
 
 @main.command("rules")
@@ -881,8 +917,8 @@ def testbench_command(
     """
     import os
 
-    from drivelint.checks.registry import RuleError, registry
-    from drivelint.config import DEFAULT_SUFFIXES, ConfigError
+    from drivelint.checks.registry import registry
+    from drivelint.config import DEFAULT_SUFFIXES, ConfigError, RuleError
     from drivelint.ratings.parts import PartsError
     from drivelint.testbench.command import (
         BenchOptions,

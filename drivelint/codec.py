@@ -131,9 +131,11 @@ def _register(cls: type) -> None:
     _KEYWORDS[cls] = keywords
     if _BY_TAG.setdefault(cls.__name__, cls) is not cls:
         raise TypeError(f"two cached classes named {cls.__name__}")
-    namespace = _namespace()
     module = __import__(cls.__module__, fromlist=["_"])
-    _HINTS[cls] = typing.get_type_hints(cls, vars(module), namespace)
+    try:  # a record of plain types (a brief, a report's header) needs no result class
+        _HINTS[cls] = typing.get_type_hints(cls, vars(module))
+    except NameError:
+        _HINTS[cls] = typing.get_type_hints(cls, vars(module), _namespace())
 
 
 def _fail(what: str) -> typing.NoReturn:

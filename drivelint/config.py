@@ -33,9 +33,9 @@ from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any
 
-from drivelint.checks.runner import RuleSetting
 from drivelint.diagnostics import Severity
 from drivelint.limits import Limits
+from drivelint.paths import NETLIST_SUFFIXES
 
 # Operating conditions are read and ranged in one place for directives and configuration.
 from drivelint.ratings.conditions import CONDITION_RANGES as CONDITION_RANGES
@@ -60,7 +60,20 @@ TOP_KEYS = frozenset(
         "rules_for",
     }
 )
-DEFAULT_SUFFIXES = (".cir", ".net", ".sp", ".spi", ".spice", ".ckt")
+DEFAULT_SUFFIXES = NETLIST_SUFFIXES  # what a folder is searched for
+
+
+@dataclass(frozen=True, slots=True)
+class RuleSetting:
+    """A rule's settings from the configuration: on or off, its severity, its options."""
+
+    enabled: bool = True
+    severity: Severity | None = None
+    options: Mapping[str, float] = field(default_factory=dict)
+
+
+class RuleError(ValueError):
+    """A rule card or rule setting that cannot be used; the message names file and key."""
 
 
 class ConfigError(ValueError):
@@ -92,6 +105,8 @@ class Config:
 
     def conditions_for_file(self, path: Path) -> dict[str, tuple[float, str]]:
         merged = dict(self.conditions)
+        if not self.conditions_for:
+            return merged
         relative = _relative(path, self.root)
         for pattern, values in self.conditions_for:
             if fnmatch.fnmatch(relative, pattern):
@@ -122,6 +137,8 @@ class Config:
         return settings
 
     def excluded(self, path: Path) -> bool:
+        if not self.exclude:
+            return False
         relative = _relative(path, self.root)
         return any(_matches(relative, pattern) for pattern in self.exclude)
 
@@ -188,7 +205,7 @@ def may_widen(config: Config, netlist: Path, scan_roots: tuple[Path, ...] | list
     """
     if config.path is None or not config.allow_outside_root:
         return False
-    from drivelint.pipeline import find_project_root
+    from drivelint.paths import find_project_root
 
     try:
         folder = config.path.parent.resolve()
@@ -486,7 +503,7 @@ def _rules(
     origins: dict[str, str],
     origin: Any,
 ) -> dict[str, RuleSetting]:
-    from drivelint.checks.registry import RuleError, parse_option_value, registry
+    from drivelint.checks.registry import parse_option_value, registry
 
     rules = known if known is not None else registry()
     out: dict[str, RuleSetting] = {}

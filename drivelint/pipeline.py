@@ -16,16 +16,20 @@ from drivelint.circuit.model import Circuit
 from drivelint.limits import Limits
 from drivelint.netlist.reader import ReadOptions, read_deck
 
+# where a project's files are found (kept light, for the commands' start-up)
+from drivelint.paths import NETLIST_SUFFIXES as NETLIST_SUFFIXES
+from drivelint.paths import ROOT_MARKERS as ROOT_MARKERS
+from drivelint.paths import collect_paths as collect_paths
+from drivelint.paths import find_project_root as find_project_root
+
 if TYPE_CHECKING:
     from collections.abc import Mapping, Sequence
 
-    from drivelint.checks.runner import CheckResult, RuleSetting
-    from drivelint.config import Config
+    from drivelint.checks.runner import CheckResult
+    from drivelint.config import Config, RuleSetting
     from drivelint.netlist.statements import Statement
     from drivelint.ratings.parts import PartsLibrary
     from drivelint.stages.model import DriveStage
-
-ROOT_MARKERS = ("drivelint.toml", "pyproject.toml", ".git")
 
 # Netlists read by this process, by path: lets tests see that the cache avoided a read.
 READS: Counter[str] = Counter()
@@ -39,18 +43,6 @@ class LoadOptions:
     ground_aliases: frozenset[str] = DEFAULT_GROUND_ALIASES
     limits: Limits = field(default_factory=Limits)
     allow_hidden_includes: bool = False
-
-
-def find_project_root(path: Path) -> Path:
-    """The nearest folder above ``path`` holding a project marker, else the file's folder."""
-    from drivelint.paths import resolved
-
-    start = resolved(path)
-    folder = start if start.is_dir() else start.parent
-    for candidate in (folder, *folder.parents):
-        if any((candidate / marker).exists() for marker in ROOT_MARKERS):
-            return candidate
-    return folder
 
 
 def load_circuit(
@@ -136,24 +128,6 @@ def load_stages(
 
     circuit = load_circuit(path, options, text=text)
     return circuit, recognise(circuit, parts_for(Path(path), parts))
-
-
-NETLIST_SUFFIXES = (".cir", ".net", ".sp", ".spi", ".spice", ".ckt")
-
-
-def collect_paths(
-    paths: tuple[Path, ...], suffixes: tuple[str, ...] = NETLIST_SUFFIXES
-) -> list[Path]:
-    """Files as given, and folders searched recursively for netlist suffixes, sorted."""
-    out: list[Path] = []
-    for path in paths:
-        if path.is_dir():
-            out.extend(
-                sorted(p for p in path.rglob("*") if p.is_file() and p.suffix.lower() in suffixes)
-            )
-        else:
-            out.append(path)
-    return out
 
 
 def options_from(config: Config, allow_outside_root: bool | None = None) -> LoadOptions:

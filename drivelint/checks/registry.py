@@ -15,14 +15,11 @@ from functools import cache
 from pathlib import Path
 
 from drivelint.checks.base import Check
+from drivelint.config import RuleError as RuleError
 from drivelint.diagnostics import Severity
 
 REQUIRED = ("title", "severity", "summary", "why", "method", "fix", "module", "references")
 OPTION_KEYS = frozenset({"unit", "default", "help"})
-
-
-class RuleError(ValueError):
-    """A card or configuration that cannot be used; the message names file and key."""
 
 
 @dataclass(frozen=True, slots=True)

@@ -16,6 +16,7 @@ from drivelint.checks.base import CheckContext, Finding, Waiver
 from drivelint.checks.facts import StageFacts, devices_by_net
 from drivelint.checks.registry import Rule, registry
 from drivelint.circuit.model import Circuit
+from drivelint.config import RuleSetting
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.netlist.statements import Missing
 from drivelint.ratings.directives import ANY_DEVICE, Acceptance, DirectiveSet, parse_directives
@@ -23,13 +24,6 @@ from drivelint.ratings.parts import PartsLibrary
 from drivelint.ratings.ratings import RatingError, Ratings
 from drivelint.ratings.values import Value
 from drivelint.stages.model import DriveStage
-
-
-@dataclass(frozen=True, slots=True)
-class RuleSetting:
-    enabled: bool = True
-    severity: Severity | None = None
-    options: Mapping[str, float] = field(default_factory=dict)
 
 
 @dataclass(frozen=True, slots=True)
@@ -339,47 +333,6 @@ def _apply_acceptances(
             accepted.append(_accept(finding, Waiver(acceptance.reason, acceptance.span)))
     unused = [a for index, a in enumerate(directives.accepts) if index not in used]
     return kept, accepted, unused
-
-
-def unused_parts(
-    results: Sequence[CheckResult], libraries: Sequence[PartsLibrary]
-) -> list[Diagnostic]:
-    """Parts entries that no model or subcircuit of any checked netlist uses: a warning
-    each, at the entry's line (a name typed as the part number rather than the .model
-    name, or a part no longer in the designs)."""
-    used = frozenset().union(*(r.names_used for r in results)) if results else frozenset()
-    out: dict[str, Diagnostic] = {}
-    for library in libraries:
-        for name, part in library.parts.items():
-            if name in used or part.origin in out:
-                continue
-            path, _, line = part.origin.rpartition(":")
-            span = Span(path, int(line) if line.isdigit() else 1, 1)
-            checked = len(results)
-            out[part.origin] = Diagnostic(
-                Severity.WARNING,
-                span,
-                f"part '{part.name}' matches no model or subcircuit of the {checked} "
-                f"netlist{'s' * (checked != 1)} checked; parts are keyed by the .model or "
-                ".subckt name a netlist uses",
-                "",
-                "parts-unused",
-            )
-    return [out[k] for k in sorted(out)]
-
-
-def unused_conditions(
-    results: Sequence[CheckResult], configured: Mapping[str, Sequence[str]]
-) -> list[str]:
-    """Configured conditions (key -> where each is set) that no rule used in any file."""
-    used = frozenset().union(*(r.conditions_used for r in results)) if results else frozenset()
-    return [
-        f"{where}: warning: condition {key} is used by no rule in the {len(results)} "
-        f"file{'s' * (len(results) != 1)} checked [condition-unused]"
-        for key, places in sorted(configured.items())
-        if key not in used
-        for where in sorted(set(places))
-    ]
 
 
 def shifter_currents(

@@ -9,7 +9,7 @@ from drivelint import __version__
 from drivelint.checks.base import Finding
 from drivelint.checks.runner import CheckResult
 from drivelint.diagnostics import Diagnostic, Severity, printable, quoted_line
-from drivelint.report.status import failed, file_status
+from drivelint.report.status import file_status
 
 if TYPE_CHECKING:
     from drivelint.report.formats import ReportOptions
@@ -100,6 +100,32 @@ def assumed_text(result: CheckResult, width: int | None = None) -> list[str]:
     return [w for line in lines for w in _wrapped(printable(line), width)]
 
 
+def diagnostic_blocks(result: CheckResult, width: int | None = None) -> list[str]:
+    """The text blocks of a result's warning and error diagnostics."""
+    return [
+        _wrap_block(d.render(), width) for d in result.diagnostics if d.severity >= Severity.WARNING
+    ]
+
+
+def result_blocks(
+    result: CheckResult,
+    explain: bool = False,
+    color: bool = False,
+    show_accepted: bool = False,
+    width: int | None = None,
+) -> list[str]:
+    """One file's part of the text report (plain, it is what its brief holds)."""
+    blocks = diagnostic_blocks(result, width)
+    for finding in result.findings:
+        source = result.circuit.line_text(finding.span) if color else ""
+        blocks.append(finding_text(finding, explain, color, source, width))
+    if show_accepted:
+        blocks.extend(accepted_text(f, width) for f in result.accepted)
+    if explain:
+        blocks.extend(assumed_text(result, width))
+    return blocks
+
+
 def results_text(
     results: Sequence[CheckResult],
     explain: bool = False,
@@ -107,18 +133,7 @@ def results_text(
     show_accepted: bool = False,
     width: int | None = None,
 ) -> str:
-    blocks: list[str] = []
-    for result in results:
-        for diagnostic in result.diagnostics:
-            if diagnostic.severity >= Severity.WARNING:
-                blocks.append(_wrap_block(diagnostic.render(), width))
-        for finding in result.findings:
-            source = result.circuit.line_text(finding.span) if color else ""
-            blocks.append(finding_text(finding, explain, color, source, width))
-        if show_accepted:
-            blocks.extend(accepted_text(f, width) for f in result.accepted)
-        if explain:
-            blocks.extend(assumed_text(result, width))
+    blocks = [b for r in results for b in result_blocks(r, explain, color, show_accepted, width)]
     blocks.append(summary_text(results))
     return "\n".join(blocks)
 
@@ -131,46 +146,10 @@ def _wrap_block(text: str, width: int | None) -> str:
 
 def summary_text(results: Sequence[CheckResult], from_cache: int = 0) -> str:
     """Files, stages, findings by rule and severity, accepted findings, files that could
-    not be checked."""
-    from collections import Counter
+    not be checked (see :func:`drivelint.report.brief.brief_summary`)."""
+    from drivelint.report.brief import brief_of, brief_summary
 
-    findings = [f for r in results for f in r.findings]
-    accepted = sum(len(r.accepted) for r in results)
-    stages = sum(sum(1 for s in r.stages if s.floating) for r in results)
-    files = len(results)
-    head = f"{files} file{'s' * (files != 1)}"
-    if from_cache:
-        head += f" ({from_cache} from cache)"
-    head += f", {stages} floating stage{'s' * (stages != 1)}, "
-    head += f"{len(findings)} finding{'s' * (len(findings) != 1)}"
-    by_severity = Counter(f.severity for f in findings)
-    if findings:
-        head += (
-            " ("
-            + ", ".join(f"{by_severity[s]} {s.label}" for s in sorted(by_severity, reverse=True))
-            + ")"
-        )
-    if accepted:
-        head += f", {accepted} accepted by a directive"
-    lines = [head]
-    by_rule = Counter(f.rule for f in findings)
-    for rule, count in sorted(by_rule.items()):
-        lines.append(f"  {rule}: {count}")
-    broken = [r.circuit.path for r in results if failed(r)]
-    if broken:
-        lines.append(
-            f"  files with errors: {len(broken)} ({', '.join(broken[:5])}"
-            + (", …" if len(broken) > 5 else "")
-            + ")"
-        )
-    partial = [r.circuit.path for r in results if file_status(r) == "partial"]
-    if partial:
-        lines.append(
-            f"  files checked in part: {len(partial)} ({', '.join(partial[:5])}"
-            + (", …" if len(partial) > 5 else "")
-            + ")"
-        )
-    return "\n".join(printable(line) for line in lines)
+    return brief_summary([brief_of(r, render=False) for r in results], from_cache)
 
 
 def results_json(

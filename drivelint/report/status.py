@@ -12,8 +12,12 @@ SARIF's ``executionSuccessful`` and the text summary's "files with errors" follo
 
 from __future__ import annotations
 
-from drivelint.checks.runner import CheckResult
+from typing import TYPE_CHECKING
+
 from drivelint.diagnostics import Severity
+
+if TYPE_CHECKING:
+    from drivelint.checks.runner import CheckResult
 
 STATUSES = ("clean", "findings", "partial", "error")
 

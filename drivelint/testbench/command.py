@@ -24,7 +24,8 @@ from drivelint.batch import BatchOptions, Job, check_job, load_options
 from drivelint.checks.base import Finding
 from drivelint.checks.facts import StageFacts, devices_by_net
 from drivelint.checks.registry import registry
-from drivelint.checks.runner import CheckResult, RuleSetting
+from drivelint.checks.runner import CheckResult
+from drivelint.config import RuleSetting
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.netlist.values import format_si
 from drivelint.ratings.directives import CONDITION_KEYS, parse_directives

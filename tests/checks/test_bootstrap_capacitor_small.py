@@ -11,7 +11,7 @@ from nominal import at_nominal
 from simulator import run_transient
 
 from drivelint.checks.base import Finding
-from drivelint.checks.runner import RuleSetting
+from drivelint.config import RuleSetting
 from drivelint.physics import bootstrap as boot_physics
 from drivelint.pipeline import check_path, check_text
 from drivelint.ratings.parts import Part, PartsLibrary

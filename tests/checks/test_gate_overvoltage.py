@@ -16,7 +16,7 @@ from nominal import at_nominal, check_nominal
 
 from drivelint.checks.base import Finding
 from drivelint.checks.registry import registry
-from drivelint.checks.runner import RuleSetting
+from drivelint.config import RuleSetting
 from drivelint.diagnostics import Severity
 from drivelint.physics.stress import derating_factor
 from drivelint.pipeline import check_path, check_text

@@ -77,7 +77,9 @@ def test_entries_are_json_tied_to_their_key_and_round_trip(tmp_path: Path) -> No
     entries = sorted((tmp_path / "cache").rglob("*.json"))
     assert len(entries) == len(paths)
     for entry in entries:
-        data = json.loads(entry.read_text(encoding="utf-8"))
+        header, result = entry.read_text(encoding="utf-8").split("\n")
+        data = json.loads(header)
+        assert json.loads(result)[0] == "CheckResult"
         assert data["format"] == cache.CACHE_FORMAT and entry.stem == data["key"]
     again, hits = scan(paths, tmp_path / "cache")
     assert hits == len(paths)
@@ -175,6 +177,9 @@ def test_a_local_file_shadowing_a_search_path_file_is_seen(tmp_path: Path) -> No
     assert [d.span.path for d in second.diagnostics] == [str(folder / "cell.inc")]
 
 
+HEADER = b'{"format": 3, "key": "KEY", "inputs": []}'
+
+
 @pytest.mark.parametrize(
     "damage",
     [
@@ -182,12 +187,13 @@ def test_a_local_file_shadowing_a_search_path_file_is_seen(tmp_path: Path) -> No
         b"{",
         b"\x00\xff\xfe random bytes \x80",
         b"[]",
-        b'{"format": 2}',
+        b'{"format": 3}\n[]',
         b'"just a string"',
-        b"[" * 100_000 + b"]" * 100_000,
-        b'{"format": 2, "key": "KEY", "inputs": [], "result": ["CheckResult", 1, 2, 3, 4, 5]}',
-        b'{"format": 2, "key": "KEY", "inputs": [["exec", "x", "y"]], "result": null}',
-        b'{"format": 2, "key": "KEY", "inputs": [], "result": ["os.system", "echo hi"]}',
+        HEADER + b"\n" + b"[" * 100_000 + b"]" * 100_000,
+        HEADER + b'\n["CheckResult", 1, 2, 3, 4, 5]',
+        b'{"format": 3, "key": "KEY", "inputs": [["exec", "x", "y"]]}\nnull',
+        HEADER + b'\n["os.system", "echo hi"]',
+        HEADER,
     ],
     ids=[
         "empty",
@@ -200,6 +206,7 @@ def test_a_local_file_shadowing_a_search_path_file_is_seen(tmp_path: Path) -> No
         "wrong-fields",
         "unknown-input",
         "unknown-class",
+        "no-result-line",
     ],
 )
 def test_a_corrupt_entry_is_a_miss(tmp_path: Path, damage: bytes) -> None:
