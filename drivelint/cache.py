@@ -191,9 +191,7 @@ def write_entry(
     }
     # ASCII (so no raw line break inside either line): a file name that is not UTF-8
     # (surrogate escapes) stays representable.
-    text = "\n".join(
-        json.dumps(part, separators=(",", ":")) for part in (header, encode(result))
-    )
+    text = "\n".join(json.dumps(part, separators=(",", ":")) for part in (header, encode(result)))
     target = entry_path(folder, key)
     try:
         target.parent.mkdir(mode=0o700, exist_ok=True)
