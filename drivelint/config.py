@@ -33,6 +33,8 @@ from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any
 
+from drivelint.checks.settings import RuleError as RuleError
+from drivelint.checks.settings import RuleSetting as RuleSetting
 from drivelint.diagnostics import Severity
 from drivelint.limits import Limits
 from drivelint.paths import NETLIST_SUFFIXES
@@ -61,19 +63,6 @@ TOP_KEYS = frozenset(
     }
 )
 DEFAULT_SUFFIXES = NETLIST_SUFFIXES  # what a folder is searched for
-
-
-@dataclass(frozen=True, slots=True)
-class RuleSetting:
-    """A rule's settings from the configuration: on or off, its severity, its options."""
-
-    enabled: bool = True
-    severity: Severity | None = None
-    options: Mapping[str, float] = field(default_factory=dict)
-
-
-class RuleError(ValueError):
-    """A rule card or rule setting that cannot be used; the message names file and key."""
 
 
 class ConfigError(ValueError):

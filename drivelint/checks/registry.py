@@ -15,7 +15,7 @@ from functools import cache
 from pathlib import Path
 
 from drivelint.checks.base import Check
-from drivelint.config import RuleError as RuleError
+from drivelint.checks.settings import RuleError as RuleError
 from drivelint.diagnostics import Severity
 
 REQUIRED = ("title", "severity", "summary", "why", "method", "fix", "module", "references")

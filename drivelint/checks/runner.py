@@ -15,8 +15,8 @@ from dataclasses import dataclass, field
 from drivelint.checks.base import CheckContext, Finding, Waiver
 from drivelint.checks.facts import StageFacts, devices_by_net
 from drivelint.checks.registry import Rule, registry
+from drivelint.checks.settings import RuleSetting
 from drivelint.circuit.model import Circuit
-from drivelint.config import RuleSetting
 from drivelint.diagnostics import Diagnostic, Severity, Span
 from drivelint.netlist.statements import Missing
 from drivelint.ratings.directives import ANY_DEVICE, Acceptance, DirectiveSet, parse_directives
