@@ -64,6 +64,8 @@ class Commutation:
     di_dt: Value
     t_fall: Value  # I/(di/dt): the rectangle with the same L·I volt-seconds
     v_undershoot: Value  # signed, negative
+    c_gd: Value | None  # C_gd at the blocking voltage: the undershoot's feedback
+    model: commutation.TurnOffEdge | None  # the edge for the limits, where c_gd is known
 
 
 def _load_current(stage: DriveStage, facts: StageFacts) -> Value | None:
@@ -103,21 +105,42 @@ def _freewheel_part(stage: DriveStage, facts: StageFacts) -> tuple[Device, str, 
     return None
 
 
-def _c_iss_falling(facts: StageFacts, device: Device, plateau: float) -> Value | None:
+def _c_gd_blocking(facts: StageFacts, device: Device, plateau: float) -> Value | None:
+    """The switch's small-signal C_gd with its drain up at the bus and its gate on the
+    plateau: a VDMOS card's C_gd(V_GD = V_pl − V_bus), the parts' C_rss, or the card's
+    CGDO·W; None where only a charge is known (Q_gd/ΔV averages over the swing and overstates
+    C_gd at the bus, which would understate the undershoot)."""
+    model = device.model
+    params = model.params if model else {}
+    m = _multiplier(device)
+    if model is not None and model.type == "vdmos" and "cgdmax" in params:
+        v_gd = plateau - facts.v_switched
+        c_gd = gate_physics.vdmos_gate_drain_capacitance(
+            v_gd, params.get("cgdmin", params["cgdmax"]), params["cgdmax"], params.get("a", 1.0)
+        )
+        return computed(c_gd * m, "F", f"computed: C_gd(V_GD = {_v(v_gd)}) of model {model.name}")
+    crss = facts.ratings.get(device, "crss")
+    if crss is not None:
+        return Value(crss.value * m, "F", f"C_rss {crss.text()} ({crss.origin})")
+    if model is not None and params.get("cgdo"):
+        width = device.params.get("w", 1.0)
+        return computed(params["cgdo"] * width * m, "F", f"computed: CGDO·W of model {model.name}")
+    return None
+
+
+def _c_iss_falling(
+    facts: StageFacts, device: Device, plateau: float, c_gd: Value | None
+) -> Value | None:
     """C_iss while the current falls, the drain up at the bus: a VDMOS card's C_gs plus
     its C_gd at V_GD = V_pl − V_bus; else the facts' C_iss (with the switch on, which is
     larger: a slower, milder edge)."""
     model = device.model
     params = model.params if model else {}
-    if model is not None and model.type == "vdmos" and "cgs" in params and "cgdmax" in params:
-        v_gd = plateau - facts.v_switched
-        c_gd = gate_physics.vdmos_gate_drain_capacitance(
-            v_gd, params.get("cgdmin", params["cgdmax"]), params["cgdmax"], params.get("a", 1.0)
-        )
+    if model is not None and model.type == "vdmos" and "cgs" in params and c_gd is not None:
         return computed(
-            (params["cgs"] + c_gd) * _multiplier(device),
+            params["cgs"] * _multiplier(device) + c_gd.value,
             "F",
-            f"computed: C_gs + C_gd(V_GD = {_v(v_gd)}) of model {model.name}",
+            f"computed: C_gs + {c_gd.origin.removeprefix('computed: ')}",
         )
     return facts.switch_gate(
         device, facts.v_boot_max.value if facts.v_boot_max else 10.0, facts.v_switched
@@ -146,7 +169,8 @@ def commutation_edge(stage: DriveStage, facts: StageFacts) -> Commutation | None
     if vth is None or off is None or not off.resistance.value > 0:
         return None
     plateau = miller_plateau(facts, switch, vth, load)
-    c_iss = _c_iss_falling(facts, switch, plateau.value)
+    c_gd = _c_gd_blocking(facts, switch, plateau.value)
+    c_iss = _c_iss_falling(facts, switch, plateau.value, c_gd)
     if c_iss is None or not c_iss.value > 0 or not plateau.value > vth.value > 0:
         return None
     gfs = facts.ratings.get(switch, "gfs")
@@ -158,15 +182,32 @@ def commutation_edge(stage: DriveStage, facts: StageFacts) -> Commutation | None
             "S",
             "computed: 2·I_load/(V_pl − V_th), square law",
         )
-    rate = commutation.current_fall_rate(
-        g_m.value, plateau.value, off.resistance.value, c_iss.value
-    )
-    di_dt = computed(
-        rate,
-        "A/s",
-        f"computed: g_m·V_pl/(R_off·C_iss) = {g_m.text()} × {plateau.text()}/"
-        f"({off.resistance.text()} × {c_iss.text()})",
-    )
+    r_off = off.resistance.value
+    model = None
+    if c_gd is not None and c_gd.value > 0:
+        model = commutation.TurnOffEdge(
+            load.value,
+            g_m.value,
+            plateau.value,
+            vth.value,
+            c_iss.value,
+            c_gd.value,
+            square_law=gfs is None,
+        )
+        rate = model.rate(r_off, henries)
+        how = (
+            f"computed: the fastest point of the fall with the undershoot's feedback through "
+            f"C_gd {c_gd.text()} (the gate's node integrated), at most g_m·V_pl/(R_off·C_iss) "
+            f"= {g_m.text()} × {plateau.text()}/({off.resistance.text()} × {c_iss.text()})"
+        )
+    else:
+        rate = commutation.current_fall_rate(g_m.value, plateau.value, r_off, c_iss.value)
+        how = (
+            f"computed: g_m·V_pl/(R_off·C_iss) = {g_m.text()} × {plateau.text()}/"
+            f"({off.resistance.text()} × {c_iss.text()}) (no small-signal C_gd known: the "
+            "undershoot's feedback is not counted)"
+        )
+    di_dt = computed(rate, "A/s", how)
     v_f = facts.freewheel_drop_at(load.value, f"{load.text()} of load current")
     l_s = Value(
         henries,
@@ -203,6 +244,8 @@ def commutation_edge(stage: DriveStage, facts: StageFacts) -> Commutation | None
             if boot_holds
             else "computed: −(V_F + L_s·di/dt)",
         ),
+        c_gd,
+        model,
     )
 
 
@@ -249,8 +292,9 @@ def _common_values(edge: Commutation) -> dict[str, Value]:
         "undershoot_depth": computed(
             -edge.v_undershoot.value,
             "V",
-            "computed: V_F + L_s·di/dt at the fastest point of the fall (an upper bound: that "
-            "rate lasts a moment, while the switch node is still on its way down)",
+            "computed: V_F + L_s·di/dt at the fastest point of the fall (an upper bound: "
+            "the switch node's capacitance and any path across the loop's strays slow it "
+            "further)",
         ),
         "l_s": edge.l_s,
         "di_dt": edge.di_dt,
@@ -262,13 +306,22 @@ def _common_values(edge: Commutation) -> dict[str, Value]:
         "vth": edge.vth,
         "g_m": edge.g_m,
         "t_fall": edge.t_fall,
+        **({"c_gd": edge.c_gd} if edge.c_gd is not None else {}),
     }
 
 
 def _derivation(edge: Commutation) -> tuple[str, ...]:
     return (
-        f"di/dt = g_m·V_pl/(R_off·C_iss) = {edge.g_m.text()} × {edge.plateau.text()}/"
-        f"({edge.off.resistance.text()} × {edge.c_iss.text()}) = {edge.di_dt.text()}",
+        (
+            f"di/dt = {edge.di_dt.text()}: the fastest fall of the current, from the gate's "
+            f"node with the feedback of the undershoot through C_gd {edge.c_gd.text()}, below "
+            f"g_m·V_pl/(R_off·C_iss) = {edge.g_m.text()} × {edge.plateau.text()}/"
+            f"({edge.off.resistance.text()} × {edge.c_iss.text()})"
+            if edge.c_gd is not None and edge.model is not None
+            else f"di/dt = g_m·V_pl/(R_off·C_iss) = {edge.g_m.text()} × "
+            f"{edge.plateau.text()}/({edge.off.resistance.text()} × {edge.c_iss.text()}) = "
+            f"{edge.di_dt.text()}"
+        ),
         f"V_undershoot = −(V_F + L_s·di/dt) = −({edge.v_f.text()} + {edge.l_s.text()} × "
         f"{edge.di_dt.text()}) = {edge.v_undershoot.text()}",
     )
@@ -294,17 +347,33 @@ def _vs_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Find
     if edge.v_undershoot.value >= limit.value:
         return None
     room = abs(limit.value)
-    l_max = commutation.max_loop_inductance(room, edge.v_f.value, edge.di_dt.value)
-    r_min = commutation.min_turn_off_resistance(
-        edge.g_m.value, edge.plateau.value, edge.c_iss.value, edge.l_s.value, room, edge.v_f.value
-    )
+    r_off = edge.off.resistance.value
+    if edge.model is not None:
+        l_max = commutation.max_loop_inductance_with_feedback(
+            edge.model, room, edge.v_f.value, r_off
+        )
+        r_min = commutation.min_turn_off_resistance_with_feedback(
+            edge.model, room, edge.v_f.value, r_off, edge.l_s.value
+        )
+        how_l = "the L_s whose V_F + L_s·di/dt, the feedback counted, is |vs_min|"
+        how_r = "the R_off whose V_F + L_s·di/dt, the feedback counted, is |vs_min|"
+    else:
+        l_max = commutation.max_loop_inductance(room, edge.v_f.value, edge.di_dt.value)
+        r_min = commutation.min_turn_off_resistance(
+            edge.g_m.value,
+            edge.plateau.value,
+            edge.c_iss.value,
+            edge.l_s.value,
+            room,
+            edge.v_f.value,
+        )
+        how_l = "(|vs_min| − V_F)/(di/dt)"
+        how_r = "g_m·V_pl·L_s/(C_iss·(|vs_min| − V_F))"
     values = {**_common_values(edge), "vs_min": limit}
     fixes = []
     if l_max > 0:
         l_max = previous_preferred(l_max, "E12")
-        values["l_s_max"] = computed(
-            l_max, "H", "computed: (|vs_min| − V_F)/(di/dt), the E12 value at or below it"
-        )
+        values["l_s_max"] = computed(l_max, "H", f"computed: {how_l}, the E12 value at or below it")
         fixes.append(
             f"cut the loop inductance ({', '.join(edge.strays)}: {edge.l_s.text()}) to at most "
             f"{_nh(l_max)}: the low side's source and the driver's common on one short, wide "
@@ -314,9 +383,7 @@ def _vs_finding(stage: DriveStage, ctx: CheckContext, edge: Commutation) -> Find
     budget = r_min - off.fixed
     if math.isfinite(budget) and budget > 0 and len(off.resistors) <= 1:
         chosen = next_preferred(budget, "E12")
-        values["r_off_min"] = computed(
-            r_min, "Ohm", "computed: g_m·V_pl·L_s/(C_iss·(|vs_min| − V_F))"
-        )
+        values["r_off_min"] = computed(r_min, "Ohm", f"computed: {how_r}")
         values["suggested_turn_off_resistor"] = computed(
             chosen,
             "Ohm",

@@ -25,6 +25,8 @@ boot path holds the node no lower than its own drop.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
+from dataclasses import dataclass
 
 from drivelint.physics._units import Amps, Farads, Ohms, Seconds, Volts, _infinite, _ratio
 
@@ -58,6 +60,94 @@ def current_fall_rate(
     return g_m * (v_plateau - v_off) / (r_off * c_iss)
 
 
+# The feedback integration: steps per fast time constant, and a bound on the steps in all.
+_STEPS_PER_TAU = 40
+_MAX_STEPS = 20_000
+# Below this ε·G the fast mode is over in a fraction of a per cent of the fall: no feedback.
+_NEGLIGIBLE_FEEDBACK = 1e-3
+
+
+def current_fall_rate_with_feedback(
+    i_load: Amps,
+    g_m: Siemens,
+    v_plateau: Volts,
+    v_threshold: Volts,
+    r_off: Ohms,
+    c_iss: Farads,
+    c_gd: Farads,
+    l_s: Henries,
+    v_off: Volts = 0.0,
+    square_law: bool = True,
+) -> AmpsPerSecond:
+    """The drain current's fastest fall at turn-off when the loop's inductance feeds the
+    undershoot back through C_gd [A/s].
+
+    While the current falls, the switch node sits L_s·di/dt lower; as that swing builds,
+    C_gd carries C_gd·dV_S/dt into the gate and slows its discharge (the Miller effect of
+    the source's own movement). With V_GS = x, the drain current i(x), its slope g = di/dx
+    and V_S = −V_F + L_s·di/dt, the gate's node gives (Kirchhoff's current law, textbook):
+
+        (V_off − x)/R_off = C_iss·dx/dt + C_gd·L_s·d²i/dt²,  d²i/dt² = g'·(dx/dt)² + g·d²x/dt²
+
+    a second-order equation in x with a fast time constant C_gd·L_s·g/C_iss against the slow
+    R_off·C_iss. It is integrated (classical Runge–Kutta, dimensionless: u = (x − V_th)/
+    (V_pl − V_th), s = t/(R_off·C_iss)) from the plateau at rest until the rate has passed
+    its peak. With C_gd·L_s → 0 it is :func:`current_fall_rate`. The node's own capacitance
+    and paths in parallel with the loop's inductance are not counted (each slows the
+    swing further): an upper bound on the rate.
+
+    i_load [A]; g_m: transconductance at the load current [S]; v_plateau, v_threshold [V];
+    r_off [Ohm]; c_iss: C_iss while the current falls [F]; c_gd: C_gd at the blocking
+    voltage [F]; l_s [H]; v_off [V]; square_law: i = I·u² (g_m = 2·I/(V_pl − V_th)), else
+    a constant g_m (i = I − g_m·(V_pl − x)).
+    """
+    simple = current_fall_rate(g_m, v_plateau, r_off, c_iss, v_off)
+    span = v_plateau - v_threshold
+    tau = r_off * c_iss
+    # G: di/dx in units of I/ΔV; ε: the fast time constant per G, in units of τ
+    k = 2.0 if square_law else _ratio(g_m * span, i_load)
+    w = _ratio(v_threshold - v_off, span)
+    eps = _ratio(c_gd * l_s * i_load, span * tau * c_iss)
+    if not eps * k > _NEGLIGIBLE_FEEDBACK or not k > 0:
+        return simple
+    end = 0.0 if square_law else max(0.0, 1.0 - 1.0 / k)
+
+    def slope(u: float) -> float:
+        return k * u if square_law else k
+
+    def accel(u: float, du: float) -> float:
+        bend = k if square_law else 0.0
+        return (-(u + w) - du - eps * bend * du * du) / (eps * slope(u))
+
+    step = min(eps * k, 1.0) / _STEPS_PER_TAU
+    u, du, s, peak, at_peak = 1.0, 0.0, 0.0, 0.0, 0.0
+    for _ in range(_MAX_STEPS):
+        # classical RK4 on (u, du/ds)
+        a1 = accel(u, du)
+        u2, v2 = u + 0.5 * step * du, du + 0.5 * step * a1
+        if u2 <= end:
+            break
+        a2 = accel(u2, v2)
+        u3, v3 = u + 0.5 * step * v2, du + 0.5 * step * a2
+        if u3 <= end:
+            break
+        a3 = accel(u3, v3)
+        u4, v4 = u + step * v3, du + step * a3
+        if u4 <= end:
+            break
+        a4 = accel(u4, v4)
+        u += step * (du + 2.0 * v2 + 2.0 * v3 + v4) / 6.0
+        du += step * (a1 + 2.0 * a2 + 2.0 * a3 + a4) / 6.0
+        s += step
+        rate = -slope(u) * du
+        if rate > peak:
+            peak, at_peak = rate, s
+        # past the peak and the fast mode settled (or no longer resolved by the step)
+        elif s > at_peak + 10.0 * eps * k or eps * slope(u) < 2.0 * step:
+            break
+    return simple * (peak / (k * (1.0 + w))) if peak > 0 else simple
+
+
 def switch_node_undershoot(v_f: Volts, l_s: Henries, di_dt: AmpsPerSecond) -> Volts:
     """The switch pin against the driver's common while the current commutates:
     −(V_F + L_s·di/dt) [V] (negative).
@@ -76,6 +166,80 @@ def max_loop_inductance(v_limit: Volts, v_f: Volts, di_dt: AmpsPerSecond) -> Hen
     v_limit: the allowed swing below the common, either sign [V]; v_f [V]; di_dt [A/s].
     """
     return (abs(v_limit) - v_f) / di_dt
+
+
+@dataclass(frozen=True, slots=True)
+class TurnOffEdge:
+    """A switch's turn-off into a commutation loop, for the limits under the feedback of
+    :func:`current_fall_rate_with_feedback` (arguments as there)."""
+
+    i_load: Amps
+    g_m: Siemens
+    v_plateau: Volts
+    v_threshold: Volts
+    c_iss: Farads
+    c_gd: Farads
+    v_off: Volts = 0.0
+    square_law: bool = True
+
+    def rate(self, r_off: Ohms, l_s: Henries) -> AmpsPerSecond:
+        return current_fall_rate_with_feedback(
+            self.i_load,
+            self.g_m,
+            self.v_plateau,
+            self.v_threshold,
+            r_off,
+            self.c_iss,
+            self.c_gd,
+            l_s,
+            self.v_off,
+            self.square_law,
+        )
+
+    def depth(self, v_f: Volts, r_off: Ohms, l_s: Henries) -> Volts:
+        """V_F + L_s·di/dt: how far below the common the switch pin swings [V]."""
+        return v_f + l_s * self.rate(r_off, l_s)
+
+
+def max_loop_inductance_with_feedback(
+    edge: TurnOffEdge, v_limit: Volts, v_f: Volts, r_off: Ohms
+) -> Henries:
+    """The largest loop inductance whose undershoot, with the feedback, stays within
+    ``v_limit`` [H]; ≤ 0 when the diode's drop alone reaches it. The depth V_F + L·di/dt(L)
+    grows with L, so a bisection from :func:`max_loop_inductance` (the bound without the
+    feedback, which passes) finds it to 0.1 %."""
+    start = max_loop_inductance(
+        v_limit, v_f, current_fall_rate(edge.g_m, edge.v_plateau, r_off, edge.c_iss, edge.v_off)
+    )
+    if not start > 0:
+        return start
+
+    def fails(l_s: Henries) -> bool:
+        return edge.depth(v_f, r_off, l_s) > abs(v_limit)
+
+    return _crossing(fails, start, 2.0 * start)
+
+
+def min_turn_off_resistance_with_feedback(
+    edge: TurnOffEdge, v_limit: Volts, v_f: Volts, r_off: Ohms, l_s: Henries
+) -> Ohms:
+    """The smallest total turn-off resistance whose undershoot through ``l_s``, with the
+    feedback, stays within ``v_limit`` [Ohm]: ``r_off`` when it already does, infinite when
+    the diode's drop alone reaches the limit. The bound without the feedback
+    (:func:`min_turn_off_resistance`) passes; a bisection between it and ``r_off`` finds
+    it to 0.1 %."""
+    if not edge.depth(v_f, r_off, l_s) > abs(v_limit):
+        return r_off
+    bound = min_turn_off_resistance(
+        edge.g_m, edge.v_plateau, edge.c_iss, l_s, v_limit, v_f, edge.v_off
+    )
+    if not math.isfinite(bound) or not bound > r_off:
+        return bound
+
+    def fails(r: Ohms) -> bool:
+        return edge.depth(v_f, r, l_s) > abs(v_limit)
+
+    return _crossing(fails, r_off, bound)
 
 
 def min_turn_off_resistance(
@@ -147,16 +311,32 @@ def min_series_resistance(
         return _infinite(l_s, c_hold * i_load)
     if not boot_path_overcharge(i_load, l_s, r_path, c_hold) > allowed:
         return 0.0 * r_path
-    low: Ohms = r_path
-    high: Ohms = r_path + 2.0 * (l_s / c_hold) ** 0.5
-    while boot_path_overcharge(i_load, l_s, high, c_hold) > allowed:
+
+    def over(r: Ohms) -> bool:
+        return boot_path_overcharge(i_load, l_s, r, c_hold) > allowed
+
+    return _crossing(over, r_path, r_path + 2.0 * (l_s / c_hold) ** 0.5) - r_path
+
+
+def _crossing(fails: Callable[[float], bool], start: float, trial: float) -> float:
+    """Where a test that is monotonic in x changes its answer, to 0.1 %, by bisection.
+
+    ``start`` is one side; ``trial``, 2·trial, 4·trial, … (above ``start``) are tried until
+    one is on the other side. The point returned is on the side where ``fails`` is false:
+    the largest passing x when ``fails(start)`` is false, the smallest when it is true.
+    """
+    side = fails(start)
+    low, high = start, trial
+    for _ in range(60):
+        if fails(high) != side:
+            break
         low, high = high, 2.0 * high
     for _ in range(60):
         mid = 0.5 * (low + high)
-        if boot_path_overcharge(i_load, l_s, mid, c_hold) > allowed:
+        if fails(mid) == side:
             low = mid
         else:
             high = mid
         if _ratio(high - low, high) < 1e-3:
             break
-    return high - r_path
+    return low if not side else high

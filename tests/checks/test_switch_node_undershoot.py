@@ -46,18 +46,24 @@ def test_bad_deck_fires_on_the_driver() -> None:
     assert finding.severity == Severity.ERROR  # rated by parts.toml's vs_min
     values = finding.values
     # V_pl = 3 + √(2·20/10) = 5 V, g_m = 20 S, R_off = 22 + 1 Ω (RG, the model's RG),
-    # C_iss = 2 nF + C_gd(V_GD = −43 V) ≈ 2.02 nF: di/dt ≈ 2.15 A/ns; 15 nH: ≈ 32 V + V_F
+    # C_iss = 2 nF + C_gd(V_GD = −43 V) ≈ 2.02 nF: without the feedback di/dt would reach
+    # 2.15 A/ns; C_gd (23.3 pF) carrying the undershoot's own rise into the gate holds it to
+    # 1.58 A/ns (tests/physics/test_commutation.py checks that integration); 15 nH: 24.5 V
     assert values["v_plateau"].value == pytest.approx(5.0)
     assert values["g_m"].value == pytest.approx(20.0)
     assert values["r_off"].value == pytest.approx(23.0)
     assert values["l_s"].value == pytest.approx(15e-9)
     assert values["c_iss"].value == pytest.approx(2.02e-9, rel=0.01)
-    assert values["di_dt"].value == pytest.approx(2.15e9, rel=0.01)
-    assert values["v_undershoot"].value == pytest.approx(-33.1, abs=0.3)
+    assert values["c_gd"].value == pytest.approx(23.3e-12, rel=0.01)
+    assert values["di_dt"].value == pytest.approx(1.58e9, rel=0.01)
+    assert "feedback" in values["di_dt"].origin
+    assert values["v_undershoot"].value == pytest.approx(-24.5, abs=0.2)
     assert values["vs_min"].value == pytest.approx(-5.0)
     assert "parts.toml" in values["vs_min"].origin
-    # (5 V − V_F)/(di/dt) = 1.96 nH, the E12 value at or below it
+    # V_F + L·di/dt(L) = 5 V at 2.14 nH with the feedback (1.96 nH without), the E12
+    # value at or below it; R_off 160 Ω in all (177 Ω without), less the model's 1 Ω
     assert values["l_s_max"].value == pytest.approx(1.8e-9)
+    assert values["r_off_min"].value == pytest.approx(160.3, rel=0.01)
     assert values["suggested_turn_off_resistor"].value == pytest.approx(180.0)
     assert "ls" in values["l_s"].origin
     assert "cut the loop inductance (ls: 15 nH) to at most 1.8 nH" in finding.fix
@@ -200,18 +206,21 @@ def _one_edge(text: str) -> str:
     text = text.replace(
         "VHIN hin 0 PULSE(0 5 0 5n 5n 2.4u 10u)", "VHIN hin 0 PWL(0 5 200n 5 205n 0)"
     )
-    text = text.replace("VGL gl 0 PULSE(0 12 2.6u 5n 5n 7.3u 10u)", "VGL gl 0 DC 0")
+    text = text.replace("PULSE(0 12 2.6u 5n 5n 7.3u 10u)", "DC 0")
     return text.replace(".end\n", ".tran 0.02n 500n 0 0.02n uic\n.end\n")
 
 
-def _computed_and_simulated(stray: str, tmp_path: Path) -> tuple[float, float]:
-    """drivelint's undershoot (nominal corner) and ngspice's lowest V(sw) after the edge."""
+def _computed_and_simulated(
+    stray: str, tmp_path: Path, kelvin: bool = False
+) -> tuple[float, float]:
+    """drivelint's undershoot (nominal corner) and ngspice's lowest V(sw) after the edge;
+    ``kelvin``: the low side's gate drive returned to its source, not to ground."""
     deck = tmp_path / "deck" / BAD.name
     deck.parent.mkdir(parents=True)
-    deck.write_text(
-        BAD.read_text(encoding="utf-8").replace("LS src 0 15n", f"LS src 0 {stray}"),
-        encoding="utf-8",
-    )
+    text = BAD.read_text(encoding="utf-8").replace("LS src 0 15n", f"LS src 0 {stray}")
+    if kelvin:
+        text = text.replace("VGL gl 0 PULSE", "VGL gl src PULSE")
+    deck.write_text(text, encoding="utf-8")
     (deck.parent / "parts.toml").write_text(PARTS.read_text(encoding="utf-8"), encoding="utf-8")
     stage, facts = facts_of(deck, "m1")
     edge = commutation_edge(stage, facts)
@@ -229,21 +238,28 @@ def test_small_loops_agree_with_ngspice(stray: str, tmp_path: Path) -> None:
 
 
 def test_the_bad_deck_is_an_upper_bound_on_ngspice(tmp_path: Path) -> None:
-    # 15 nH: drivelint −33.0 V, ngspice −20.0 V (8 nH: −18.0 V against −12.6 V). The
-    # fastest point of the fall is taken for the whole of it; in ngspice the current starts
-    # to fall (at 2.6 A/ns, above the rule's 2.15 A/ns) while the node is still on its way
-    # down, and the loop then takes the current at about 1.5 A/ns. Neither the node's
-    # capacitance (cut to 21 pF: −23.0 V) nor the boot path (cut: −22.4 V) accounts for it.
+    # 15 nH: drivelint −24.5 V, ngspice −20.0 V (without the feedback through C_gd the rule
+    # said −33.0 V). What is left is the low side's own gate: it returns to ground, across
+    # LS, so its C_gs (2 nF through RGL) is a path in parallel with the stray that the rule
+    # does not count; with that gate returned to its source, ngspice gives −21.6 V (below)
     computed, simulated = _computed_and_simulated("15n", tmp_path)
-    assert computed < simulated < 0.5 * computed, (computed, simulated)
+    assert computed < simulated < 0.7 * computed, (computed, simulated)
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="the rule's bound is 1.65× ngspice at 15 nH (−33.0 V against −20.0 V): the "
-    "fall's fastest rate is taken for all of it, while the voltage and current transitions "
-    "overlap in ngspice",
-)
 def test_the_bad_deck_within_20_percent_of_ngspice(tmp_path: Path) -> None:
+    # −20.0 V is 18 % short of −24.5 V: inside the ±20 % the rules' cross-checks hold,
+    # though by little (the low side's C_gs across the stray, above)
     computed, simulated = _computed_and_simulated("15n", tmp_path)
     assert simulated == pytest.approx(computed, rel=0.20)
+
+
+@pytest.mark.parametrize("stray", ["2n", "5n", "8n", "15n"])
+def test_with_the_low_side_driven_at_its_source_within_20_percent(
+    stray: str, tmp_path: Path
+) -> None:
+    # no path across the stray but the diode: ngspice −4.57 / −9.38 / −13.51 / −21.61 V
+    # against the rule's −4.7 / −9.9 / −14.7 / −24.5 V (at 30 nH: −35.0 V against −42.6 V,
+    # 1.22×; the node's capacitance, not counted, slows the swing more as it deepens)
+    computed, simulated = _computed_and_simulated(stray, tmp_path, kelvin=True)
+    assert computed < simulated, (computed, simulated)
+    assert simulated == pytest.approx(computed, rel=0.20), (computed, simulated)

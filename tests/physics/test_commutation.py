@@ -132,3 +132,89 @@ def test_with_pint(ureg: pint.UnitRegistry) -> None:
     )
     t3 = switching.current_fall_time(q(10, "ohm"), q(2, "nF"), q(5, "V"), q(3, "V"))
     assert t3.to("ns").magnitude == pytest.approx(20 * math.log(5 / 3))
+
+
+def _second_order_peak(eps_k: float, y0: float) -> float:
+    """The peak of −dy/ds for ε·k·y'' + y' + y = 0, y(0) = y0, y'(0) = 0 (a linear
+    second-order system released from rest: y = A·e^(r1·s) + B·e^(r2·s), the roots of
+    ε·k·r² + r + 1 = 0; the peak where r1·e^(r1·s) = r2·e^(r2·s); textbook ODEs)."""
+    root = math.sqrt(1.0 - 4.0 * eps_k)
+    r1, r2 = (-1.0 + root) / (2.0 * eps_k), (-1.0 - root) / (2.0 * eps_k)
+    s = math.log(r2 / r1) / (r1 - r2)
+    return -(y0 * r1 * r2 / (r1 - r2)) * (math.exp(r2 * s) - math.exp(r1 * s))
+
+
+@pytest.mark.parametrize("l_s", [2e-9, 15e-9, 25e-9])
+def test_feedback_with_a_constant_transconductance_is_a_linear_second_order_system(
+    l_s: float,
+) -> None:
+    # With i = I − g_m·(V_pl − x) the gate's node gives C_gd·L·g_m·x'' + C_iss·x' + x/R = 0
+    # (V_off = 0): in s = t/(R·C_iss) and y = x/(V_pl − V_th), ε·k·y'' + y' + y = 0 with
+    # ε·k = C_gd·L·g_m/(R·C_iss²); di/dt = g_m·dx/dt, so the peak rate is the closed form's
+    # (with more inductance the current is gone before the closed form's peak: the
+    # integration stops there, as the fall does)
+    i_load, g_m, v_pl, vth, r, c_iss, c_gd = 20.0, 20.0, 5.0, 4.0, 23.0, 2e-9, 25e-12
+    tau, span = r * c_iss, v_pl - vth
+    eps_k = c_gd * l_s * g_m / (tau * c_iss)
+    expected = g_m * span / tau * _second_order_peak(eps_k, v_pl / span)
+    rate = commutation.current_fall_rate_with_feedback(
+        i_load, g_m, v_pl, vth, r, c_iss, c_gd, l_s, square_law=False
+    )
+    assert rate == pytest.approx(expected, rel=0.005)
+    assert rate < commutation.current_fall_rate(g_m, v_pl, r, c_iss)
+
+
+def test_feedback_vanishes_without_c_gd_or_inductance() -> None:
+    simple = commutation.current_fall_rate(20.0, 5.0, 23.0, 2e-9)
+    for c_gd, l_s in ((0.0, 15e-9), (25e-12, 0.0), (1e-15, 1e-12)):
+        rate = commutation.current_fall_rate_with_feedback(
+            20.0, 20.0, 5.0, 3.0, 23.0, 2e-9, c_gd, l_s
+        )
+        assert rate == pytest.approx(simple, rel=1e-3)
+    # more inductance, more feedback: the rate falls, the swing L·di/dt still grows
+    rates = [
+        commutation.current_fall_rate_with_feedback(
+            20.0, 20.0, 5.0, 3.0, 23.0, 2e-9, 25e-12, henries
+        )
+        for henries in (1e-9, 5e-9, 15e-9, 50e-9)
+    ]
+    assert rates == sorted(rates, reverse=True)
+    swings = [h * r for h, r in zip((1e-9, 5e-9, 15e-9, 50e-9), rates, strict=True)]
+    assert swings == sorted(swings)
+
+
+def test_feedback_runs_on_quantities() -> None:
+    u = pint.UnitRegistry()
+    rate = commutation.current_fall_rate_with_feedback(
+        20.0 * u.A,
+        20.0 * u.S,
+        5.0 * u.V,
+        3.0 * u.V,
+        23.0 * u.ohm,
+        2.0 * u.nF,
+        25.0 * u.pF,
+        15.0 * u.nH,
+    )
+    plain = commutation.current_fall_rate_with_feedback(
+        20.0, 20.0, 5.0, 3.0, 23.0, 2e-9, 25e-12, 15e-9
+    )
+    assert rate.to("A/s").magnitude == pytest.approx(plain)
+
+
+def test_the_limits_with_feedback_meet_the_limit() -> None:
+    edge = commutation.TurnOffEdge(20.0, 20.0, 5.0, 3.0, 2e-9, 25e-12)
+    l_max = commutation.max_loop_inductance_with_feedback(edge, -5.0, 0.8, 23.0)
+    assert edge.depth(0.8, 23.0, l_max) == pytest.approx(5.0, rel=2e-3)
+    # the feedback only slows the fall: the inductance allowed is more than without it
+    simple = commutation.max_loop_inductance(
+        -5.0, 0.8, commutation.current_fall_rate(20.0, 5.0, 23.0, 2e-9)
+    )
+    assert l_max > simple
+    r_min = commutation.min_turn_off_resistance_with_feedback(edge, -5.0, 0.8, 23.0, 15e-9)
+    assert edge.depth(0.8, r_min, 15e-9) == pytest.approx(5.0, rel=2e-3)
+    assert r_min < commutation.min_turn_off_resistance(20.0, 5.0, 2e-9, 15e-9, -5.0, 0.8)
+    # already within: the resistance as it is; the diode's drop alone: none is enough
+    assert commutation.min_turn_off_resistance_with_feedback(edge, -5.0, 0.8, 23.0, 1e-10) == 23.0
+    assert math.isinf(
+        commutation.min_turn_off_resistance_with_feedback(edge, -0.8, 0.8, 23.0, 15e-9)
+    )
