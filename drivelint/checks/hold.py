@@ -397,7 +397,17 @@ def _dc_hold_finding(
         ]
     unbounded = not math.isfinite(on_time.value)
     derivation.append(f"t_on = {'unbounded' if unbounded else on_time.text()} ({on_time.origin})")
-    if t_hold is not None and math.isfinite(t_hold) and c_hold is not None:
+    if t_hold is not None and not t_hold > 0 and v_boot is not None and c_hold is not None:
+        # the boot supply starts at or below the level it must hold: no on-time is short
+        # enough, and "refresh every 0 s" would be no advice
+        hold_part = (
+            f"{cap_name} charges only to {v_boot.text()}, already at or below the "
+            f"{facts.v_boot_min.text()} it must stay above, so it holds {switch} on for no "
+            "time at all"
+        )
+        refresh = "first raise the boot supply above that level, as gate-headroom says"
+        largest = "as built, no on-time works"
+    elif t_hold is not None and math.isfinite(t_hold) and c_hold is not None:
         held = format_si(t_hold, "s")
         hold_part = (
             f"{cap_name} ({(facts.c_hold_nominal or c_hold).text()}) keeps the boot supply above "
