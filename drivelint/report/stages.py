@@ -70,7 +70,7 @@ def stage_text(stage: DriveStage, shifter_current: Value | None = None) -> str:
     lines = [f"{head}: floating, {stage.mode}", f"    why:      {stage.floating_reason}"]
     bus = stage.bus
     if bus is not None:
-        level = format_si(bus.volts or 0, "V")
+        level = format_si(bus.volts, "V") if bus.volts is not None else "level not known"
         if bus.low is not None:
             level = f"{format_si(bus.low, 'V')} to {level} ({bus.source})"
         lines.append(f"    bus:      {bus.net} = {level}")

@@ -301,6 +301,17 @@ class _StageBuilder:
                 None,
             )
         bus = self.bus()
+        if bus is None and self.switch_node_shape():
+            output = self.converter_output()
+            if output is not None:
+                on_node = ", ".join(self.source_loads())
+                return (
+                    True,
+                    f"source '{self.source}' is a switch node ({on_node}); the drain at "
+                    f"'{output.net}' is a converter's output, held by {output.source} but at "
+                    "no DC rail: its level is not known here (give the condition v_bus)",
+                    Rail(output.net, None),
+                )
         if bus is None:
             return (
                 False,
@@ -324,6 +335,42 @@ class _StageBuilder:
             ),
             bus,
         )
+
+    def switch_node_shape(self) -> bool:
+        """The source is a switch node: an inductor on it, and a low-side switch's drain or a
+        freewheel diode's cathode (its anode at ground or a rail)."""
+        view = self.view
+        inductor = commutating = False
+        for name, pin in view.at(self.source):
+            device = view.device(name)
+            if device is None or name == self.switch.name:
+                continue
+            if device.kind == "inductor":
+                inductor = True
+            elif device.kind == "mosfet" and pin == "d" and device.net("s") in view.rails:
+                commutating = True
+            elif device.kind == "diode" and pin == "k" and device.net("a") in view.rails:
+                commutating = True
+        return inductor and commutating
+
+    def converter_output(self) -> Rail | None:
+        """The drain's net as a converter's output (a synchronous boost's rectifier, the
+        output leg of a buck-boost): not a rail, but held by a filter-sized capacitor to
+        ground or a rail. ``source`` names that capacitor; the level is not known."""
+        from drivelint.stages.wires import FILTER_MIN_CAPACITANCE
+
+        view = self.view
+        if self.drain in view.rails or self.drain == self.source:
+            return None
+        for name, _ in view.at(self.drain):
+            device = view.device(name)
+            if device is None or device.kind != "capacitor" or device.value is None:
+                continue
+            if device.value * device.multiplier < FILTER_MIN_CAPACITANCE:
+                continue
+            if _other_net(device, self.drain) in view.rails:
+                return Rail(self.drain, None, source=name)
+        return None
 
     def source_loads(self) -> list[str]:
         out = []

@@ -413,3 +413,44 @@ S_LD LO VSS VSS lc SWM
     assert any(
         "xd (subcircuit bdrv) taken as a driver IC by its pin names" in n for n in stage.notes
     )
+
+
+# ---------------------------------------------------------------- converter outputs
+
+SYNC_BOOST = """12 V to 24 V synchronous boost
+VIN vin 0 DC 12
+VCC vcc 0 DC 12
+L1 vin sw 10u
+M1 out g1 sw nfet
+M2 sw g2 0 nfet
+D1 vcc vb dboot
+C1 vb sw 100n
+R1 g1 sw 10k
+R2 g2 0 10k
+COUT out 0 {cout}
+RLD out 0 24
+.model nfet VDMOS (Vto=3 Kp=10)
+.model dboot D (IS=1n)
+.end
+"""
+
+
+def test_a_synchronous_boosts_rectifier_floats_on_its_output(tmp_path: Path) -> None:
+    # the high side's drain is the converter's output: held by COUT, at no DC rail
+    stages = stages_of_text(SYNC_BOOST.format(cout="220u"), tmp_path)
+    (high,) = [s for s in stages if s.switch == "m1"]
+    assert high.floating
+    assert high.bus is not None and high.bus.net == "out" and high.bus.volts is None
+    assert "converter's output" in high.floating_reason and "cout" in high.floating_reason
+    assert high.supply.kind == "bootstrap" and high.supply.capacitor == "c1"
+
+
+def test_a_drain_on_no_rail_and_no_filter_capacitor_is_not_a_high_side(tmp_path: Path) -> None:
+    # a 1 nF snubber does not hold a rail: not recognised, as before
+    stages = stages_of_text(SYNC_BOOST.format(cout="1n"), tmp_path)
+    (high,) = [s for s in stages if s.switch == "m1"]
+    assert not high.floating
+    assert "reaches no positive rail" in high.floating_reason
+    # the output leg of o22's buck-boost, driven by its own half-bridge driver
+    leg = stage_of("o22_buck_boost_held_input_leg.cir", "mb1")
+    assert leg.floating and leg.bus is not None and leg.bus.volts is None
