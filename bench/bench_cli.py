@@ -4,7 +4,7 @@
 
 (a) cold start: median wall time of `drivelint check` on one example against
     `python -c "import click, lark, networkx"` (the imports it cannot avoid), same
-    machine, as a ratio (target <= 1.3);
+    machine, as a ratio (target <= 1.0: no slower than those imports);
 (b) batch throughput: files per second on N example-sized netlists (default 1,000) with
     --jobs 1 and --jobs 2, no cache (targets: jobs 2 >= 1.7 x jobs 1; >= 200 files/s);
 (c) warm cache: a re-scan of the same files as a fraction of the cold scan (target <= 10 %).
@@ -85,7 +85,8 @@ def main() -> int:
             f" (drivelint compiled from source each start: {from_source * 1000:.0f} ms,"
             f" {from_source / baseline:.2f}x)"
         )
-        results.append(("cold start ratio", ratio, "<= 1.3", ratio <= 1.3))
+        # the target the scale issue sets: no slower than the bare imports
+        results.append(("cold start ratio", ratio, "<= 1.0", ratio <= 1.0))
 
         folder = scratch / "lib"
         folder.mkdir()
