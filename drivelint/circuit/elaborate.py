@@ -70,7 +70,7 @@ USAGE: Mapping[str, str] = {
     "r": "R<name> N+ N- VALUE",
     "c": "C<name> N+ N- VALUE",
     "l": "L<name> N+ N- VALUE",
-    "k": "K<name> L<a> L<b> COUPLING",
+    "k": "K<name> L<a> L<b> [L<c> …] COUPLING",
     "d": "D<name> ANODE CATHODE MODEL",
     "q": "Q<name> C B E [SUBSTRATE] MODEL",
     "m": "M<name> D G S [B] MODEL [W=… L=…]",
@@ -682,10 +682,13 @@ class _Elaborator:
                 model_name=model_name,
             )
         if letter == "k":
-            if len(positional) < 3 or not all(isinstance(f, Word) for f in positional[:2]):
+            # two inductors (SPICE3), or more with one coupling among them all (the form
+            # PSpice and LTspice accept): the coupling is the last field
+            coupled = positional[:-1]
+            if len(coupled) < 2 or not all(isinstance(f, Word) for f in coupled):
                 raise self.fail(element.span, f"expected '{USAGE['k']}'", "syntax")
-            names = tuple(block.prefix + f.text for f in positional[:2] if isinstance(f, Word))
-            return _with(base, controls=names, value=scope.number(positional[2]))
+            names = tuple(block.prefix + f.text for f in coupled if isinstance(f, Word))
+            return _with(base, controls=names, value=scope.number(positional[-1]))
         if letter == "t":
             return self.line(element, base, positional, block)
         raise self.fail(element.span, f"element kind '{letter}' is not handled")

@@ -278,3 +278,15 @@ def test_if_condition_on_node_voltages_is_refused() -> None:
     c = circuit("t\nV1 a 0 1\n.if (v(a) > 0)\nR1 a 0 1\n.endif\n")
     assert any("must depend on parameters only" in m for m in errors(c))
     assert "r1" not in c.devices
+
+
+def test_one_coupling_among_several_inductors() -> None:
+    # K with two inductors is SPICE3's (ngspice manual, "Coupled (Mutual) Inductors"); a
+    # single K over three or more windings is the form PSpice and LTspice accept (from
+    # memory): every winding is coupled, the coupling is the last field
+    c = circuit("t\nL1 a 0 1m\nL2 b 0 1m\nL3 0 c 1m\nK1 L1 L2 L3 0.99\n.end\n")
+    assert errors(c) == []
+    assert c.devices["k1"].controls == ("l1", "l2", "l3")
+    assert c.devices["k1"].value == pytest.approx(0.99)
+    c = circuit("t\nL1 a 0 1m\nK1 L1 0.9\n.end\n")
+    assert len(errors(c)) == 1 and "L<b>" in errors(c)[0]
