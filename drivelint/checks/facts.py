@@ -327,6 +327,8 @@ class StageFacts:
         given = self.condition(key)
         if given is not None:
             return given
+        if rail is not None and rail.volts is None and key == "v_bus":
+            return self._boost_output(rail)
         if rail is None or rail.volts is None:
             return None
         if rail.low is None:
@@ -334,6 +336,34 @@ class StageFacts:
         if lowest:
             return Value(rail.low, "V", f"lowest level of {rail.source} once up (rail {rail.net})")
         return Value(rail.volts, "V", f"highest level of {rail.source} (rail {rail.net})")
+
+    def _boost_output(self, rail: Rail) -> Value | None:
+        """A converter's output the drain sits on, as a synchronous boost's: an inductor from
+        a DC rail V_in to the switch node, the high side (the rectifier) commanded on for
+        D of the period: V_out = V_in/D (the ideal boost in continuous conduction, V_in/(1 −
+        D_low) with D = 1 − D_low; textbook converter relation). Dead time in which the body
+        diode conducts makes D smaller than 1 − D_low, so the figure errs high, as stresses
+        should. None where the inductor does not come from a rail or the duty is not read."""
+        duty = self.duty_max
+        if duty is None or not 0.05 <= duty.value < 1.0:
+            return None
+        source = self.stage.source
+        rails = self.circuit.rails
+        for device in self.by_net.get(source, ()):
+            if device.kind != "inductor" or len(device.nets) != 2:
+                continue
+            far = device.nets[1] if device.nets[0] == source else device.nets[0]
+            v_in = rails.get(far)
+            if v_in is None or not v_in > 0:
+                continue
+            return computed(
+                v_in / duty.value,
+                "V",
+                f"computed: V_in/D = {format_si(v_in, 'V')}/{duty.value:.3g}, the output "
+                f"{rail.net} of an ideal synchronous boost fed through {device.name} from rail "
+                f"{far} (the duty from {duty.origin}; give v_bus)",
+            )
+        return None
 
     @cached_property
     def v_bus(self) -> Value | None:
