@@ -249,12 +249,16 @@ def _high_turn_off(facts: StageFacts) -> TurnOff:
     stage = facts.stage
     drive = facts.v_boot0  # at the corner the deck of a finding holds (the hold side)
     ohms, names = 0.0, []
-    for path in stage.pulldowns[:1]:
-        for name in path.devices:
-            device = facts.device(name)
-            if device is not None and device.kind == "resistor" and device.value is not None:
-                ohms += device.value
-                names.append(name)
+    # the path through the driver's sink turns the gate off; a gate–source resistor beside
+    # it only helps (paths are listed by name, not by strength)
+    driver = stage.driver.device if stage.driver is not None else None
+    driven = [p for p in stage.pulldowns if driver is not None and driver in p.devices]
+    first = next(iter(driven or stage.pulldowns), None)
+    for name in first.devices if first is not None else ():
+        device = facts.device(name)
+        if device is not None and device.kind == "resistor" and device.value is not None:
+            ohms += device.value
+            names.append(name)
     external = Value(
         ohms,
         "Ohm",
@@ -265,7 +269,6 @@ def _high_turn_off(facts: StageFacts) -> TurnOff:
     # the stage's own switch at the top of its gate-charge spread (checks/corners.py): the
     # slowest turn-off; its partner is taken at its values as given. A pull-down to a
     # turn-off supply below the source discharges the gate toward that level.
-    first = stage.pulldowns[0] if stage.pulldowns else None
     v_off = facts.v_off_nearest if first is not None and first.returns_to == "negative" else None
     return _turn_off(facts, facts.switch, drive, external, charge_spread(facts), v_off)
 

@@ -365,3 +365,16 @@ def test_a_given_turn_off_time_is_used_as_given(tmp_path: Path) -> None:
     bad.write_text('[part.Q]\nkind = "diode"\nt_off = "5 ns"\n', encoding="utf-8")
     with pytest.raises(PartsError, match="does not apply"):
         load_parts(bad)
+
+
+def test_the_turn_off_path_is_the_drivers_not_a_resistor_beside_it() -> None:
+    # R2 (10 kΩ gate to source) sorts before the driver XU1 among the gate's pull-downs;
+    # taken as the turn-off path it gave a 51.8 µs turn-off and a false warning
+    deck = OWN / "c4_driver_on_the_gate.cir"
+    assert lint(deck.read_text(encoding="utf-8")) == []
+    renamed = deck.read_text(encoding="utf-8").replace("R2 G1 SW 10k", "RZ G1 SW 10k")
+    assert lint(renamed) == []
+    # the driver's sink alone (no resistance given: 0 Ω) and the model's RG: a fast edge
+    slow = renamed.replace("XU1 BST G1 SW", "RS G1 G1D 100k\nXU1 BST G1D SW")
+    (finding,) = lint(slow)
+    assert finding.values["r_off"].value == pytest.approx(100e3 + 1.0)
