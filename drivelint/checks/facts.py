@@ -939,7 +939,43 @@ class StageFacts:
             self.v_aux.value, self.diode_vf.value, v_refresh=self.v_refresh
         )
         how = "V_aux − V_F" + (" − V_sw,low" if self.v_sw_low.value else "")
-        return Value(volts, "V", f"computed: {how}")
+        return self.regulated(Value(volts, "V", f"computed: {how}"))
+
+    @cached_property
+    def boot_zener(self) -> tuple[Device, Value] | None:
+        """A Zener across the hold capacitor (cathode on the boot net, anode on the switch
+        node) and its voltage: it holds the boot supply at V_Z, as a bootstrap fed from a
+        rail above the gate's rating through a resistor is built. Diodes rated above
+        ZENER_MAX_BV are not taken for Zeners."""
+        from drivelint.stages.recognise import ZENER_MAX_BV
+
+        stage = self.stage
+        boot = stage.supply.boot_net
+        if stage.supply.kind != "bootstrap" or not boot:
+            return None
+        found: tuple[Device, Value] | None = None
+        for device in self.by_net.get(boot, ()):
+            if device.kind != "diode" or (device.net("k"), device.net("a")) != (boot, stage.source):
+                continue
+            vz = self.ratings.get(device, "vz")
+            if vz is None or not 0 < vz.value <= ZENER_MAX_BV:
+                continue
+            if found is None or vz.value < found[1].value:
+                found = (device, vz)
+        return found
+
+    def regulated(self, level: Value) -> Value:
+        """``level`` held down to the boot Zener's V_Z where one is across the capacitor."""
+        zener = self.boot_zener
+        if zener is None or not zener[1].value < level.value:
+            return level
+        device, vz = zener
+        return Value(
+            vz.value,
+            "V",
+            f"the Zener {device.name} across the hold capacitor holds it at {vz.text()} "
+            f"({vz.origin}), below {level.text()} ({level.origin})",
+        )
 
     def _turn_off_level(self, furthest: bool) -> Value | None:
         """The turn-off supply below the source (negative) at one side of its tolerance."""
@@ -999,7 +1035,7 @@ class StageFacts:
         how = "V_aux,max − V_F − V_sw,low"
         if self.dead_time_boost.value:
             how += f" + {self.dead_time_boost.text()} dead-time boost"
-        return Value(volts, "V", f"computed: {how}")
+        return self.regulated(Value(volts, "V", f"computed: {how}"))
 
     @cached_property
     def vgs_on_max(self) -> Value | None:

@@ -205,20 +205,26 @@ def sustained_boot(stage: DriveStage, facts: StageFacts) -> Sustained | None:
             else ""
         ),
     )
+    # a Zener across the capacitor stops the recharge at V_Z: the budget is taken there
+    level = facts.regulated(v_target).value
     v_min = facts.v_boot_min.value
-    at_target = facts.q_cycle_at(v_target.value)
+    at_target = facts.q_cycle_at(level)
     if at_target is not None:
         q_cycle = at_target
     # what the path puts back before the node rises never leaves the capacitor for good
     q_cycle -= facts.refilled_charge.value
     # The charge each cycle takes follows the boot voltage (the gate charge and the resistive
     # drains grow with it): its slope from the budget at V_target and at 80 % of it.
-    low = facts.q_cycle_at(0.8 * v_target.value)
-    slope = (q_cycle - low) / (0.2 * v_target.value) if low is not None else 0.0
+    low = facts.q_cycle_at(0.8 * level)
+    slope = (q_cycle - low) / (0.2 * level) if low is not None else 0.0
     k = max(slope, 0.0)
     sustained = boot_physics.sustained_boot_voltage_linear(
         v_target.value, q_cycle, k, c, r_charge, off_time.value, facts.c_gate.value
     )
+    if sustained.peak > level:
+        # the Zener holds the peak at V_Z; each on-time still takes the same droop from it
+        droop = sustained.peak - sustained.valley
+        sustained = boot_physics.SustainedBoot(peak=level, valley=level - droop)
     t_off_min = boot_physics.min_off_time_linear(
         v_target.value, v_min, q_cycle, k, c, r_charge, facts.c_gate.value
     )

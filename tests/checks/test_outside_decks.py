@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pytest
 
-from drivelint.pipeline import check_path
+from drivelint.pipeline import check_path, check_text
 
 OUTSIDE = Path(__file__).resolve().parent / "outside"
 
@@ -129,6 +129,8 @@ CLEAN = [
     "o20_two_switch_forward_reset_refresh.cir",
     # both gates of a half bridge from one gate-drive transformer, Zener pairs at ±15 V
     "o21_gate_transformer_half_bridge.cir",
+    # a bootstrap fed from the 24 V bus and held at 12 V by a Zener across its capacitor
+    "o24_buck24v_zener_held_bootstrap.cir",
 ]
 
 
@@ -233,3 +235,19 @@ def test_a_turn_off_against_a_held_output_is_an_error_and_says_why() -> None:
     assert (
         warning.severity.label == "warning" and "only in a transient or a fault" in warning.message
     )
+
+
+def test_a_zener_across_the_boot_capacitor_holds_the_boot_supply() -> None:
+    # o24: 24 V − V_F would put 23 V on the gate; DZB (BV 12 V) holds it at 12 V (ngspice:
+    # 11.94–12.03 V); without the Zener gate-overvoltage fires, as it should
+    from crosscheck import facts_of
+
+    deck = OUTSIDE / "o24_buck24v_zener_held_bootstrap.cir"
+    _, facts = facts_of(deck, "mh")
+    assert facts.v_boot_max is not None and facts.v_boot0 is not None
+    assert facts.v_boot_max.value == pytest.approx(12.0)
+    assert facts.v_boot0.value == pytest.approx(12.0)
+    assert "dzb" in facts.v_boot_max.origin
+    text = deck.read_text(encoding="utf-8").replace("DZB SW VB DZ12\n", "")
+    rules = {f.rule for f in check_text(text).findings}
+    assert "gate-overvoltage" in rules
