@@ -352,7 +352,7 @@ class StageFacts:
         for device in self.by_net.get(source, ()):
             if device.kind != "inductor" or len(device.nets) != 2:
                 continue
-            far = device.nets[1] if device.nets[0] == source else device.nets[0]
+            far = next((n for n in device.nets if n != source), source)
             v_in = rails.get(far)
             if v_in is None or not v_in > 0:
                 continue

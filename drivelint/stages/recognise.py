@@ -309,7 +309,8 @@ class _StageBuilder:
                     True,
                     f"source '{self.source}' is a switch node ({on_node}); the drain at "
                     f"'{output.net}' is a converter's output, held by {output.source} but at "
-                    "no DC rail: its level is not known here (give the condition v_bus)",
+                    "no DC rail: the rules estimate its level where an inductor feeds the node "
+                    "from a rail (give the condition v_bus to set it)",
                     Rail(output.net, None),
                 )
         if bus is None:
