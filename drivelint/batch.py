@@ -514,15 +514,15 @@ def _brief_worker(args: tuple[Job, BatchOptions]) -> Brief:
 
 
 def _warm_up() -> None:
-    """Load what every check needs before workers fork, so they inherit it."""
+    """Load what every check needs before workers fork, so they inherit it.
+
+    Not lark: lines and expressions that parse are read by hand, and a worker imports
+    lark only to word a syntax error.
+    """
     from drivelint.cache import prepare
     from drivelint.checks.registry import registry
-    from drivelint.netlist.expressions import compile_expression
-    from drivelint.netlist.reader import _LineParser
 
     registry()
-    _LineParser.get()
-    compile_expression("1/(2*x)")  # builds the expression grammar
     prepare()
 
 

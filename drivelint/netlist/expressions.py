@@ -1,6 +1,7 @@
 """The expression language of ``{...}`` / ``'...'`` values and ``.param`` right-hand sides.
 
-Text is parsed with the lark grammar ``grammar/expr.lark`` and compiled into nested
+Text is parsed by the grammar ``grammar/expr.lark`` (read by hand in
+``descent.py`` when it parses, by lark otherwise) and compiled into nested
 closures; no Python ``eval`` is involved at any point. Operator precedence and the
 power operator follow ngspice's front end (see the grammar file's header).
 
@@ -20,12 +21,18 @@ import re
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
-from typing import Final, NoReturn, TypeAlias
-
-from lark import Lark, Token, Tree, UnexpectedCharacters, UnexpectedInput, UnexpectedToken
+from typing import TYPE_CHECKING, Any, Final, NoReturn, TypeAlias
 
 from drivelint.limits import Limits
+from drivelint.netlist import descent
 from drivelint.netlist.values import parse_number
+
+if TYPE_CHECKING:
+    from lark import Lark, UnexpectedInput
+
+# A token of either parser: lark's, or the hand-written reader's (both str, with
+# ``type`` and ``start_pos``).
+Token: TypeAlias = Any
 
 Lookup: TypeAlias = Callable[[str], float | None]
 _Run: TypeAlias = Callable[[Lookup], float]
@@ -402,7 +409,7 @@ Item: TypeAlias = "_Node | Token | tuple[_Node, ...] | None"
 
 
 def _token(item: Item) -> Token:
-    assert isinstance(item, Token), item
+    assert isinstance(item, str), item
     return item
 
 
@@ -809,6 +816,8 @@ _CHARACTER_HINTS: Final = {
 
 def _previous_token(text: str, offset: int) -> str | None:
     """Text of the last token that ends at or before ``offset``."""
+    from lark import UnexpectedInput
+
     previous = None
     try:
         for token in _grammar().lex(text[:offset]):
@@ -820,6 +829,8 @@ def _previous_token(text: str, offset: int) -> str | None:
 
 def _syntax_error(text: str, error: UnexpectedInput) -> ExpressionError:
     """Turn lark's error into a message that says what was expected."""
+    from lark import UnexpectedCharacters, UnexpectedToken
+
     if isinstance(error, UnexpectedCharacters):
         offset = error.pos_in_stream or 0
         char = text[offset] if offset < len(text) else ""
@@ -853,18 +864,27 @@ def _syntax_error(text: str, error: UnexpectedInput) -> ExpressionError:
     return ExpressionError(f"unexpected {found}", offset)
 
 
-def _compile_tree(root: Tree[Token], limit: int) -> _Node:
-    """Post-order compile without recursion, stopping as soon as nesting passes ``limit``."""
+def _is_tree(child: object) -> bool:
+    """A rule's node of either parser's tree (tokens are strings; absent parts None)."""
+    return child is not None and not isinstance(child, str)
+
+
+def _compile_tree(root: Any, limit: int) -> _Node:
+    """Post-order compile without recursion, stopping as soon as nesting passes ``limit``.
+
+    ``root`` is lark's tree or the hand-written reader's (``descent.Tree``): the same
+    shape, ``data`` and ``children``.
+    """
     done: dict[int, _Node | tuple[_Node, ...]] = {}
-    stack: list[tuple[Tree[Token], bool]] = [(root, False)]
+    stack: list[tuple[Any, bool]] = [(root, False)]
     while stack:
         tree, children_done = stack.pop()
         if not children_done:
             stack.append((tree, True))
-            stack.extend((child, False) for child in tree.children if isinstance(child, Tree))
+            stack.extend((child, False) for child in tree.children if _is_tree(child))
             continue
         items: list[Item] = [
-            done.pop(id(child)) if isinstance(child, Tree) else child for child in tree.children
+            done.pop(id(child)) if _is_tree(child) else child for child in tree.children
         ]
         handler = _HANDLERS.get(str(tree.data))
         if handler is None:
@@ -900,10 +920,15 @@ def _compile_cached(text: str, limits: Limits) -> Expression:
         if value is not None and math.isfinite(value):
             return Expression(text, frozenset(), frozenset(), lambda lookup: value)
     _check_parentheses(text, limits.max_expression_depth)
-    try:
-        tree = _grammar().parse(text)
-    except UnexpectedInput as error:
-        raise _syntax_error(text, error) from None
+    tree: Any = descent.parse(text)
+    if tree is None:
+        # Not read by hand: lark reads it, or says what is wrong with it.
+        from lark import UnexpectedInput
+
+        try:
+            tree = _grammar().parse(text)
+        except UnexpectedInput as error:
+            raise _syntax_error(text, error) from None
     root = _compile_tree(tree, limits.max_expression_depth)
     return Expression(
         text, root.names, root.constants, root.run, root.probes, root.dynamic, root.calls

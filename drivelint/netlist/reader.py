@@ -253,6 +253,78 @@ def split_flat(line: LogicalLine) -> list[Field] | None:
     return out if position == end else None
 
 
+# The terminals of grammar/netlist.lark in one pattern: its WS, then one of "=", "(", ")",
+# ",", BRACE_EXPR, QUOTE_EXPR, WORD (no two can start with the same character).
+_LINE_TOKEN = re.compile(r"[ \t\f\r\n]*(?:([=(),])|(" + _BRACED + r"|'[^']*')|([^\s=(),{}']+))")
+
+
+def split_grouped(line: LogicalLine) -> list[Field] | None:
+    """Fields of any line the grammar accepts, read by hand; None where it is not sure.
+
+    The same fields as lark's tree of ``grammar/netlist.lark`` through ``_convert`` (a
+    group's span at the line's start, as there), without importing lark: that costs a
+    one-file run about 30 ms. None (every line the grammar refuses) sends the line to
+    lark, whose errors are the ones shown. tests/netlist/test_reader.py holds the two
+    to the same fields on generated lines. Groups nest on a list, not on the stack.
+    """
+    text = line.text
+    span_at = line.span_at
+    # open groups: (items so far, the key that waits for the group as its value, or None)
+    stack: list[tuple[list[Field], tuple[str, int] | None]] = [([], None)]
+    key: tuple[str, int] | None = None  # a WORD followed by '=': the value comes next
+    position = 0
+    tokens = list(_LINE_TOKEN.finditer(text))
+    index = 0
+    while index < len(tokens):
+        match = tokens[index]
+        index += 1
+        if match.start() != position:
+            return None
+        position = match.end()
+        punctuation, expression, word = match.group(1, 2, 3)
+        items = stack[-1][0]
+        if punctuation == "(":
+            stack.append(([], key))
+            key = None
+            continue
+        if punctuation is not None:
+            if key is not None:
+                return None  # '=' before ')', ',' or another '='
+            if punctuation == ")":
+                if len(stack) == 1:
+                    return None
+                group, waiting = stack.pop()
+                field: Field = Group(tuple(group), span_at(0))
+                if waiting is not None:
+                    field = Assign(waiting[0].lower(), field, span_at(waiting[1]))
+                stack[-1][0].append(field)
+            elif punctuation == "=":
+                return None  # an '=' that no WORD comes just before
+            continue
+        if expression is not None:
+            field = Expr(expression[1:-1], span_at(match.start(2) + 1))
+        else:
+            start = match.start(3)
+            following = tokens[index] if index < len(tokens) else None
+            if key is None and following is not None and following.group(1) == "=":
+                if following.start() != position:
+                    return None
+                position = following.end()
+                index += 1
+                key = (word, start)
+                continue
+            field = Word(word.lower(), word, span_at(start))
+        if key is not None:
+            field = Assign(key[0].lower(), field, span_at(key[1]))
+            key = None
+        items.append(field)
+    if key is not None or len(stack) != 1:
+        return None
+    if text[position:].strip(" \t\f\r\n"):
+        return None
+    return stack[0][0]
+
+
 def _top_level(text: str) -> Iterator[tuple[int, str]]:
     """(offset, character) for each character outside quoted and braced expressions."""
     braces = 0
@@ -920,9 +992,10 @@ class _Reader:
                     "limit",
                 )
 
-    def parse_with_grammar(self, line: LogicalLine) -> list[Field]:
-        from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
-
+    def parse_with_grammar(self, line: LogicalLine, by_hand: bool = True) -> list[Field]:
+        """The fields of a line with groups: read by hand (``split_grouped``) where it
+        parses, by lark (``by_hand=False``, or when the hand reader passes it on) for the
+        error message otherwise."""
         limit = self.limits.max_expression_depth
         too_deep = _group_too_deep(line.text, limit)
         if too_deep is not None:
@@ -933,6 +1006,11 @@ class _Reader:
                 f"parentheses nested more than {limit} levels deep (limit max_expression_depth)",
                 "limit",
             )
+        fields = split_grouped(line) if by_hand else None
+        if fields is not None:
+            return fields
+        from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
+
         try:
             tree = _LineParser.get().parse(line.text)
         except UnexpectedCharacters as exc:

@@ -12,7 +12,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from drivelint.diagnostics import Severity
+from drivelint.diagnostics import DiagnosticError, Severity
 from drivelint.netlist.reader import (
     LogicalLine,
     ReadOptions,
@@ -20,6 +20,7 @@ from drivelint.netlist.reader import (
     _Reader,
     read_deck,
     split_flat,
+    split_grouped,
     strip_inline_comment,
 )
 from drivelint.netlist.statements import (
@@ -376,11 +377,53 @@ def test_flat_split_matches_grammar(fields: list[str], gap: str) -> None:
     fast = split_flat(line)
     reader = _Reader(ReadOptions(), Path.cwd())
     try:
-        slow = reader.parse_with_grammar(line)
+        slow = reader.parse_with_grammar(line, by_hand=False)
     except Exception:
         slow = None
     if fast is not None:
         assert fast == slow
+
+
+# Lines with groups, assignments of groups, commas and stray punctuation: the hand reader
+# (split_grouped) gives lark's fields for every line it accepts, and accepts every line
+# lark does (so that lark is imported only to word an error).
+_piece = st.one_of(
+    _field,
+    st.sampled_from(
+        ["(", ")", ",", "=", "x=(", "pwl(", "(1,2)", "{a{b}}", "'q'", "{", "'", "tc=-1, 2"]
+    ),
+)
+_gap = st.sampled_from([" ", "", "  ", "\t", ", "])
+
+
+@settings(max_examples=600, deadline=None)
+@given(st.lists(st.tuples(_piece, _gap), min_size=1, max_size=10))
+def test_grouped_split_matches_grammar(pieces: list[tuple[str, str]]) -> None:
+    text = "".join(piece + gap for piece, gap in pieces)
+    line = LogicalLine(text, "p", [(0, 1, 1)])
+    reader = _Reader(ReadOptions(), Path.cwd())
+    try:
+        slow = reader.parse_with_grammar(line, by_hand=False)
+    except DiagnosticError:
+        slow = None
+    assert split_grouped(line) == slow, text
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "V1 in 0 PWL(0 0 1u 5)",
+        "Q1 c b e qmod area=(2) tc=-7.8e-3, 3.7e-5",
+        "X1 a b sub params: w={2*l} l='3u'",
+        "B1 o 0 V={V(a) * (1 + 2)}",
+        "M1 d g s s nch (w=1u l=(2u)) ( )",
+    ],
+)
+def test_grouped_split_reads_dialect_lines(text: str) -> None:
+    line = LogicalLine(text, "p", [(0, 1, 1)])
+    fields = split_grouped(line)
+    assert fields is not None
+    assert fields == _Reader(ReadOptions(), Path.cwd()).parse_with_grammar(line, by_hand=False)
 
 
 def test_grammar_is_loaded_once() -> None:
