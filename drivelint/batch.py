@@ -40,6 +40,8 @@ MAX_JOBS = 64  # worker processes at most, whatever --jobs says
 
 @dataclass(frozen=True, slots=True)
 class BatchOptions:
+    """How a batch runs: workers, cache, configuration, time bound."""
+
     jobs: int = 1
     cache_dir: Path | None = None  # None: no cache
     config_file: Path | None = None  # None: discovered per file
@@ -54,6 +56,8 @@ class BatchOptions:
 
 @dataclass(frozen=True, slots=True)
 class Job:
+    """One file to check, with the configuration that applies to it."""
+
     path: Path
     config: Config
     text: bytes | str | None = None  # standard input
@@ -68,6 +72,8 @@ class Job:
 
 @dataclass(slots=True)
 class BatchStats:
+    """What a batch did: files checked, answered from the cache, failed."""
+
     files: int = 0
     from_cache: int = 0
     failed: list[str] = field(default_factory=list)

@@ -71,6 +71,10 @@ class ConfigError(ValueError):
 
 @dataclass(frozen=True, slots=True)
 class Config:
+    """One file's settings: where they came from, the parts files, include paths and rule
+    settings.
+    """
+
     path: Path | None = None
     parts: tuple[Path, ...] = ()
     include_paths: tuple[Path, ...] = ()

@@ -37,6 +37,8 @@ READS: Counter[str] = Counter()
 
 @dataclass(frozen=True, slots=True)
 class LoadOptions:
+    """How a netlist is read: project root, include search path, ground names, limits."""
+
     root: Path | None = None  # None: found by walking up from the netlist
     allow_outside_root: bool = False
     search_path: tuple[Path, ...] = ()

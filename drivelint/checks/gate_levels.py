@@ -428,6 +428,8 @@ def _source_hold(stage: DriveStage, facts: StageFacts, fall: Value) -> SourceHol
 
 @dataclass(frozen=True, slots=True)
 class Pulldown:
+    """A pull-down of the gate: its path, device, return level and the V_GS it holds."""
+
     path: GatePath
     device: str
     v_return: Value
@@ -577,6 +579,8 @@ def gate_extremes(stage: DriveStage, facts: StageFacts, options: Mapping[str, fl
 
 @dataclass(frozen=True, slots=True)
 class Extremes:
+    """What bounds a gate's V_GS: its rating, clamps, drive and a shorted driver."""
+
     rating: GateRating
     clamps: list[ClampLevels]
     drive: GateDrive | None

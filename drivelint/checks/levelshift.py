@@ -50,6 +50,8 @@ def _other(device: Device, net: str) -> str | None:
 
 @dataclass(frozen=True, slots=True)
 class _Shifter:
+    """The transistor of a level shifter and its pins."""
+
     device: Device
     polarity: str  # "npn" or "nmos"
     collector: str
@@ -152,6 +154,8 @@ def blocking_finding(stage: DriveStage, ctx: CheckContext, shifter: _Shifter) ->
 
 @dataclass(frozen=True, slots=True)
 class _Drive:
+    """How a level shifter's transistor is driven: level and base resistor."""
+
     level: Value
     r_base: float
     base_resistor: str

@@ -151,6 +151,8 @@ def held_level(found: list[Anchor]) -> float:
 
 @dataclass(frozen=True, slots=True)
 class GateCapacitances:
+    """The gate's capacitances as a bus step sees them."""
+
     c_gd: Value  # averaged over the bus step
     c_gs: Value  # with the capacitors on the gate that the step does not move
     # a VDMOS model's C_gd curve (CGDMIN, CGDMAX, A, and the C_gd added outside the model),

@@ -23,6 +23,8 @@ _ACTIVE = ("low-side switch", "freewheel diode")
 
 @dataclass(frozen=True, slots=True)
 class _Path:
+    """A refresh path with the resistance the bootstrap recharges through."""
+
     refresh: Refresh
     resistance: Value
 

@@ -38,6 +38,8 @@ class StageAssumptions:
 
 @dataclass(frozen=True, slots=True)
 class CheckResult:
+    """One circuit's stages, findings and diagnostics after every rule ran."""
+
     circuit: Circuit
     stages: tuple[DriveStage, ...]
     findings: tuple[Finding, ...]

@@ -455,6 +455,8 @@ def _edge_finding(found: Transitions, facts: StageFacts, ctx: CheckContext) -> F
 
 @dataclass(frozen=True, slots=True)
 class Heat:
+    """A switch's losses and junction temperature at the steady state."""
+
     p_sw: float
     p_cond: float
     rds_hot: float

@@ -112,6 +112,8 @@ SERIES_KINDS = frozenset({"resistor", "inductor"})
 
 @dataclass(frozen=True, slots=True)
 class ElaborateOptions:
+    """What elaboration needs besides the deck: ground names and limits."""
+
     ground_aliases: frozenset[str] = DEFAULT_GROUND_ALIASES
     limits: Limits = field(default_factory=Limits)
 
@@ -1380,6 +1382,8 @@ def _field_text(item: Field) -> str:
 
 @dataclass(frozen=True, slots=True)
 class _WrapperPins:
+    """A wrapped MOSFET subcircuit read as one switch: pins, internal R_g, body diode."""
+
     pins: tuple[tuple[str, str], ...]
     gate_resistance: float | None
     body_diode: str | None

@@ -197,6 +197,8 @@ class Behaviour:
 
 @dataclass(frozen=True, slots=True)
 class Device:
+    """One elaborated device: flat name, kind, pins to nets, model and values."""
+
     __reduce__ = positional_reduce
     name: str
     kind: str
@@ -254,6 +256,8 @@ class Instance:
 
 @dataclass(frozen=True, slots=True)
 class Circuit:
+    """A flattened netlist: devices, nets, rails and what the reader noted."""
+
     path: str
     title: str
     devices: Mapping[str, Device]

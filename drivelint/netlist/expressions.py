@@ -268,6 +268,8 @@ def _table(*values: float) -> float:
 
 @dataclass(frozen=True, slots=True)
 class _Function:
+    """A built-in function: how many arguments it takes, and what it computes."""
+
     arity: int
     variadic: bool  # arity is then the least number of arguments
     apply: Callable[..., float]

@@ -1393,6 +1393,8 @@ def hidden_part(written: Path, resolved: Path, root: Path | None) -> str | None:
 
 @dataclass(frozen=True, slots=True)
 class _Refusal:
+    """Why a file is not read, and the diagnostic code to report it with."""
+
     message: str  # with {shown} for the file's name
     code: str = ""  # "" : the caller's code (file or include)
 

@@ -60,6 +60,8 @@ class Element:
 
 @dataclass(frozen=True, slots=True)
 class ModelCard:
+    """``.model NAME TYPE (params)``."""
+
     name: str
     type: str
     params: tuple[Assign, ...]
@@ -76,12 +78,16 @@ class ParamCard:
 
 @dataclass(frozen=True, slots=True)
 class GlobalCard:
+    """``.global`` nets."""
+
     nets: tuple[Word, ...]
     span: Span
 
 
 @dataclass(frozen=True, slots=True)
 class OptionCard:
+    """``.option`` / ``.options`` fields."""
+
     fields: tuple[Field, ...]
     span: Span
 
@@ -96,6 +102,8 @@ class TranCard:
 
 @dataclass(frozen=True, slots=True)
 class Subckt:
+    """``.subckt NAME ports params: …`` with its body, up to ``.ends``."""
+
     name: str
     ports: tuple[Word, ...]
     params: tuple[Assign, ...]

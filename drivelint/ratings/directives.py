@@ -34,6 +34,8 @@ ANY_DEVICE = "*"
 
 @dataclass(frozen=True, slots=True)
 class Acceptance:
+    """An inline acceptance of one rule's finding on one device, with its reason."""
+
     rule: str
     device: str
     reason: str

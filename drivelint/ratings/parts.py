@@ -142,6 +142,8 @@ class PartsError(ValueError):
 
 @dataclass(frozen=True, slots=True)
 class Part:
+    """A parts-library entry: its kind, ratings and values (SI units) and pin roles."""
+
     name: str
     kind: str
     values: Mapping[str, str | float]  # key -> value in SI units (checked at load)
@@ -154,6 +156,8 @@ class Part:
 
 @dataclass(frozen=True, slots=True)
 class PartsLibrary:
+    """The parts of every parts file in force, by name, with the files they came from."""
+
     parts: Mapping[str, Part] = field(default_factory=dict)
     files: tuple[str, ...] = ()
 

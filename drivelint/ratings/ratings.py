@@ -57,6 +57,8 @@ class RatingError(ValueError):
 
 @dataclass(frozen=True, slots=True)
 class Ratings:
+    """Ratings by precedence: directives, then the parts library, then the model card."""
+
     parts: PartsLibrary
     directives: DirectiveSet
 

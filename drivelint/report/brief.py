@@ -27,6 +27,8 @@ if TYPE_CHECKING:
 
 @dataclass(frozen=True, slots=True)
 class Brief:
+    """One file's result as every report format needs it, small enough to cache."""
+
     path: str  # the file as reports name it
     floating: int  # floating stages
     status: str  # report.status.file_status: error, partial, findings or clean

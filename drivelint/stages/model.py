@@ -104,6 +104,8 @@ class GatePath:
 
 @dataclass(frozen=True, slots=True)
 class Clamp:
+    """A gate clamp: its device, kind, orientation and clamping voltage."""
+
     __reduce__ = positional_reduce
     device: str
     kind: str  # "zener" or "diode"
@@ -157,6 +159,8 @@ class Control:
 
 @dataclass(frozen=True, slots=True)
 class Refresh:
+    """The path that recharges a bootstrap: its kind, devices and resistance."""
+
     __reduce__ = positional_reduce
     kind: str  # "low-side switch", "freewheel diode", "load", "inductor-load"
     devices: tuple[str, ...]
@@ -167,6 +171,8 @@ class Refresh:
 
 @dataclass(frozen=True, slots=True)
 class DriverInfo:
+    """A driver IC seen as a black box: its instance, subcircuit and pin roles."""
+
     __reduce__ = positional_reduce
     device: str
     subckt: str
@@ -206,6 +212,8 @@ class LevelShifter:
 
 @dataclass(frozen=True, slots=True)
 class DriveStage:
+    """One floating switch and its gate drive, as recognised from the circuit."""
+
     __reduce__ = positional_reduce
     switch: str
     channel: str
