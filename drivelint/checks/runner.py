@@ -72,6 +72,22 @@ def check_circuit(
     conditions: dict[str, Value] | None = None,
     rules: Mapping[str, Rule] | None = None,
 ) -> CheckResult:
+    """Every enabled rule over every floating stage, with the collector paused meanwhile
+    (the facts and findings are short-lived; see ``_gc.paused_gc``)."""
+    from drivelint._gc import paused_gc
+
+    with paused_gc(freeze=False):
+        return _check_circuit(circuit, stages, parts, settings, conditions, rules)
+
+
+def _check_circuit(
+    circuit: Circuit,
+    stages: Sequence[DriveStage],
+    parts: PartsLibrary,
+    settings: Mapping[str, RuleSetting] | None,
+    conditions: dict[str, Value] | None,
+    rules: Mapping[str, Rule] | None,
+) -> CheckResult:
     rules = rules if rules is not None else registry()
     settings = settings or {}
     directives = parse_directives(circuit.directives, circuit.line_text, known_rules=rules.keys())
