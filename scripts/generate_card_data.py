@@ -9,10 +9,11 @@ stale, and tests/checks/test_card_data.py fails until the snapshot is regenerate
 
 from __future__ import annotations
 
-import json
 import sys
 import tomllib
 from pathlib import Path
+
+import json_module
 
 ROOT = Path(__file__).resolve().parent.parent
 TARGET = ROOT / "drivelint" / "checks" / "card_data.py"
@@ -31,16 +32,11 @@ def render() -> str:
     cards = sorted(rules_dir().glob("*.toml"))
     texts = {card.name: card.read_bytes() for card in cards}
     data = {name: tomllib.loads(text.decode("utf-8")) for name, text in texts.items()}
-    text = json.dumps(data, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
-    chunks = "\n".join(f"    {json.dumps(text[i : i + 88])}" for i in range(0, len(text), 88))
-    return f"{HEADER}CARDS_DIGEST = {cards_digest(texts)!r}\nCARDS_JSON = (\n{chunks}\n)\n"
+    return json_module.render(HEADER, {"CARDS_DIGEST": cards_digest(texts)}, "CARDS_JSON", data)
 
 
 def main() -> int:
-    text = render()
-    TARGET.write_text(text, encoding="utf-8")
-    print(f"wrote {TARGET.relative_to(ROOT)} ({len(text)} bytes)")
-    return 0
+    return json_module.write(TARGET, render(), ROOT)
 
 
 if __name__ == "__main__":

@@ -11,9 +11,10 @@ order, so two generations need not be byte-identical; they parse alike.)
 
 from __future__ import annotations
 
-import json
 import sys
 from pathlib import Path
+
+import json_module
 
 ROOT = Path(__file__).resolve().parent.parent
 TARGET = ROOT / "drivelint" / "netlist" / "parse_tables.py"
@@ -32,16 +33,11 @@ def render() -> str:
     from drivelint.netlist.parsers import GRAMMARS, serialised, to_plain
 
     tables = {name: to_plain(serialised(name)) for name in sorted(GRAMMARS)}
-    text = json.dumps(tables, sort_keys=True, separators=(",", ":"))
-    chunks = "\n".join(f"    {json.dumps(text[i : i + 88])}" for i in range(0, len(text), 88))
-    return f"{HEADER}LARK_VERSION = {lark.__version__!r}\nTABLES_JSON = (\n{chunks}\n)\n"
+    return json_module.render(HEADER, {"LARK_VERSION": lark.__version__}, "TABLES_JSON", tables)
 
 
 def main() -> int:
-    text = render()
-    TARGET.write_text(text, encoding="utf-8")
-    print(f"wrote {TARGET.relative_to(ROOT)} ({len(text)} bytes)")
-    return 0
+    return json_module.write(TARGET, render(), ROOT)
 
 
 if __name__ == "__main__":
