@@ -142,7 +142,7 @@ class _Reader:
     def signs(self) -> list[Token]:
         """The prefix operators before an operand (a loop: ``- - - 1`` costs no frames)."""
         found: list[Token] = []
-        while (char := self.peek()) in _PREFIXES and char:
+        while (char := self.peek()) in _PREFIXES:
             found.append(Token(_PREFIXES[char], char, self.position))
             self.position += 1
         return found
